@@ -1,0 +1,54 @@
+"""The shared helpers every stage relies on: errors, atomic writes, deterministic outputs, CLI shell."""
+
+from __future__ import annotations
+
+import pandas as pd
+import pytest
+
+from walkcomfort import _io
+from walkcomfort.cli import VERBS, main
+from walkcomfort.columns import UTCI_BANDS
+from walkcomfort.errors import InputError
+
+
+def test_error_is_one_line_with_where_and_fix():
+    err = InputError("unit 'furlong' for wind\nis not known", where="a/b.csv row 3", fix="use m/s")
+    assert str(err) == "a/b.csv row 3: unit 'furlong' for wind is not known. Fix: use m/s."
+
+
+def test_atomic_write_leaves_no_partial_file(tmp_path):
+    target = tmp_path / "out.json"
+    _io.write_json(target, {"b": 1, "a": float("nan")})
+    assert target.read_text() == '{\n  "a": null,\n  "b": 1\n}\n'
+    assert [p.name for p in tmp_path.iterdir()] == ["out.json"]
+
+
+def test_parquet_is_byte_stable(tmp_path):
+    idx = pd.date_range("2026-07-01", periods=5, freq="s", tz="UTC", name="time")
+    df = pd.DataFrame({"t_air_c": [1.0, 2, 3, 4, 5]}, index=idx)
+    a = _io.write_parquet(tmp_path / "a.parquet", df, {"k": 1}).read_bytes()
+    b = _io.write_parquet(tmp_path / "b.parquet", df, {"k": 1}).read_bytes()
+    assert a == b
+    assert _io.read_parquet_metadata(tmp_path / "a.parquet") == {"k": 1}
+    back = pd.read_parquet(tmp_path / "a.parquet")
+    assert str(back.index.tz) == "UTC"
+
+
+def test_utci_bands_cover_the_line_without_overlap():
+    # the ten categories of the UTCI assessment scale (Bröde et al. 2012)
+    assert len(UTCI_BANDS) == 10
+    for upper, lower in zip(UTCI_BANDS, UTCI_BANDS[1:]):
+        assert upper[0] == lower[1]
+
+
+def test_cli_help_lists_every_verb(capsys):
+    assert main(["--help"]) == 0
+    out = capsys.readouterr().out
+    for verb in VERBS:
+        assert verb in out
+
+
+def test_cli_unknown_verb_is_one_line_exit_2(capsys):
+    assert main(["no-such-verb"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error:") and err.count("\n") == 1

@@ -1,0 +1,114 @@
+"""The ``walkcomfort`` command: a thin shell over the library.
+
+Each verb lives in the ``commands.py`` module of the stage it belongs to and is
+imported only when used, so ``walkcomfort --help`` stays fast and a missing
+optional dependency affects only its own verb.
+
+Errors: a :class:`~walkcomfort.errors.WalkcomfortError` is printed as one line
+(``error: <where>: <what>. Fix: <how>.``) and exits with code 2; anything else is
+reported as an internal error in one line, exit code 1. ``--verbose`` adds the
+traceback in both cases.
+"""
+
+from __future__ import annotations
+
+import importlib
+import sys
+
+import click
+
+from walkcomfort import __version__
+from walkcomfort.errors import WalkcomfortError
+
+# verb -> (module, attribute, one-line help). Order is the order of the data flow.
+VERBS: dict[str, tuple[str, str, str]] = {
+    "check": ("walkcomfort.session.commands", "check", "Validate a session folder; write nothing."),
+    "ingest": ("walkcomfort.session.commands", "ingest", "Align one or many session folders on one timeline with QA."),
+    "thermal": ("walkcomfort.environment.commands", "thermal", "Add sun, shade, sky view, Tmrt and UTCI to timelines."),
+    "frames": ("walkcomfort.imagery.commands", "frames", "Compute camera-frame cues (sky, greenery, people, quality)."),
+    "share": ("walkcomfort.imagery.commands", "share", "Write a shareable copy of a session: faces blurred, track ends trimmed."),
+    "fit": ("walkcomfort.model.commands", "fit", "Fit the comfort model on labelled timelines; validate by walker."),
+    "evaluate": ("walkcomfort.model.commands", "evaluate", "Score a saved model bundle on labelled timelines."),
+    "route": ("walkcomfort.routes.commands", "route", "Predict comfort along one planned route."),
+    "compare": ("walkcomfort.routes.commands", "compare", "Compare shade schemes along a planned route."),
+    "network": ("walkcomfort.network.commands", "network", "Batch every street segment x hour x scheme."),
+    "map": ("walkcomfort.report.commands", "map_", "Write the HTML route map."),
+    "report": ("walkcomfort.report.commands", "report", "Write HTML session or model reports."),
+    "demo": ("walkcomfort.demo.commands", "demo", "Run the whole chain on the invented demo town."),
+}
+
+
+class _LazyGroup(click.Group):
+    def list_commands(self, ctx):
+        return list(VERBS)
+
+    def get_command(self, ctx, name):
+        if name not in VERBS:
+            return None
+        module, attr, short = VERBS[name]
+        try:
+            cmd = getattr(importlib.import_module(module), attr)
+        except (ImportError, AttributeError) as exc:
+            missing = getattr(exc, "name", None) or str(exc)
+
+            @click.command(name=name, help=short, context_settings={"ignore_unknown_options": True})
+            @click.argument("args", nargs=-1, type=click.UNPROCESSED)
+            def unavailable(args):
+                raise WalkcomfortError(f"the '{name}' command is not available ({missing})",
+                                       fix="reinstall with: pip install -e '.[test]'")
+
+            return unavailable
+        cmd.name = name
+        if not cmd.short_help:
+            cmd.short_help = short
+        return cmd
+
+
+@click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="walkcomfort")
+@click.option("--verbose", "-v", is_flag=True, help="Show full tracebacks on errors.")
+@click.pass_context
+def cli(ctx, verbose):
+    """Pedestrian outdoor comfort: field walks in, comfort along planned routes out."""
+    ctx.ensure_object(dict)
+    ctx.obj["verbose"] = verbose
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point: run the CLI and turn errors into one line and an exit code."""
+    args = list(sys.argv[1:] if argv is None else argv)
+    verbose = "--verbose" in args or "-v" in args
+    try:
+        cli.main(args=args, prog_name="walkcomfort", standalone_mode=False)
+    except click.exceptions.Abort:
+        click.echo("error: aborted.", err=True)
+        return 130
+    except click.exceptions.Exit as exc:
+        return exc.exit_code
+    except click.ClickException as exc:
+        click.echo(f"error: {exc.format_message()}", err=True)
+        return 2
+    except WalkcomfortError as exc:
+        if verbose:
+            import traceback
+
+            traceback.print_exception(exc, file=sys.stderr)
+        click.echo(f"error: {exc.one_line()}", err=True)
+        return 2
+    except KeyboardInterrupt:
+        click.echo("error: interrupted.", err=True)
+        return 130
+    except Exception as exc:  # an internal error: still one line unless --verbose
+        if verbose:
+            import traceback
+
+            traceback.print_exception(exc, file=sys.stderr)
+        msg = " ".join(str(exc).split())
+        click.echo(f"internal error: {type(exc).__name__}: {msg} (run with --verbose for the traceback "
+                   "and please report it).", err=True)
+        return 1
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""The invented demo town and its walk simulator."""

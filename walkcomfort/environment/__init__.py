@@ -1,0 +1,1 @@
+"""Thermal environment: sun and irradiance, scene and shade, sky view, Tmrt, UTCI."""

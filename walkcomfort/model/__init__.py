@@ -1,0 +1,1 @@
+"""Comfort model: history features, gradient-boosted classifier, grouped validation, bundles."""

@@ -1,0 +1,1 @@
+"""Outputs people open: HTML route map, session report, model report."""

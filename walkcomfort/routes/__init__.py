@@ -1,0 +1,1 @@
+"""Planned routes: geometry and timing, weather sources, shade schemes, prediction, comparison."""

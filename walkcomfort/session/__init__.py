@@ -1,0 +1,1 @@
+"""Session import: manifest, one reader per source, clocks and lag, timeline, QA."""
