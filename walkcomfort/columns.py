@@ -116,3 +116,10 @@ QA_SETTLING = "qa_settling"        # a lagged sensor had not settled yet
 QA_GPS_JUMP = "qa_gps_jump"        # implied speed far above walking
 QA_UTCI_RANGE = "qa_utci_out_of_range"  # an input outside the UTCI polynomial's validity
 QA_WIND_CLAMPED = "qa_wind_clamped"     # wind at 10 m raised to the 0.5 m/s floor
+
+# --- network scale (walkcomfort.network) -----------------------------------------------
+SEGMENT_ID = "segment_id"          # "<street id>#<n>": one cut piece of a street line
+STREET_ID = "street_id"            # properties.id of the street in the network GeoJSON
+TILE_ID = "tile_id"                # "t<ix>_<iy>": the spatial tile a segment belongs to
+PARTITION_ID = "partition_id"      # "<scheme>/<tile>/c<chunk>": one unit of batch work
+QA_LOW_SUN = "qa_low_sun"          # sun above the horizon but below the batch's lowest elevation considered
