@@ -48,6 +48,12 @@ GREEN_FRAC = "green_frac"     # [-] share of frame pixels classified as vegetati
 BRIGHTNESS_FRAC = "brightness_frac"  # [-] mean luminance 0…1
 PEOPLE_N = "people_n"         # [-] pedestrians detected in the frame
 FRAME_OK = "frame_ok"         # bool: frame passed the quality checks
+FRAME_AGE_S = "frame_age_s"   # [s] age of the frame whose cues a step carries (imagery.attach)
+FRAME_LAPVAR = "frame_lapvar" # [grey levels²] variance of the Laplacian (sharpness; imagery.quality)
+QA_FRAME_BLUR = "qa_frame_blur"                # frame too blurred for cues
+QA_FRAME_OVEREXPOSED = "qa_frame_overexposed"  # too many clipped highlights
+QA_FRAME_UNDEREXPOSED = "qa_frame_underexposed"  # too dark / crushed shadows
+QA_FRAME_OBSTRUCTED = "qa_frame_obstructed"    # something close to the lens blocks the view
 
 # --- votes (events, never interpolated) -------------------------------------------
 VOTE_COMFORT = "vote_comfort"  # one of COMFORT_CLASSES, or missing
