@@ -1,0 +1,344 @@
+"""The network batch job: segments x times x schemes, cut into partitions.
+
+A partition is one tile of segments (with only the obstacles that can shade it,
+see :mod:`walkcomfort.network.tiling`) x one chunk of consecutive times x one
+scheme. It is plain data (a few small DataFrames and a GeoJSON dict), so an
+engine can ship it to a worker, and it states how many rows it must give back:
+one per segment x time. :func:`compute_partition` is the per-partition function
+that turns it into rows; engines call it (or any function with the same
+signature) and check the count.
+
+Output rows (one per segment x time x scheme), index ``time`` (UTC):
+
+``segment_id, scheme, tile_id, sun_elev_deg, sun_azim_deg, shade_frac, svf,
+t_air_c, rh_pct, wind_ms, tmrt_c, utci_c, utci_band, p_comfortable, p_neutral,
+p_uncomfortable, comfort_class, predictor, qa_low_sun, n_points``
+
+Point values are averaged over the segment's sample points (which stand for equal
+lengths of pavement); the class probabilities are the mean of the points'
+probabilities and ``comfort_class`` is the most probable class of that mean.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import re
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort import columns as C
+from walkcomfort.errors import InputError
+from walkcomfort.network.tiling import DEFAULT_Z_M, Tile, make_tiles, obstacle_table, subset_scene
+
+#: The scheme name of the scene as it is (no edits).
+BASE = "base"
+
+_SCHEME_NAME = re.compile(r"[A-Za-z0-9_-][A-Za-z0-9_.-]{0,63}")
+
+P_COLUMNS = tuple(f"p_{c}" for c in C.COMFORT_CLASSES)
+
+#: Columns of a partition's result (after the index ``time``), in this order.
+ROW_COLUMNS = (C.SEGMENT_ID, "scheme", C.TILE_ID, C.SUN_ELEV_DEG, C.SUN_AZIM_DEG, C.SHADE_FRAC, C.SVF,
+               C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.TMRT_C, C.UTCI_C, C.UTCI_BAND, *P_COLUMNS,
+               "comfort_class", "predictor", C.QA_LOW_SUN, "n_points")
+
+
+@dataclass(eq=False)
+class Partition:
+    """One unit of work: a tile's segments x a chunk of times x one scheme.
+
+    Attributes
+    ----------
+    partition_id : str
+        ``"<scheme>/<tile>/c<chunk>"``, stable across runs of the same job.
+    scheme, tile_id : str
+    chunk : int
+        Index of the time chunk.
+    times : pandas.DatetimeIndex
+        UTC times of this chunk.
+    points : pandas.DataFrame
+        The tile's sample points: ``segment_id, point_n, x_m, y_m, lon, lat``.
+    segment_ids : list of str
+        The tile's segments, in network order.
+    scene : dict or None
+        GeoJSON of the scene (scheme applied) restricted to the obstacles the tile needs.
+    weather : pandas.DataFrame or None
+        Weather at ``times`` (index ``time``; ``t_air_c, rh_pct, wind_ms`` and
+        optionally ``ghi_wm2, dni_wm2, dhi_wm2``).
+    context : dict
+        Job-wide settings: ``site`` (lat, lon, elev_m), ``z_m``, ``min_sun_elev_deg``,
+        ``wind_height_m``, ``model`` (bundle folder or None), ...
+    """
+
+    partition_id: str
+    scheme: str
+    tile_id: str
+    chunk: int
+    times: pd.DatetimeIndex
+    points: pd.DataFrame
+    segment_ids: list[str]
+    scene: dict | None = None
+    weather: pd.DataFrame | None = None
+    context: dict = field(default_factory=dict)
+
+    @property
+    def expected_rows(self) -> int:
+        return len(self.segment_ids) * len(self.times)
+
+    def expected_keys(self) -> pd.MultiIndex:
+        """Every ``(segment_id, time)`` this partition must return, in row order."""
+        return pd.MultiIndex.from_product([self.segment_ids, self.times], names=[C.SEGMENT_ID, C.TIME])
+
+
+PartitionFn = Callable[[Partition], pd.DataFrame]
+
+
+@dataclass(eq=False)
+class NetworkJob:
+    """A whole batch: every partition, the function to run on each, and the job's identity."""
+
+    partitions: list[Partition]
+    partition_fn: PartitionFn
+    parameters: dict
+    digest: str
+    schemes: list[str]
+
+    @property
+    def expected_rows(self) -> int:
+        return sum(p.expected_rows for p in self.partitions)
+
+    def partition(self, partition_id: str) -> Partition:
+        for p in self.partitions:
+            if p.partition_id == partition_id:
+                return p
+        raise KeyError(partition_id)
+
+
+def daytime_times(start, end, step: str = "1h", timezone: str = "UTC") -> pd.DatetimeIndex:
+    """UTC times from ``start`` to ``end`` inclusive at ``step``.
+
+    Naive ``start``/``end`` are read in ``timezone`` (an IANA name); aware ones keep
+    their zone. Returns a tz-aware UTC :class:`pandas.DatetimeIndex` named ``time``.
+    """
+    try:
+        t0, t1 = pd.Timestamp(start), pd.Timestamp(end)
+        delta = pd.Timedelta(step)
+    except (ValueError, TypeError) as exc:
+        raise InputError(f"time range {start!r} … {end!r} at step {step!r} cannot be read ({exc})",
+                         fix="give ISO times such as 2026-07-14T07:00 and a step such as 1h or 30min") from None
+    if delta <= pd.Timedelta(0):
+        raise InputError(f"time step {step!r} is not positive", fix="give a step such as 1h")
+    t0 = t0.tz_localize(timezone) if t0.tzinfo is None else t0
+    t1 = t1.tz_localize(timezone) if t1.tzinfo is None else t1
+    if t1 < t0:
+        raise InputError(f"time range ends ({t1}) before it starts ({t0})", fix="swap start and end")
+    return pd.date_range(t0.tz_convert("UTC"), t1.tz_convert("UTC"), freq=delta, name=C.TIME)
+
+
+def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
+             weather: pd.DataFrame | None = None, *, tile_size_m: float = 250.0, time_chunk: int = 24,
+             min_sun_elev_deg: float = 5.0, z_m: float = DEFAULT_Z_M, site: dict | None = None,
+             partition_fn: PartitionFn | None = None, context: dict | None = None) -> NetworkJob:
+    """Cut a batch into partitions (tile x time chunk x scheme).
+
+    Parameters
+    ----------
+    network : walkcomfort.network.segments.Network
+    times : pandas.DatetimeIndex
+        tz-aware UTC times to compute (see :func:`daytime_times`).
+    scenes : dict
+        Scheme name -> scene GeoJSON with that scheme already applied (``"base"``
+        for the scene as it is; ``None`` for no obstacles at all).
+    weather : pandas.DataFrame, optional
+        Weather at exactly ``times`` (index ``time``).
+    tile_size_m : float
+        Side of a spatial tile [m].
+    time_chunk : int
+        Number of consecutive times per partition.
+    min_sun_elev_deg : float
+        Lowest sun elevation used for shade [°]; sets the tiles' obstacle buffer.
+    z_m : float
+        Height of the walker's sample points [m].
+    site : dict, optional
+        ``lat, lon, elev_m`` of the site for the sun; default the network's centre.
+    partition_fn : callable, optional
+        The per-partition function (default :func:`compute_partition`).
+    context : dict, optional
+        Extra job-wide settings passed to every partition (for example ``model``).
+
+    Returns
+    -------
+    NetworkJob
+    """
+    if not isinstance(times, pd.DatetimeIndex) or times.tz is None or len(times) == 0:
+        raise InputError("the batch needs a non-empty tz-aware list of times",
+                         fix="build them with walkcomfort.network.batch.daytime_times(start, end, step)")
+    times = times.tz_convert("UTC").rename(C.TIME)
+    if times.has_duplicates or not times.is_monotonic_increasing:
+        raise InputError("the batch times repeat or are not in increasing order",
+                         fix="give a strictly increasing time range")
+    if not isinstance(time_chunk, int) or time_chunk < 1:
+        raise InputError(f"time chunk = {time_chunk!r} is not a positive whole number of time steps",
+                         fix="give for example 24")
+    if not scenes:
+        raise InputError("the batch has no scheme to compute", fix="give at least the base scene")
+    for name in scenes:
+        if not isinstance(name, str) or not _SCHEME_NAME.fullmatch(name):
+            raise InputError(f"scheme name {name!r} cannot name a results folder; allowed: letters, digits, "
+                             "'_', '-', '.' (1-64 characters, not starting with '.')",
+                             fix="rename the scheme (its top-level walkcomfort.scheme member)")
+    if weather is not None:
+        missing = times.difference(weather.index)
+        if len(missing):
+            raise InputError(f"weather has no row at {len(missing)} of the batch times (first {missing[0]})",
+                             fix="give weather at every batch time (resample the weather source to the step)")
+        weather = weather.loc[times]
+    if site is None:
+        site = {"lat": float(network.points[C.LAT].mean()), "lon": float(network.points[C.LON].mean()),
+                "elev_m": 0.0}
+    ctx = {"site": dict(site), "z_m": float(z_m), "min_sun_elev_deg": float(min_sun_elev_deg)}
+    ctx.update(context or {})
+    fn = partition_fn or compute_partition
+
+    chunks = [times[i:i + time_chunk] for i in range(0, len(times), time_chunk)]
+    parts: list[Partition] = []
+    scheme_digests = {}
+    for scheme in sorted(scenes, key=lambda s: (s != BASE, s)):
+        scene = scenes[scheme]
+        scheme_digests[scheme] = _json_digest(scene)
+        tiles: list[Tile] = make_tiles(network, obstacle_table(scene, network.crs), tile_size_m,
+                                       min_sun_elev_deg, z_m)
+        for tile in tiles:
+            pts = network.points.loc[network.points[C.SEGMENT_ID].isin(tile.segment_ids)].reset_index(drop=True)
+            tscene = subset_scene(scene, tile.obstacle_ids)
+            for k, chunk in enumerate(chunks):
+                w = None if weather is None else weather.loc[chunk]
+                parts.append(Partition(f"{scheme}/{tile.tile_id}/c{k:04d}", scheme, tile.tile_id, k, chunk,
+                                       pts, list(tile.segment_ids), tscene, w, ctx))
+
+    params = {"network": network.name, "segments": network.n_segments,
+              "segment_length_m": network.parameters.get("segment_length_m"),
+              "spacing_m": network.parameters.get("spacing_m"),
+              "times": {"start": times[0].isoformat(), "end": times[-1].isoformat(), "n": len(times)},
+              "schemes": sorted(scenes), "tile_size_m": float(tile_size_m), "time_chunk": time_chunk,
+              "partition_fn": f"{fn.__module__}.{fn.__qualname__}",
+              "context": {k: v for k, v in ctx.items()}}
+    h = hashlib.sha256()
+    h.update(json.dumps(params, sort_keys=True, default=str).encode())
+    h.update(pd.util.hash_pandas_object(network.points, index=False).values.tobytes())
+    h.update(json.dumps(scheme_digests, sort_keys=True).encode())
+    if weather is not None:
+        h.update(pd.util.hash_pandas_object(weather, index=True).values.tobytes())
+    params["scheme_digests"] = scheme_digests
+    return NetworkJob(parts, fn, params, "sha256:" + h.hexdigest(), sorted(scenes))
+
+
+def _json_digest(obj) -> str:
+    return "sha256:" + hashlib.sha256(json.dumps(obj, sort_keys=True).encode()).hexdigest()
+
+
+def check_partition_result(part: Partition, rows: pd.DataFrame) -> pd.DataFrame:
+    """Check a partition function's result: one row per segment x time, nothing more or less.
+
+    Returns the rows in canonical order (network order of segments, then time);
+    raises :class:`PartitionResultError` when rows are missing, extra or repeated.
+    """
+    if not isinstance(rows, pd.DataFrame) or C.SEGMENT_ID not in rows.columns or rows.index.name != C.TIME:
+        raise PartitionResultError(f"partition {part.partition_id}: the partition function must return a "
+                                   f"DataFrame indexed by '{C.TIME}' with a '{C.SEGMENT_ID}' column")
+    keys = pd.MultiIndex.from_arrays([rows[C.SEGMENT_ID].to_numpy(), rows.index], names=[C.SEGMENT_ID, C.TIME])
+    want = part.expected_keys()
+    if len(rows) != part.expected_rows or keys.has_duplicates or not keys.sort_values().equals(
+            want.sort_values()):
+        n_missing = len(want.difference(keys))
+        n_extra = len(keys.difference(want)) + int(keys.duplicated().sum())
+        raise PartitionResultError(f"partition {part.partition_id}: expected {part.expected_rows} rows, got "
+                                   f"{len(rows)} ({n_missing} missing, {n_extra} extra or repeated)")
+    order = want.get_indexer(keys)
+    return rows.iloc[np.argsort(order, kind="stable")]
+
+
+class PartitionResultError(RuntimeError):
+    """A partition function returned the wrong rows."""
+
+
+# --------------------------------------------------------------------------------------------
+# the real per-partition computation
+
+
+def compute_partition(part: Partition) -> pd.DataFrame:
+    """Sun, shade, sky view, Tmrt, UTCI and comfort for every point x time of a partition.
+
+    Calls the public functions of :mod:`walkcomfort.environment` (sun position,
+    irradiance, beam transmittance on the points x times grid, sky view factor,
+    Tmrt from fluxes, UTCI) and of :mod:`walkcomfort.model` / :mod:`walkcomfort.routes`
+    for the comfort prediction, then averages points to segments.
+
+    Parameters
+    ----------
+    part : Partition
+
+    Returns
+    -------
+    pandas.DataFrame
+        :data:`ROW_COLUMNS`, index ``time``, one row per segment x time.
+    """
+    from walkcomfort.network import _physics
+
+    return _physics.partition_rows(part)
+
+
+def aggregate_points(part: Partition, point_values: dict[str, np.ndarray], predictor: str) -> pd.DataFrame:
+    """Average ``(N points, T times)`` arrays to one row per segment x time (see module docstring).
+
+    ``point_values`` maps a column name to an ``(N, T)`` array (points in
+    ``part.points`` order) or a ``(T,)`` array (same for every point). The
+    probabilities must be among them; ``comfort_class`` is derived here.
+    """
+    seg = part.points[C.SEGMENT_ID].to_numpy()
+    codes, uniques = pd.factorize(seg, sort=False)
+    order = pd.Index(uniques).get_indexer(part.segment_ids)
+    if (order < 0).any():
+        raise PartitionResultError(f"partition {part.partition_id}: a segment has no sample point")
+    counts = np.bincount(codes, minlength=len(uniques)).astype(float)
+    n_t = len(part.times)
+    out: dict[str, np.ndarray] = {}
+    for name, arr in point_values.items():
+        arr = np.asarray(arr)
+        if arr.ndim == 1:
+            out[name] = np.tile(arr, len(part.segment_ids))
+            continue
+        if arr.dtype == bool:
+            sums = np.zeros((len(uniques), n_t))
+            np.add.at(sums, codes, arr.astype(float))
+            out[name] = (sums[order] > 0).reshape(-1)
+            continue
+        sums = np.zeros((len(uniques), n_t))
+        np.add.at(sums, codes, arr.astype(float))
+        out[name] = (sums / counts[:, None])[order].reshape(-1)
+    probs = np.column_stack([out[c] for c in P_COLUMNS])
+    out["comfort_class"] = np.asarray(C.COMFORT_CLASSES, dtype=object)[np.argmax(probs, axis=1)]
+    idx = pd.DatetimeIndex(np.tile(part.times.to_numpy(), len(part.segment_ids)), tz="UTC", name=C.TIME)
+    df = pd.DataFrame(out, index=idx)
+    df.insert(0, C.SEGMENT_ID, np.repeat(np.asarray(part.segment_ids, dtype=object), n_t))
+    df.insert(1, "scheme", part.scheme)
+    df.insert(2, C.TILE_ID, part.tile_id)
+    df["predictor"] = predictor
+    df["n_points"] = np.repeat(counts[order].astype(np.int32), n_t)
+    if C.UTCI_C in df.columns and C.UTCI_BAND not in df.columns:
+        df[C.UTCI_BAND] = utci_band_names(df[C.UTCI_C].to_numpy())
+    return df[[c for c in ROW_COLUMNS if c in df.columns]]
+
+
+def utci_band_names(utci_c: np.ndarray) -> np.ndarray:
+    """Name of the UTCI assessment-scale band of each value (Bröde et al. 2012; bounds in columns.py)."""
+    utci_c = np.asarray(utci_c, dtype=float)
+    out = np.full(utci_c.shape, None, dtype=object)
+    for lo, hi, name in C.UTCI_BANDS:
+        out[(utci_c > lo) & (utci_c <= hi)] = name
+    return out
+

@@ -1,0 +1,338 @@
+"""Engines that run a :class:`~walkcomfort.network.batch.NetworkJob`: in-process or on Dask.
+
+Both engines do the same thing with each partition: call the job's partition
+function, check that it returned exactly one row per segment x time
+(:func:`~walkcomfort.network.batch.check_partition_result`), retry it when it
+raised, and write its rows to one Parquet file, atomically. A partition that
+still fails after its retries is reported by id with its error; the job's
+report then says ``ok = False`` and the ``network`` command exits non-zero. No
+partition is ever silently missing: the report counts rows expected and written.
+
+Layout of the results (hive-style partitioned Parquet, readable by pyarrow,
+pandas and dask.dataframe)::
+
+    OUT/segment_hours/scheme=<scheme>/tile_id=<tile>/part-c<chunk>.parquet
+    OUT/job.json      the report: job digest, engine, every partition's status
+
+``scheme`` and ``tile_id`` live in the folder names only (storing them in the files
+too makes the dataset readers refuse the schema); :func:`read_segment_hours`
+puts them back as columns.
+
+The Dask engine starts a ``dask.distributed.LocalCluster`` bound to the loopback
+interface, or connects to an existing scheduler by address. It only computes
+there: rows come back to this process, which writes them, so workers need no
+access to the output folder (a partition's rows are small: segments x times).
+"""
+
+from __future__ import annotations
+
+import os
+import time as _time
+import traceback
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import pandas as pd
+
+from walkcomfort import _io
+from walkcomfort import columns as C
+from walkcomfort._progress import track
+from walkcomfort.errors import InputError
+from walkcomfort.network.batch import NetworkJob, Partition, check_partition_result
+
+RESULTS_DIR = "segment_hours"
+REPORT_FILE = "job.json"
+
+ENGINES = ("in-process", "dask")
+
+
+@dataclass
+class PartitionOutcome:
+    """What happened to one partition."""
+
+    partition_id: str
+    status: str                 # "written" | "kept" (resumed, already written) | "failed"
+    expected_rows: int
+    written_rows: int = 0
+    attempts: int = 0
+    path: str | None = None
+    error: str | None = None
+
+
+@dataclass
+class JobReport:
+    """Outcome of a run: counts reconcile (expected = written) unless a partition failed."""
+
+    job_digest: str
+    engine: str
+    outcomes: list[PartitionOutcome] = field(default_factory=list)
+    seconds: float = 0.0
+    parameters: dict = field(default_factory=dict)
+
+    @property
+    def expected_rows(self) -> int:
+        return sum(o.expected_rows for o in self.outcomes)
+
+    @property
+    def written_rows(self) -> int:
+        return sum(o.written_rows for o in self.outcomes if o.status != "failed")
+
+    @property
+    def failed(self) -> list[PartitionOutcome]:
+        return [o for o in self.outcomes if o.status == "failed"]
+
+    @property
+    def ok(self) -> bool:
+        return not self.failed and self.expected_rows == self.written_rows
+
+    def to_dict(self) -> dict:
+        # no wall-clock time in the file: re-runs give the same bytes (seconds are printed, not stored)
+        return {"job_digest": self.job_digest, "engine": self.engine, "ok": self.ok,
+                "rows_expected": self.expected_rows, "rows_written": self.written_rows,
+                "partitions": len(self.outcomes), "failed": [o.partition_id for o in self.failed],
+                "parameters": self.parameters,
+                "outcomes": [asdict(o) for o in sorted(self.outcomes, key=lambda o: o.partition_id)]}
+
+
+def partition_path(out_dir: str | os.PathLike, part: Partition) -> Path:
+    """Where a partition's rows are written (see module docstring)."""
+    return (Path(out_dir) / RESULTS_DIR / f"scheme={part.scheme}" / f"{C.TILE_ID}={part.tile_id}"
+            / f"part-c{part.chunk:04d}.parquet")
+
+
+def run_partition(fn, part: Partition) -> pd.DataFrame:
+    """Run ``fn`` on ``part`` and check its rows (this is what a worker executes)."""
+    return check_partition_result(part, fn(part))
+
+
+def _write(out_dir, job: NetworkJob, part: Partition, rows: pd.DataFrame) -> Path:
+    body = rows.drop(columns=["scheme", C.TILE_ID], errors="ignore")
+    meta = {"job_digest": job.digest, C.PARTITION_ID: part.partition_id, "scheme": part.scheme,
+            C.TILE_ID: part.tile_id, "chunk": part.chunk, "rows_expected": part.expected_rows}
+    return _io.write_parquet(partition_path(out_dir, part), body, meta)
+
+
+def _already_written(out_dir, job: NetworkJob, part: Partition) -> int | None:
+    """Rows of a partition file left by an earlier run of the *same* job, else None."""
+    import pyarrow.parquet as pq
+
+    path = partition_path(out_dir, part)
+    if not path.exists():
+        return None
+    try:
+        meta = _io.read_parquet_metadata(path)
+        n = pq.ParquetFile(path).metadata.num_rows
+    except Exception:  # a foreign or damaged file is recomputed, never trusted
+        return None
+    if meta.get("job_digest") == job.digest and n == part.expected_rows:
+        return n
+    return None
+
+
+def _error_text(exc: BaseException) -> str:
+    last = traceback.extract_tb(exc.__traceback__)[-1:] if exc.__traceback__ else []
+    at = f" at {last[0].filename.rsplit(os.sep, 1)[-1]}:{last[0].lineno}" if last else ""
+    return " ".join(f"{type(exc).__name__}: {exc}{at}".split())
+
+
+class InProcessEngine:
+    """Run every partition in this process, one after the other (no services needed).
+
+    Parameters
+    ----------
+    retries : int
+        Extra attempts for a partition that raised (0 = no retry).
+    """
+
+    name = "in-process"
+
+    def __init__(self, retries: int = 2):
+        self.retries = int(retries)
+
+    def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None) -> JobReport:
+        report = JobReport(job.digest, self.name, parameters=_engine_params(self))
+        t0 = _time.perf_counter()
+        todo = _resume(job, out_dir, report, resume)
+        for part in track(todo, "network partitions", total=len(todo), enabled=progress):
+            outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
+            for attempt in range(1, self.retries + 2):
+                outcome.attempts = attempt
+                try:
+                    rows = run_partition(job.partition_fn, part)
+                except Exception as exc:  # reported by partition id, never swallowed
+                    outcome.error = _error_text(exc)
+                    continue
+                path = _write(out_dir, job, part, rows)
+                outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
+                outcome.path = path.relative_to(out_dir).as_posix()
+                break
+            report.outcomes.append(outcome)
+        report.seconds = _time.perf_counter() - t0
+        _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
+        return report
+
+
+class DaskEngine:
+    """Run partitions on Dask: a LocalCluster on this machine or an existing scheduler.
+
+    Parameters
+    ----------
+    scheduler : str, optional
+        Address of a running scheduler (``tcp://host:8786``). Without it a
+        ``LocalCluster`` is started on 127.0.0.1 for the run and closed after.
+    workers : int
+        Workers of the LocalCluster.
+    threads_per_worker : int
+        Threads per LocalCluster worker (1: the physics is numpy-heavy and holds the GIL often).
+    processes : bool
+        LocalCluster workers as processes (True) or threads in this process (False).
+    retries : int
+        Extra attempts Dask makes for a partition that raised.
+    timeout_s : float
+        How long to wait for the cluster to start or the scheduler to answer [s].
+    """
+
+    name = "dask"
+
+    def __init__(self, scheduler: str | None = None, workers: int = 2, threads_per_worker: int = 1,
+                 processes: bool = True, retries: int = 2, timeout_s: float = 60.0):
+        self.scheduler = scheduler
+        self.workers = int(workers)
+        self.threads_per_worker = int(threads_per_worker)
+        self.processes = bool(processes)
+        self.retries = int(retries)
+        self.timeout_s = float(timeout_s)
+        if self.workers < 1 or self.threads_per_worker < 1:
+            raise InputError(f"workers = {workers!r}, threads per worker = {threads_per_worker!r}: both must be "
+                             "at least 1", fix="give --workers 2 for example")
+
+    def _client(self):
+        try:
+            from distributed import Client, LocalCluster
+        except ImportError:
+            raise InputError("the Dask engine needs the 'distributed' package, which is not installed",
+                             fix="pip install -e '.[dask]' (or use --engine in-process)") from None
+        if self.scheduler:
+            try:
+                return Client(self.scheduler, timeout=self.timeout_s), None
+            except (OSError, TimeoutError) as exc:
+                raise InputError(f"no Dask scheduler answered at {self.scheduler!r} ({exc})",
+                                 fix="start one (dask scheduler) or leave the address out to use a local "
+                                     "cluster") from None
+        kw = dict(n_workers=self.workers, threads_per_worker=self.threads_per_worker,
+                  processes=self.processes, dashboard_address="127.0.0.1:0")
+        # threads-in-process workers talk over tcp on loopback too, so nothing listens beyond 127.0.0.1
+        kw.update(host="127.0.0.1", protocol="tcp")
+        cluster = LocalCluster(**kw)
+        try:
+            return Client(cluster, timeout=self.timeout_s), cluster
+        except BaseException:
+            cluster.close()
+            raise
+
+    def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None) -> JobReport:
+        from distributed import as_completed
+
+        report = JobReport(job.digest, self.name, parameters=_engine_params(self))
+        t0 = _time.perf_counter()
+        todo = _resume(job, out_dir, report, resume)
+        if not todo:
+            report.seconds = _time.perf_counter() - t0
+            _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
+            return report
+        client, cluster = self._client()
+        try:
+            by_key = {}
+            futures = []
+            tag = job.digest.split(":")[-1][:12]
+            for part in todo:
+                key = f"walkcomfort-network-{tag}-{part.partition_id}"
+                fut = client.submit(run_partition, job.partition_fn, part, key=key, retries=self.retries,
+                                    pure=False)
+                by_key[fut.key] = part
+                futures.append(fut)
+            for fut in track(as_completed(futures), "network partitions", total=len(futures), enabled=progress):
+                part = by_key[fut.key]
+                outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
+                if fut.status == "error":
+                    exc = fut.exception()
+                    exc.__traceback__ = fut.traceback()
+                    outcome.error = _error_text(exc)
+                    outcome.attempts = self.retries + 1
+                else:
+                    rows = fut.result()
+                    path = _write(out_dir, job, part, rows)
+                    outcome.status, outcome.written_rows = "written", len(rows)
+                    outcome.path = path.relative_to(out_dir).as_posix()
+                    # Dask does not tell how many tries a success took; at least one
+                    outcome.attempts = 1
+                fut.release()
+                report.outcomes.append(outcome)
+        finally:
+            client.close()
+            if cluster is not None:
+                cluster.close()
+        report.seconds = _time.perf_counter() - t0
+        _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
+        return report
+
+
+def _engine_params(engine) -> dict:
+    if isinstance(engine, DaskEngine):
+        return {"engine": "dask", "scheduler": engine.scheduler, "workers": engine.workers,
+                "threads_per_worker": engine.threads_per_worker, "processes": engine.processes,
+                "retries": engine.retries}
+    return {"engine": "in-process", "retries": engine.retries}
+
+
+def _resume(job: NetworkJob, out_dir, report: JobReport, resume: bool) -> list[Partition]:
+    Path(out_dir).mkdir(parents=True, exist_ok=True)
+    todo = []
+    for part in job.partitions:
+        n = _already_written(out_dir, job, part) if resume else None
+        if n is None:
+            todo.append(part)
+        else:
+            report.outcomes.append(PartitionOutcome(part.partition_id, "kept", part.expected_rows, n, 0,
+                                                    partition_path(out_dir, part).relative_to(out_dir).as_posix()))
+    return todo
+
+
+def make_engine(engine: str = "in-process", **options):
+    """``"in-process"`` -> :class:`InProcessEngine`, ``"dask"`` -> :class:`DaskEngine` (options passed on)."""
+    if engine == "in-process":
+        return InProcessEngine(retries=options.get("retries", 2))
+    if engine == "dask":
+        return DaskEngine(**options)
+    raise InputError(f"engine {engine!r} is not known; allowed: {', '.join(ENGINES)}",
+                     fix="give --engine in-process or --engine dask")
+
+
+def run_job(job: NetworkJob, out_dir, engine: str = "in-process", resume: bool = False,
+            progress: bool | None = None, **options) -> JobReport:
+    """Run ``job`` on the named engine and write its results and report under ``out_dir``."""
+    return make_engine(engine, **options).run(job, out_dir, resume=resume, progress=progress)
+
+
+def read_segment_hours(out_dir, scheme: str | None = None) -> pd.DataFrame:
+    """All rows written under ``out_dir`` (index ``time``), with ``scheme`` and ``tile_id`` restored.
+
+    Rows come in a fixed order (scheme, tile, chunk, then each file's order), so two
+    runs of the same job compare equal whatever engine wrote them.
+    """
+    import pyarrow.parquet as pq
+
+    root = Path(out_dir) / RESULTS_DIR
+    files = sorted(root.glob("scheme=*/tile_id=*/part-c*.parquet"))
+    if scheme is not None:
+        files = [f for f in files if f.parent.parent.name == f"scheme={scheme}"]
+    if not files:
+        raise InputError(f"no batch results under '{root}'", where=root,
+                         fix="run the network batch first (walkcomfort network ...)")
+    frames = []
+    for f in files:
+        df = pq.read_table(f).to_pandas()
+        df.insert(1, "scheme", f.parent.parent.name.split("=", 1)[1])
+        df.insert(2, C.TILE_ID, f.parent.name.split("=", 1)[1])
+        frames.append(df)
+    return pd.concat(frames)
