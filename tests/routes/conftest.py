@@ -1,0 +1,44 @@
+"""Fixtures for the routes tests: small route files written into tmp_path."""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+
+import pytest
+
+PVLIB_DATA = None
+
+
+def pvlib_data() -> Path:
+    import pvlib
+
+    return Path(os.path.dirname(pvlib.__file__)) / "data"
+
+
+@pytest.fixture
+def greensboro_tmy3() -> Path:
+    # NREL TMY3 file for Greensboro, NC that ships inside pvlib's package data
+    return pvlib_data() / "723170TYA.CSV"
+
+
+@pytest.fixture
+def miami_tmy2() -> Path:
+    # NREL TMY2 file for Miami, FL that ships inside pvlib's package data
+    return pvlib_data() / "12839.tm2"
+
+
+def write_line(path: Path, coords, props=None, extra_features=()) -> Path:
+    feats = [{"type": "Feature", "properties": props or {}, "geometry": {"type": "LineString", "coordinates": coords}}]
+    feats += list(extra_features)
+    path.write_text(json.dumps({"type": "FeatureCollection", "features": feats}))
+    return path
+
+
+@pytest.fixture
+def line_factory(tmp_path):
+    def make(coords, props=None, extra_features=(), name="route.geojson"):
+        return write_line(tmp_path / name, coords, props, extra_features)
+
+    return make
