@@ -12,11 +12,12 @@ Output rows (one per segment x time x scheme), index ``time`` (UTC):
 
 ``segment_id, scheme, tile_id, sun_elev_deg, sun_azim_deg, shade_frac, svf,
 t_air_c, rh_pct, wind_ms, tmrt_c, utci_c, utci_band, p_comfortable, p_neutral,
-p_uncomfortable, comfort_class, predictor, qa_low_sun, n_points``
+p_uncomfortable, comfort_class, predictor, qa_low_sun, qa_utci_out_of_range, n_points``
 
 Point values are averaged over the segment's sample points (which stand for equal
 lengths of pavement); the class probabilities are the mean of the points'
-probabilities and ``comfort_class`` is the most probable class of that mean.
+probabilities and ``comfort_class`` is the most probable class of that mean; a
+``qa_`` flag is set when it is set at any point of the segment.
 """
 
 from __future__ import annotations
@@ -44,7 +45,7 @@ P_COLUMNS = tuple(f"p_{c}" for c in C.COMFORT_CLASSES)
 #: Columns of a partition's result (after the index ``time``), in this order.
 ROW_COLUMNS = (C.SEGMENT_ID, "scheme", C.TILE_ID, C.SUN_ELEV_DEG, C.SUN_AZIM_DEG, C.SHADE_FRAC, C.SVF,
                C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.TMRT_C, C.UTCI_C, C.UTCI_BAND, *P_COLUMNS,
-               "comfort_class", "predictor", C.QA_LOW_SUN, "n_points")
+               "comfort_class", "predictor", C.QA_LOW_SUN, C.QA_UTCI_RANGE, "n_points")
 
 
 @dataclass(eq=False)
@@ -204,7 +205,11 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
     ctx.update(context or {})
     fn = partition_fn or compute_partition
 
-    chunks = [times[i:i + time_chunk] for i in range(0, len(times), time_chunk)]
+    # a chunk never spans two months, so each partition has one leaf-on state of the trees
+    chunks = []
+    for _, month_times in pd.Series(times, index=times).groupby([times.year, times.month], sort=True):
+        mt = pd.DatetimeIndex(month_times.index, name=C.TIME)
+        chunks.extend(mt[i:i + time_chunk] for i in range(0, len(mt), time_chunk))
     parts: list[Partition] = []
     scheme_digests = {}
     for scheme in sorted(scenes, key=lambda s: (s != BASE, s)):
@@ -330,15 +335,8 @@ def aggregate_points(part: Partition, point_values: dict[str, np.ndarray], predi
     df["predictor"] = predictor
     df["n_points"] = np.repeat(counts[order].astype(np.int32), n_t)
     if C.UTCI_C in df.columns and C.UTCI_BAND not in df.columns:
-        df[C.UTCI_BAND] = utci_band_names(df[C.UTCI_C].to_numpy())
+        from walkcomfort.environment.utci import utci_band
+
+        df[C.UTCI_BAND] = np.asarray(utci_band(df[C.UTCI_C].to_numpy()), dtype=object)
     return df[[c for c in ROW_COLUMNS if c in df.columns]]
-
-
-def utci_band_names(utci_c: np.ndarray) -> np.ndarray:
-    """Name of the UTCI assessment-scale band of each value (Bröde et al. 2012; bounds in columns.py)."""
-    utci_c = np.asarray(utci_c, dtype=float)
-    out = np.full(utci_c.shape, None, dtype=object)
-    for lo, hi, name in C.UTCI_BANDS:
-        out[(utci_c > lo) & (utci_c <= hi)] = name
-    return out
 

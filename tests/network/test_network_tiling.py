@@ -1,0 +1,86 @@
+"""Scene tiling: every obstacle that can shade a tile's points travels with the tile."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from walkcomfort import columns as C
+from walkcomfort.errors import InputError
+from walkcomfort.network.segments import network_from_geojson
+from walkcomfort.network.tiling import make_tiles, obstacle_table, shadow_reach_m, subset_scene
+
+M_PER_DEG = 111_320.0  # as in walkcomfort.network.synthetic
+
+
+def _ll(x, y, lon0=3.0, lat0=0.0):
+    return [lon0 + x / (M_PER_DEG * math.cos(math.radians(lat0))), lat0 + y / M_PER_DEG]
+
+
+def _building(fid, x0, y0, x1, y1, h):
+    ring = [_ll(x, y) for x, y in ((x0, y0), (x1, y0), (x1, y1), (x0, y1), (x0, y0))]
+    return {"type": "Feature", "properties": {"id": fid, "kind": "building", "height_m": h},
+            "geometry": {"type": "Polygon", "coordinates": [ring]}}
+
+
+def _street(fid, x0, y0, x1, y1):
+    return {"type": "Feature", "properties": {"id": fid},
+            "geometry": {"type": "LineString", "coordinates": [_ll(x0, y0), _ll(x1, y1)]}}
+
+
+def test_shadow_reach_from_the_geometry_of_a_shadow():
+    # from the definition: (H - z) / tan(e); 20 m wall, point at 1.1 m, sun at 5° -> 216.03 m
+    assert shadow_reach_m(20.0, 5.0) == pytest.approx(18.9 / math.tan(math.radians(5.0)), rel=1e-12)
+    assert shadow_reach_m(20.0, 5.0) == pytest.approx(216.03, abs=0.01)
+    # sun at 45°: reach equals the height above the point
+    assert np.allclose(shadow_reach_m([1.1, 11.1], 45.0), [0.0, 10.0])
+    with pytest.raises(InputError):
+        shadow_reach_m(10.0, 0.0)
+
+
+def test_tall_building_outside_a_tile_travels_with_it_low_one_does_not():
+    # two tiles side by side (100 m each); a street in the west tile ends 2 m from the edge.
+    # east of the edge: a 40 m tower 80 m from the street's end (reach 444 m at 5°) and a
+    # 3 m wall about as far (reach 21.7 m), but 10 m from the east tile's street
+    net = network_from_geojson({"type": "FeatureCollection", "features": [
+        _street("w", 10, 50, 98, 50), _street("e", 110, 20, 190, 20)]}, segment_length_m=100, spacing_m=10)
+    scene = {"type": "FeatureCollection", "features": [
+        _building("tower", 178, 40, 190, 60, 40.0), _building("wall", 178, 30, 190, 35, 3.0),
+        _building("far", 700, 40, 710, 60, 40.0)]}
+    obst = obstacle_table(scene, net.crs)
+    tiles = {t.tile_id: t for t in make_tiles(net, obst, tile_size_m=100.0, min_sun_elev_deg=5.0)}
+    west = [t for t in tiles.values() if "w#000" in t.segment_ids][0]
+    east = [t for t in tiles.values() if "e#000" in t.segment_ids][0]
+    assert west.tile_id != east.tile_id
+    assert west.obstacle_ids == ["tower"]            # outside the tile, but its shadow reaches in
+    assert east.obstacle_ids == ["tower", "wall"]    # the wall is 10 m from the east street
+    sub = subset_scene(scene, west.obstacle_ids)
+    assert [f["properties"]["id"] for f in sub["features"]] == ["tower"]
+    # a higher sun shortens the reach: at 30° the tower reaches 67.4 m < 80 m
+    tiles30 = make_tiles(net, obst, tile_size_m=100.0, min_sun_elev_deg=30.0)
+    assert [t.obstacle_ids for t in tiles30 if "w#000" in t.segment_ids] == [[]]
+
+
+def test_point_tree_is_its_crown_disc():
+    net = network_from_geojson({"type": "FeatureCollection", "features": [_street("s", 0, 0, 50, 0)]})
+    tree = {"type": "Feature", "properties": {"id": "oak", "kind": "tree", "height_m": 10.0, "crown_radius_m": 4.0,
+                                               "crown_base_m": 3.0, "transmissivity": 0.2},
+            "geometry": {"type": "Point", "coordinates": _ll(25, 10)}}
+    obst = obstacle_table({"type": "FeatureCollection", "features": [tree]}, net.crs)
+    assert obst["geometry"].iloc[0].area == pytest.approx(math.pi * 16, rel=0.01)
+    assert obst.loc[0, "height_m"] == 10.0
+    assert make_tiles(net, obst)[0].obstacle_ids == ["oak"]
+
+
+def test_every_segment_lands_in_exactly_one_tile():
+    from walkcomfort.network.synthetic import grid_network
+
+    net = network_from_geojson(grid_network(6, 5, block_m=80.0), segment_length_m=40.0)
+    tiles = make_tiles(net, obstacle_table(None, net.crs), tile_size_m=130.0)
+    ids = [s for t in tiles for s in t.segment_ids]
+    assert sorted(ids) == sorted(net.segments.index) and len(ids) == len(set(ids))
+    for t in tiles:
+        pts = net.points.loc[net.points[C.SEGMENT_ID].isin(t.segment_ids)]
+        assert t.bounds[0] == pts[C.X_M].min() and t.bounds[3] == pts[C.Y_M].max()

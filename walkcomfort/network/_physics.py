@@ -1,0 +1,134 @@
+"""The real per-partition computation: environment and comfort on a points x times grid.
+
+Everything physical is delegated to the public functions of the stages that own
+it; this module only arranges the arrays:
+
+1. sun position for the chunk's times (``environment.sun.solar_position``, NREL SPA);
+2. direct-beam transmittance on the N points x T times grid
+   (``environment.shade.beam_transmittance_grid``) and the sky view factor of every
+   point (``environment.skyview.sky_view_factor``), against the tile's scene;
+3. mean radiant temperature from six-direction fluxes
+   (``environment.tmrt.tmrt_outdoor``) with the weather's irradiance in the open;
+4. UTCI (``environment.utci.utci_from_conditions``) with the wind brought to 10 m;
+5. comfort class probabilities: from a saved model bundle when the job names one
+   (``walkcomfort.routes`` prediction path), else the documented UTCI-band rule
+   (``model.baselines.physics_rule``) as one-hot probabilities.
+
+Times when the sun is above the horizon but lower than the job's
+``min_sun_elev_deg`` are flagged ``qa_low_sun`` and their direct beam is treated
+as blocked: the tile carries only the obstacles whose shadows reach it at that
+elevation or higher (see :mod:`walkcomfort.network.tiling`), so shade at a lower
+sun could be missed, and street-level beam at such elevations is small and
+nearly always blocked in a built area (common practice).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort import columns as C
+from walkcomfort.network.batch import P_COLUMNS, Partition, aggregate_points
+
+
+def _scene(part: Partition):
+    if not part.scene or not part.scene.get("features"):
+        return None
+    from walkcomfort.environment.scene import Scene
+
+    return Scene.from_geojson(part.scene)
+
+
+def point_environment(part: Partition) -> dict[str, np.ndarray]:
+    """Sun, shade, sky view, Tmrt and UTCI for every point x time of ``part``.
+
+    Returns
+    -------
+    dict
+        Arrays of shape ``(N, T)`` (points x times) or ``(T,)``: ``sun_elev_deg,
+        sun_azim_deg, shade_frac, svf, t_air_c, rh_pct, wind_ms, tmrt_c, utci_c,
+        qa_low_sun, qa_utci_out_of_range``.
+    """
+    from walkcomfort.environment import sun as _sun
+    from walkcomfort.environment import tmrt as _tmrt
+    from walkcomfort.environment import utci as _utci
+
+    ctx = part.context
+    site = ctx["site"]
+    times = part.times
+    w = part.weather
+    if w is None:
+        raise ValueError(f"partition {part.partition_id} has no weather; plan the job with weather at every time")
+    t_air = w[C.T_AIR_C].to_numpy(float)
+    rh = w[C.RH_PCT].to_numpy(float)
+    wind = w[C.WIND_MS].to_numpy(float)
+    pressure = w[C.PRESSURE_HPA].to_numpy(float) if C.PRESSURE_HPA in w.columns else None
+    sp = _sun.solar_position(times, site["lat"], site["lon"], site.get("elev_m", 0.0),
+                             pressure_hpa=pressure, t_air_c=t_air)
+    elev = sp[C.SUN_ELEV_DEG].to_numpy(float)
+    azim = sp[C.SUN_AZIM_DEG].to_numpy(float)
+    if C.DNI_WM2 in w.columns and C.DHI_WM2 in w.columns:
+        dni, dhi = w[C.DNI_WM2].to_numpy(float), w[C.DHI_WM2].to_numpy(float)
+    else:
+        cs = _sun.clearsky_irradiance(times, site["lat"], site["lon"], site.get("elev_m", 0.0))
+        dni, dhi = cs[C.DNI_WM2].to_numpy(float), cs[C.DHI_WM2].to_numpy(float)
+
+    x = part.points[C.X_M].to_numpy(float)
+    y = part.points[C.Y_M].to_numpy(float)
+    n, t = len(x), len(times)
+    z = float(ctx.get("z_m", 1.1))
+    scene = _scene(part)
+    low = (elev > 0.0) & (elev < float(ctx["min_sun_elev_deg"]))
+    if scene is None:
+        trans = np.ones((n, t))
+        svf = np.ones(n)
+    else:
+        from walkcomfort.environment import shade as _shade
+        from walkcomfort.environment import skyview as _skyview
+
+        trans = np.array(_shade.beam_transmittance_grid(scene, x, y, elev, azim, z_m=z,
+                                                        month=_months(times)), dtype=float)
+        svf = _skyview.sky_view_factor(scene, x, y, z_m=z)[C.SVF].to_numpy(float)
+    trans = trans.copy()
+    trans[:, low] = 0.0
+    grid = np.ones((n, t))
+    tmrt = np.asarray(_tmrt.tmrt_outdoor((grid * elev).ravel(), (grid * dni).ravel(), (grid * dhi).ravel(),
+                                         trans.ravel(), (svf[:, None] * grid).ravel(), (grid * t_air).ravel(),
+                                         (grid * rh).ravel()), dtype=float).reshape(n, t)
+    wind10 = np.asarray(_utci.wind_at_10m(wind, float(ctx.get("wind_height_m", 10.0))), dtype=float)
+    u = _utci.utci_from_conditions((grid * t_air).ravel(), tmrt.ravel(), (grid * wind10).ravel(),
+                                   (grid * rh).ravel(), warn=False)
+    return {C.SUN_ELEV_DEG: elev, C.SUN_AZIM_DEG: azim, C.SHADE_FRAC: 1.0 - trans, C.SVF: svf[:, None] * grid,
+            C.T_AIR_C: t_air, C.RH_PCT: rh, C.WIND_MS: wind, C.TMRT_C: tmrt,
+            C.UTCI_C: u[C.UTCI_C].to_numpy(float).reshape(n, t),
+            C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool).reshape(n, t),
+            C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy()}
+
+
+def _months(times: pd.DatetimeIndex):
+    """The month of the chunk for leaf-on transmissivity: chunks never span a month in practice."""
+    months = pd.DatetimeIndex(times).month
+    return int(months[len(months) // 2])
+
+
+def rule_probabilities(utci_c: np.ndarray) -> dict[str, np.ndarray]:
+    """One-hot class probabilities from the UTCI-band rule (``model.baselines.physics_rule``)."""
+    from walkcomfort.model.baselines import physics_rule
+
+    cls = physics_rule(np.asarray(utci_c).ravel()).reshape(np.shape(utci_c))
+    return {p: (cls == c).astype(float) for p, c in zip(P_COLUMNS, C.COMFORT_CLASSES)}
+
+
+def partition_rows(part: Partition) -> pd.DataFrame:
+    """The rows of one partition (see :func:`walkcomfort.network.batch.compute_partition`)."""
+    env = point_environment(part)
+    model = part.context.get("model")
+    if model:
+        probs, predictor = model_probabilities(part, env, model)
+    else:
+        probs, predictor = rule_probabilities(env[C.UTCI_C]), "physics-rule"
+    return aggregate_points(part, {**env, **probs}, predictor)
+
+
+def model_probabilities(part: Partition, env: dict, model: str):  # pragma: no cover - wired when routes lands
+    raise NotImplementedError("model-based network prediction needs walkcomfort.routes.predict")

@@ -1,0 +1,181 @@
+"""The ``network`` verb: every street segment x time x scheme, in-process or on Dask."""
+
+from __future__ import annotations
+
+import time as _time
+from pathlib import Path
+
+import click
+
+from walkcomfort import columns as C
+from walkcomfort.errors import InputError
+
+SUMMARY_PARQUET = "segment_summary.parquet"
+SUMMARY_GEOJSON = "segment_summary.geojson"
+QUARANTINE_CSV = "network_quarantine.csv"
+
+#: Exit code when one or more partitions failed after their retries.
+EXIT_PARTITIONS_FAILED = 3
+
+
+def _conditions(text: str | None) -> dict | None:
+    if text is None:
+        return None
+    out = {}
+    for item in text.split(","):
+        key, sep, value = item.partition("=")
+        try:
+            if not sep:
+                raise ValueError
+            out[key.strip()] = float(value)
+        except ValueError:
+            raise InputError(f"stated condition {item!r} is not 'name=number'",
+                             fix="write e.g. --conditions 't_air_c=33,rh_pct=30,wind_ms=1.5'") from None
+    return out
+
+
+def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
+                    conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
+                    min_sun_elev_deg=5.0, model=None):
+    """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
+    from walkcomfort.network.batch import BASE, daytime_times, plan_job
+    from walkcomfort.network.segments import load_network
+    from walkcomfort.routes.schemes import apply_scheme, load_scheme
+    from walkcomfort.routes.weather import open_weather
+
+    scene = None
+    if scene_path:
+        from walkcomfort.environment.scene import load_scene
+
+        scene = load_scene(scene_path)
+    network = load_network(streets, segment_length_m, spacing_m, crs=getattr(scene, "crs", None))
+    scenes = {BASE: scene.to_geojson() if scene is not None else None}
+    for p in scheme_paths:
+        scheme = load_scheme(p)
+        if scene is None:
+            raise InputError(f"scheme {scheme.name!r} edits a scene, but no scene was given", where=p,
+                             fix="give --scene with the base scene the scheme edits")
+        if scheme.name in scenes:
+            raise InputError(f"scheme name {scheme.name!r} is given twice", where=p,
+                             fix="give every scheme its own name (top-level walkcomfort.scheme)")
+        scenes[scheme.name] = apply_scheme(scene, scheme).to_geojson()
+    times = daytime_times(start, end, step, timezone)
+    site_meta = ((scenes[BASE] or {}).get("walkcomfort") or {}).get("site") or {}
+    site = {"lat": float(site_meta.get("lat", network.points[C.LAT].mean())),
+            "lon": float(site_meta.get("lon", network.points[C.LON].mean())),
+            "elev_m": float(site_meta.get("elev_m", 0.0))}
+    source = open_weather(weather_path, _conditions(conditions))
+    weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
+    context = {"wind_height_m": float(weather.attrs.get("wind_height_m", getattr(source, "wind_height_m", 10.0))),
+               "weather": getattr(source, "label", "weather"), "model": str(model) if model else None}
+    weather = weather.copy()
+    weather.attrs = {}
+    job = plan_job(network, times, scenes, weather, tile_size_m=tile_size_m, time_chunk=time_chunk,
+                   min_sun_elev_deg=min_sun_elev_deg, site=site, context=context)
+    return network, job
+
+
+def write_outputs(out_dir, network, job, report) -> dict:
+    """Summaries next to the batch rows: per-segment Parquet, GeoJSON, quarantined features."""
+    from walkcomfort import _io
+    from walkcomfort.network.engines import read_segment_hours
+    from walkcomfort.network.summaries import segment_summary, summary_geojson
+
+    out_dir = Path(out_dir)
+    written = {}
+    if len(network.quarantine):
+        written["quarantine"] = _io.write_csv(out_dir / QUARANTINE_CSV, network.quarantine, index=False)
+    if not report.ok:
+        return written
+    rows = read_segment_hours(out_dir)
+    summary = segment_summary(rows)
+    meta = {"job_digest": job.digest, "parameters": job.parameters}
+    written["summary"] = _io.write_parquet(out_dir / SUMMARY_PARQUET, summary, meta)
+    written["geojson"] = _io.write_json(out_dir / SUMMARY_GEOJSON, summary_geojson(summary, network))
+    return written
+
+
+@click.command(name="network")
+@click.argument("streets", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--scene", "scene_path", type=click.Path(dir_okay=False, path_type=Path),
+              help="Scene GeoJSON (buildings, trees, canopies). Without it: open ground everywhere.")
+@click.option("--scheme", "scheme_paths", multiple=True, type=click.Path(dir_okay=False, path_type=Path),
+              help="Scheme GeoJSON to compare with the base scene; repeat for several.")
+@click.option("--weather", "weather_path", type=click.Path(dir_okay=False, path_type=Path),
+              help="Weather file (EPW/TMY) or logger series.")
+@click.option("--conditions", help="Stated weather instead of a file: 't_air_c=33,rh_pct=30,wind_ms=1.5'.")
+@click.option("--model", type=click.Path(file_okay=False, path_type=Path),
+              help="Saved comfort model bundle; without it the UTCI-band rule gives the classes.")
+@click.option("--start", required=True, help="First time, ISO (e.g. 2026-07-14T07:00).")
+@click.option("--end", required=True, help="Last time, ISO, included.")
+@click.option("--step", default="1h", show_default=True, help="Time step (1h, 30min, ...).")
+@click.option("--timezone", "timezone", help="IANA zone of --start/--end when they carry no offset.")
+@click.option("--segment-length", "segment_length_m", default=50.0, show_default=True, type=float,
+              help="Target segment length [m].")
+@click.option("--spacing", "spacing_m", default=10.0, show_default=True, type=float,
+              help="Sample-point spacing along a segment [m].")
+@click.option("--tile-size", "tile_size_m", default=250.0, show_default=True, type=float,
+              help="Side of a spatial tile [m].")
+@click.option("--time-chunk", default=24, show_default=True, type=int, help="Time steps per partition.")
+@click.option("--lowest-sun", "min_sun_elev_deg", default=5.0, show_default=True, type=float,
+              help="Lowest sun elevation used for shade [°]; lower suns count as blocked and are flagged.")
+@click.option("--engine", type=click.Choice(["in-process", "dask"]), default="in-process", show_default=True,
+              help="Where partitions run.")
+@click.option("--scheduler", help="Address of a running Dask scheduler (tcp://host:8786); default a local cluster.")
+@click.option("--workers", default=2, show_default=True, type=int, help="Workers of the local Dask cluster.")
+@click.option("--threads-per-worker", default=1, show_default=True, type=int)
+@click.option("--retries", default=2, show_default=True, type=int, help="Extra attempts for a failing partition.")
+@click.option("--resume", is_flag=True, help="Keep partitions an earlier run of the same job already wrote.")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
+              help="Output folder.")
+def network(streets, scene_path, scheme_paths, weather_path, conditions, model, start, end, step, timezone,
+            segment_length_m, spacing_m, tile_size_m, time_chunk, min_sun_elev_deg, engine, scheduler, workers,
+            threads_per_worker, retries, resume, out_dir):
+    """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
+
+    Predictions are estimates for comparing design options, not a safety assessment:
+    for heat on real streets follow local heat-health guidance, local codes and
+    licensed practice.
+    """
+    from walkcomfort.network.engines import run_job
+
+    if timezone is None and any(_naive(t) for t in (start, end)):
+        raise InputError(f"--start {start!r} / --end {end!r} carry no UTC offset and no --timezone was given",
+                         fix="add --timezone Europe/Madrid (the site's zone) or write times with an offset")
+    if engine == "in-process" and scheduler:
+        raise InputError("--scheduler was given with --engine in-process", fix="add --engine dask")
+    net, job = plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone or "UTC",
+                               weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
+                               min_sun_elev_deg, model)
+    click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
+               f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
+               err=True)
+    opts = {"retries": retries}
+    if engine == "dask":
+        opts.update(scheduler=scheduler, workers=workers, threads_per_worker=threads_per_worker)
+    t0 = _time.perf_counter()
+    report = run_job(job, out_dir, engine, resume=resume, **opts)
+    seconds = _time.perf_counter() - t0
+    write_outputs(out_dir, net, job, report)
+    rate = report.written_rows / seconds if seconds > 0 else float("nan")
+    click.echo(f"rows expected {report.expected_rows}, written {report.written_rows} "
+               f"({seconds:.1f} s, {rate:.0f} rows/s) -> {out_dir}", err=True)
+    if len(net.quarantine):
+        click.echo(f"{len(net.quarantine)} network features quarantined: see {Path(out_dir) / QUARANTINE_CSV}",
+                   err=True)
+    if not report.ok:
+        ids = ", ".join(o.partition_id for o in report.failed[:10])
+        more = f" and {len(report.failed) - 10} more" if len(report.failed) > 10 else ""
+        click.echo(f"error: {len(report.failed)} partitions failed after {retries} retries: {ids}{more}; "
+                   f"errors in {Path(out_dir) / 'job.json'}. Fix: correct the cause and re-run with --resume.",
+                   err=True)
+        raise click.exceptions.Exit(EXIT_PARTITIONS_FAILED)
+
+
+def _naive(text: str) -> bool:
+    import pandas as pd
+
+    try:
+        return pd.Timestamp(text).tzinfo is None
+    except (ValueError, TypeError):
+        return False
