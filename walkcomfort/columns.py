@@ -15,6 +15,12 @@ from __future__ import annotations
 TIME = "time"                 # index name; tz-aware UTC
 WALK_ID = "walk_id"           # one walk of one participant (a session)
 PARTICIPANT = "participant"   # pseudonym, never a real name
+# participant attributes from the manifest's [participant] table (campaign table columns)
+AGE_BAND = "age_band"         # e.g. "25-34"
+CLO = "clo"                   # [clo] clothing insulation
+ACCLIMATISED = "acclimatised"  # bool: heat-acclimatised
+ACTIVITY = "activity"         # e.g. "walking"
+PARTICIPANT_ATTRS = (AGE_BAND, CLO, ACCLIMATISED, ACTIVITY)
 
 # --- position and motion (session.timeline) -----------------------------------
 LAT = "lat"                   # [°] WGS84

@@ -1,0 +1,116 @@
+"""``walkcomfort check`` (validate, write nothing) and ``walkcomfort ingest`` (write timelines + QA)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from walkcomfort.errors import InputError, WalkcomfortError
+from walkcomfort.session.manifest import MANIFEST_NAME
+
+
+def find_sessions(paths) -> list[Path]:
+    """Session folders from the arguments: a folder with ``session.toml``, or a folder of such folders."""
+    out: list[Path] = []
+    for p in map(Path, paths):
+        if (p / MANIFEST_NAME).is_file() or p.name == MANIFEST_NAME:
+            out.append(p if p.is_dir() else p.parent)
+            continue
+        if not p.exists():
+            raise InputError(f"'{p}' does not exist", fix="give a session folder (holding session.toml)")
+        subs = sorted(d for d in p.iterdir() if d.is_dir() and (d / MANIFEST_NAME).is_file()) if p.is_dir() else []
+        if not subs:
+            raise InputError(f"no {MANIFEST_NAME} in '{p}' nor in its sub-folders", where=p,
+                             fix="give a session folder (holding session.toml) or a folder of them")
+        out.extend(subs)
+    return out
+
+
+def summary_lines(tl) -> list[str]:
+    """Human summary of one timeline: the window, counts per source (read = used + quarantined), issues."""
+    qa = tl.qa
+    s = qa["summary"]
+    t = qa["timeline"]
+    lines = [f"{qa['walk_id']}: {t['rows']} steps of {t['step_s']:g} s, {t['start']} … {t['end']}"]
+    for name, e in qa["sources"].items():
+        ok = "ok" if e["reconciles"] else "DOES NOT RECONCILE"
+        reasons = ", ".join(f"{k} {v}" for k, v in e["quarantine_reasons"].items())
+        lines.append(f"  {name:<8} {e['rows_read']} read = {e['rows_used']} used + {e['rows_quarantined']} "
+                     f"quarantined ({ok})" + (f" [{reasons}]" if reasons else ""))
+    lines.append(f"  issues: gaps {s['gaps']}, out of range {s['out_of_range_rows']}, duplicates "
+                 f"{s['duplicate_rows']}, out of order {s['out_of_order_rows']}, GPS jumps {s['gps_jumps']}, "
+                 f"clock corrections {s['clock_corrections']} (max residual {s['max_clock_residual_s']:.3f} s)")
+    for w in qa.get("warnings", []):
+        lines.append(f"  note: {w}")
+    return lines
+
+
+def _options(f):
+    f = click.option("--step", "step_s", type=float, default=1.0, show_default=True,
+                     help="Time step of the timeline [s].")(f)
+    f = click.option("--max-gap", "max_gap_s", type=float, default=10.0, show_default=True,
+                     help="Longest spacing of readings interpolated across [s].")(f)
+    f = click.option("--lag-correction", is_flag=True, help="Correct air/globe temperature for sensor lag (τ from the manifest).")(f)
+    return f
+
+
+@click.command()
+@click.argument("session_dirs", nargs=-1, required=True, type=click.Path(path_type=Path))
+@_options
+def check(session_dirs, step_s, max_gap_s, lag_correction):
+    """Validate session folder(s): manifest, every file, QA counts. Writes nothing."""
+    from walkcomfort.session.timeline import build_timeline
+
+    for d in find_sessions(session_dirs):
+        tl = build_timeline(d, step_s=step_s, max_gap_s=max_gap_s, lag_correction=lag_correction)
+        for line in summary_lines(tl):
+            click.echo(line)
+        if not tl.qa["summary"]["reconciles"]:  # pragma: no cover - would be a bug
+            raise WalkcomfortError("row counts do not reconcile", where=d, fix="please report this")
+    click.echo("check passed: nothing was written.")
+
+
+@click.command()
+@click.argument("session_dirs", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option("--out", "-o", "out_dir", required=True, type=click.Path(path_type=Path),
+              help="Output folder; each walk goes to OUT/<walk_id>/.")
+@_options
+@click.option("--csv", "write_csv", is_flag=True, help="Also write timeline.csv.")
+@click.option("--campaign", is_flag=True, help="Also write OUT/campaign.parquet stacking every walk.")
+@click.option("--keep-going", is_flag=True, help="Report a failing session and go on with the others.")
+def ingest(session_dirs, out_dir, step_s, max_gap_s, lag_correction, write_csv, campaign, keep_going):
+    """Align one or many session folders on one timeline each; write timeline, QA and quarantine."""
+    from walkcomfort import _io
+    from walkcomfort._progress import track
+    from walkcomfort.session.timeline import build_timeline, combine_campaign
+
+    sessions = find_sessions(session_dirs)
+    done, failed = [], []
+    for d in track(sessions, "ingest", total=len(sessions), enabled=None if len(sessions) > 1 else False):
+        try:
+            tl = build_timeline(d, step_s=step_s, max_gap_s=max_gap_s, lag_correction=lag_correction)
+        except WalkcomfortError as exc:
+            if not keep_going:
+                raise
+            failed.append(d)
+            click.echo(f"error: {exc.one_line()}", err=True)
+            continue
+        if tl.walk_id in {t.walk_id for t in done}:
+            raise InputError(f"walk id '{tl.walk_id}' is used by two sessions", where=d / MANIFEST_NAME,
+                             fix="give each session its own [session] id")
+        paths = tl.write(out_dir, csv=write_csv)
+        done.append(tl)
+        for line in summary_lines(tl):
+            click.echo(line)
+        click.echo(f"  wrote {paths['timeline'].parent}")
+    if campaign and done:
+        table = combine_campaign(done)
+        sessions_meta = table.attrs.pop("sessions")
+        p = _io.write_parquet(Path(out_dir) / "campaign.parquet", table,
+                              {"sessions": sessions_meta, "provenance": {k: t.provenance for k, t in
+                                                                         ((t.walk_id, t) for t in done)}})
+        click.echo(f"campaign: {len(done)} walks, {len(table)} rows -> {p}")
+    if failed:
+        raise WalkcomfortError(f"{len(failed)} of {len(sessions)} sessions failed (first: {failed[0]})",
+                               fix="see the error lines above")

@@ -1,0 +1,363 @@
+"""Shared machinery of the readers: delimited text, times, quarantine, and the final tidy-up.
+
+Every reader follows the same path so that counts reconcile everywhere:
+raw lines → rows (bad field counts quarantined) → times (unparseable, naive/aware
+mixes, non-existent local times) → values (not a number, outside the physical
+range of :data:`walkcomfort.columns.PHYSICAL_RANGES`) → order (out-of-order rows
+counted and sorted; duplicate timestamps: first kept, the rest quarantined).
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort.columns import PHYSICAL_RANGES, TIME
+from walkcomfort.errors import InputError, where as _where
+
+QUARANTINE_COLUMNS = ("source", "file", "row", "reason", "raw")
+MISSING = ("", "na", "n/a", "nan", "null", "none", "-", "--", "---")
+_TZ_SUFFIX = re.compile(r"(?:[zZ]|[+-]\d\d(?::?\d\d)?)$")
+
+
+class Quarantine:
+    """Rows set aside with a reason; becomes the ``quarantine`` DataFrame of a reader."""
+
+    def __init__(self, source: str, file: str):
+        self.source = source
+        self.file = file
+        self._rows: list[tuple] = []
+
+    def add(self, row: int, reason: str, raw: str) -> None:
+        self._rows.append((self.source, self.file, int(row), reason, raw))
+
+    def extend(self, rows, reasons, raws) -> None:
+        for r, why, raw in zip(rows, reasons, raws):
+            self.add(r, why, raw)
+
+    def __len__(self) -> int:
+        return len(self._rows)
+
+    def frame(self) -> pd.DataFrame:
+        return quarantine_frame(self._rows)
+
+
+def quarantine_frame(rows=()) -> pd.DataFrame:
+    """A quarantine table (``source, file, row, reason, raw``) from tuples."""
+    df = pd.DataFrame(list(rows), columns=list(QUARANTINE_COLUMNS))
+    df["row"] = df["row"].astype("int64")
+    for c in ("source", "file", "reason", "raw"):
+        df[c] = df[c].astype(object).astype(str) if len(df) else pd.Series([], dtype=str)
+    return df
+
+
+@dataclass
+class RawTable:
+    """Rows of a delimited text file, as text, with their 1-based line numbers."""
+
+    header: list[str]
+    rows: list[list[str]]
+    lines: np.ndarray          # int line number of each row
+    raws: list[str]            # the raw text of each row
+    encoding: str
+
+
+def read_text(path: Path) -> tuple[str, str]:
+    data = path.read_bytes()
+    try:
+        return data.decode("utf-8-sig"), "utf-8"
+    except UnicodeDecodeError:
+        # field loggers on older systems write Windows-1252 (e.g. a '°' in the header)
+        return data.decode("cp1252", errors="replace"), "cp1252"
+
+
+def read_delimited(path: Path, spec, required: list[str], optional: list[str], q: Quarantine) -> RawTable:
+    """Split a delimited file into rows of text.
+
+    The header is the first line (among the first 50, skipping comment lines that
+    start with ``#``) that holds every ``required`` raw column name. Blank and
+    comment lines are not rows. A line with the wrong number of fields, or with
+    control bytes, is quarantined with reason ``bad_line``.
+    """
+    text, encoding = read_text(path)
+    lines = text.splitlines()
+    where = spec.path
+    header_at = None
+    delim = spec.delimiter
+    for i, line in enumerate(lines[:50]):
+        s = line.strip()
+        if not s or s.startswith("#"):
+            continue
+        d = delim or _sniff(line)
+        fields = [f.strip() for f in _split(line, d)]
+        if all(r in fields for r in required):
+            header_at, delim, header = i, d, fields
+            break
+    if header_at is None:
+        first = next((ln for ln in lines if ln.strip() and not ln.strip().startswith("#")), "")
+        raise InputError(f"no header line with the columns {', '.join(repr(r) for r in required)} "
+                         f"(first line: {first[:80]!r})", where=_where(where, line=1),
+                         fix="map the raw column names in [source.columns] (names are case-sensitive)")
+    dupe = sorted({h for h in header if header.count(h) > 1 and h in required + optional})
+    if dupe:
+        raise InputError(f"column '{dupe[0]}' appears twice in the header", where=_where(where, line=header_at + 1),
+                         fix="rename one of the columns in the file's header")
+    n = len(header)
+    rows: list[list[str]] = []
+    nums: list[int] = []
+    raws: list[str] = []
+    for i in range(header_at + 1, len(lines)):
+        line = lines[i]
+        s = line.strip()
+        if not s or s.startswith("#"):
+            continue
+        if any(ord(ch) < 32 and ch != "\t" for ch in line):
+            q.add(i + 1, "bad_line", line)
+            continue
+        fields = _split(line, delim)
+        if len(fields) > n and not any(f.strip() for f in fields[n:]):
+            fields = fields[:n]
+        if len(fields) != n:
+            q.add(i + 1, "bad_line", line)
+            continue
+        rows.append(fields)
+        nums.append(i + 1)
+        raws.append(line)
+    return RawTable(header, rows, np.asarray(nums, dtype=np.int64), raws, encoding)
+
+
+def _sniff(line: str) -> str:
+    counts = {d: line.count(d) for d in (",", ";", "\t", "|")}
+    best = max(counts, key=counts.get)
+    return best if counts[best] else ","
+
+
+def _split(line: str, delim: str) -> list[str]:
+    if '"' not in line:
+        return line.split(delim)
+    return next(csv.reader([line], delimiter=delim))
+
+
+def column(table: RawTable, name: str) -> pd.Series:
+    """The text of one raw column (stripped), as an object Series aligned with the rows."""
+    j = table.header.index(name)
+    return pd.Series([r[j].strip() for r in table.rows], dtype=object)
+
+
+def missing_mask(s: pd.Series, na_values=()) -> np.ndarray:
+    markers = set(MISSING) | {v.lower() for v in na_values}
+    return s.map(lambda v: v.lower() in markers).to_numpy(dtype=bool)
+
+
+def to_number(s: pd.Series, decimal: str = ".", na_values=()) -> tuple[np.ndarray, np.ndarray]:
+    """Numbers from text. Returns ``(values, bad)`` where missing markers are NaN (not bad)."""
+    miss = missing_mask(s, na_values)
+    t = s.str.replace(",", ".", regex=False) if decimal == "," else s
+    vals = np.array(pd.to_numeric(t.where(~miss, None), errors="coerce"), dtype=float)
+    bad = np.isnan(vals) & ~miss
+    # inf from "inf"/"1e999" is not a reading either
+    inf = np.isinf(vals)
+    vals[inf] = np.nan
+    return vals, bad | inf
+
+
+def parse_times(s: pd.Series, spec, session, where: str) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """Parse a column of time text to UTC.
+
+    Text with a UTC offset (or ``Z``) is taken as written; naive text is read in the
+    zone named by ``spec.time_zone`` (``"local"`` = the session zone). A file mixing
+    naive and offset times is an error. Returns the UTC index (NaT where a row
+    cannot be used) and a reason per row (``""`` when fine): ``bad_time``,
+    ``nonexistent_local_time`` (skipped by a daylight-saving change) or
+    ``ambiguous_local_time`` (repeated hour whose order cannot tell which).
+    """
+    n = len(s)
+    reason = np.full(n, "", dtype=object)
+    fmt = spec.time_format
+    if fmt == "epoch_s":
+        vals, bad = to_number(s)
+        out = pd.to_datetime(vals, unit="s", utc=True, errors="coerce")
+        idx = pd.DatetimeIndex(out).as_unit("ns")
+        reason[np.asarray(idx.isna())] = "bad_time"
+        return idx, reason
+    text = s.astype(str)
+    aware = text.str.contains(_TZ_SUFFIX, regex=True).to_numpy(dtype=bool) & (fmt in (None, "ISO8601"))
+    result = np.full(n, np.datetime64("NaT", "ns"), dtype="datetime64[ns]")
+    n_aware = n_naive = 0
+    if aware.any():
+        t = pd.to_datetime(text[aware], format="ISO8601", utc=True, errors="coerce")
+        ok = ~t.isna().to_numpy()
+        n_aware = int(ok.sum())
+        result[np.flatnonzero(aware)] = t.dt.tz_localize(None).to_numpy(dtype="datetime64[ns]")
+    naive = ~aware
+    if naive.any():
+        t = pd.to_datetime(text[naive], format=fmt or "ISO8601", errors="coerce")
+        if getattr(t.dt, "tz", None) is not None:  # a strftime pattern with %z
+            t = t.dt.tz_convert("UTC").dt.tz_localize(None)
+            local = t.to_numpy(dtype="datetime64[ns]")
+            result[np.flatnonzero(naive)] = local
+            n_aware += int((~t.isna()).sum())
+        else:
+            ok = ~t.isna().to_numpy()
+            n_naive = int(ok.sum())
+            if n_naive:
+                zone = session.zone_for(spec.time_zone)
+                loc = pd.DatetimeIndex(t.to_numpy(dtype="datetime64[ns]"))
+                utc, why = localize(loc, zone)
+                result[np.flatnonzero(naive)] = utc.tz_localize(None).to_numpy(dtype="datetime64[ns]")
+                sub = reason[naive]
+                sub[why != ""] = why[why != ""]
+                reason[naive] = sub
+    if n_aware and n_naive:
+        raise InputError(f"the time column mixes {n_aware} times with a UTC offset and {n_naive} without",
+                         where=where, fix="write every time in one form (all with an offset, or all local "
+                                          "and declare time_zone in the manifest)")
+    idx = pd.DatetimeIndex(result).tz_localize("UTC")
+    bad = np.asarray(idx.isna()) & (reason == "")
+    reason[bad] = "bad_time"
+    return idx, reason
+
+
+def localize(loc: pd.DatetimeIndex, zone) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """Naive local times → UTC, marking times a daylight-saving change makes unusable.
+
+    A repeated hour is resolved by the order of the rows (a logger writing the
+    clock as it goes back); if the order cannot tell, those rows are marked
+    ``ambiguous_local_time`` rather than guessed.
+    """
+    why = np.full(len(loc), "", dtype=object)
+    was_nat = np.asarray(loc.isna())
+    try:
+        out = loc.tz_localize(zone, ambiguous="infer", nonexistent="NaT")
+    except Exception:  # order does not resolve the repeated hour
+        out = loc.tz_localize(zone, ambiguous="NaT", nonexistent="NaT")
+        amb = loc.tz_localize(zone, ambiguous="NaT", nonexistent="shift_forward")
+        why[np.asarray(amb.isna()) & ~was_nat] = "ambiguous_local_time"
+    nat = np.asarray(out.isna()) & ~was_nat & (why == "")
+    why[nat] = "nonexistent_local_time"
+    return out.tz_convert("UTC"), why
+
+
+def range_reasons(values: dict[str, np.ndarray], reason: np.ndarray) -> None:
+    """Mark rows whose value lies outside :data:`PHYSICAL_RANGES` (``out_of_range:<column>``)."""
+    for col, arr in values.items():
+        if col not in PHYSICAL_RANGES:
+            continue
+        lo, hi = PHYSICAL_RANGES[col]
+        with np.errstate(invalid="ignore"):
+            out = (arr < lo) | (arr > hi)
+        sel = out & (reason == "")
+        reason[sel] = f"out_of_range:{col}"
+
+
+def finish(times: pd.DatetimeIndex, values: dict[str, np.ndarray], reason: np.ndarray, table: RawTable | None,
+           rows: np.ndarray, raws: list[str], q: Quarantine, extra: dict | None = None) -> tuple[pd.DataFrame, dict]:
+    """Quarantine the rows with a reason, sort the rest by time, set duplicate timestamps aside.
+
+    Returns the tidy DataFrame (UTC index named ``time``) and the counting part of
+    the metadata: ``rows_read, rows_used, rows_quarantined, out_of_order, duplicates``.
+    """
+    n = len(times)
+    pre = len(q)  # rows the reader set aside before they could get a time (bad lines, no time)
+    good = reason == ""
+    for i in np.flatnonzero(~good):
+        q.add(rows[i], reason[i], raws[i])
+    t_good = times[good]
+    ns = t_good.asi8
+    # a row is out of order when its time is earlier than a row before it in the file
+    if len(ns):
+        runmax = np.maximum.accumulate(ns)
+        out_of_order = int(np.sum(ns[1:] < runmax[:-1]))
+    else:
+        out_of_order = 0
+    order = np.argsort(ns, kind="stable")
+    gi = np.flatnonzero(good)[order]
+    ts = t_good[order]
+    dup = np.asarray(ts.duplicated(keep="first"))
+    for i in gi[dup]:
+        q.add(rows[i], "duplicate_time", raws[i])
+    keep = gi[~dup]
+    data = {k: v[keep] for k, v in values.items()}
+    df = pd.DataFrame(data, index=pd.DatetimeIndex(ts[~dup], name=TIME))
+    df.index = df.index.as_unit("ns")
+    meta = {
+        # aligned with the rows of the DataFrame, so later stages can quarantine with the raw text
+        "row_numbers": np.asarray(rows)[keep],
+        "raw_lines": [raws[i] for i in keep],
+        "rows_read": int(n + pre),
+        "rows_used": int(len(df)),
+        "out_of_order": out_of_order,
+        "duplicates": int(dup.sum()),
+    }
+    if extra:
+        meta.update(extra)
+    return df, meta
+
+
+def assemble_metadata(kind: str, spec, meta: dict, q: Quarantine, **more) -> dict:
+    """The reader metadata: counts, the quarantine table, what the file said about itself."""
+    qf = q.frame()
+    meta = dict(meta)
+    meta["rows_quarantined"] = int(len(qf))
+    meta["quarantine"] = qf
+    meta.update(source=spec.name, kind=kind, file=spec.path, device=spec.device)
+    meta.update(more)
+    return meta
+
+
+def read_sensor_csv(spec, session, fields: list[tuple[str, str, bool]], kind: str,
+                    path: Path | None = None) -> tuple[pd.DataFrame, dict]:
+    """Read a delimited sensor file into SI columns.
+
+    Parameters
+    ----------
+    spec : SourceSpec
+    session : SessionSpec
+    fields : list of (canonical field, output column, required)
+        The numeric fields to read; a required field must be in the header, an
+        optional one is read when mapped in ``[source.columns]`` or present under
+        its canonical name.
+    kind : str
+    """
+    from walkcomfort.session.readers._units import to_si
+
+    path = Path(path) if path is not None else spec.abs_path
+    q = Quarantine(spec.name, spec.path)
+    time_col = spec.column("time")
+    required = [time_col] + [spec.column(f) for f, _, req in fields if req]
+    optional = [spec.column(f) for f, _, req in fields if not req]
+    for f in spec.units:
+        if f not in [x[0] for x in fields]:
+            raise InputError(f"units.{f} is declared but {f} is not read from a {kind} file",
+                             where=f"{spec.where} units.{f}", fix="remove it")
+    table = read_delimited(path, spec, required, optional, q)
+    present = []
+    for f, out, req in fields:
+        raw = spec.column(f)
+        if raw in table.header:
+            present.append((f, out, raw))
+        elif f in spec.columns:
+            raise InputError(f"column '{raw}' (mapped from {f}) is not in the header {table.header}",
+                             where=f"{spec.where} columns.{f}", fix="correct the column name (case-sensitive)")
+    # units first: an undeclared or unknown unit stops the whole file, before any row is read
+    factors = {}
+    for f, out, raw in present:
+        factors[f] = spec.units.get(f)
+        to_si(np.zeros(1), f, factors[f], spec.where)
+    times, reason = parse_times(column(table, time_col), spec, session, where=spec.path)
+    values: dict[str, np.ndarray] = {}
+    for f, out, raw in present:
+        v, bad = to_number(column(table, raw), spec.decimal, spec.na_values)
+        sel = bad & (reason == "")
+        reason[sel] = f"not_a_number:{out}"
+        values[out] = to_si(v, f, factors[f], spec.where)
+    range_reasons(values, reason)
+    df, meta = finish(times, values, reason, table, table.lines, table.raws, q)
+    return df, assemble_metadata(kind, spec, meta, q, encoding=table.encoding,
+                                 columns={out: raw for f, out, raw in present},
+                                 units={f: (spec.units.get(f) or "default") for f, _, _ in present})

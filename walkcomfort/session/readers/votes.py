@@ -1,0 +1,132 @@
+"""Comfort votes (CSV or JSON): events, never interpolated.
+
+Each vote has a time and a 3-class comfort label (``comfortable``, ``neutral``,
+``uncomfortable``) and/or the ASHRAE Standard 55 seven-point thermal sensation
+vote (−3 cold … +3 hot, integers), an optional free-text note and kind
+(``prompted`` at a planned stop or ``spontaneous``). Raw labels other than the
+three classes can be mapped with ``[source.comfort_labels]``.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort.columns import COMFORT_CLASSES, PARTICIPANT, VOTE_COMFORT, VOTE_KIND, VOTE_NOTE, VOTE_TSV
+from walkcomfort.errors import InputError
+from walkcomfort.session.readers._common import (Quarantine, assemble_metadata, column, finish, missing_mask,
+                                                 parse_times, read_delimited, read_text, to_number)
+
+VOTE_KINDS = ("prompted", "spontaneous")
+
+
+def read_votes(path, source_spec, session_spec):
+    """Read comfort votes.
+
+    Returns
+    -------
+    data : DataFrame
+        UTC index ``time`` (device clock); ``participant``, ``vote_comfort``
+        (one of the three classes or missing), ``vote_tsv`` (−3…+3 or NaN),
+        ``vote_note`` (text, may be empty), ``vote_kind`` (``prompted``,
+        ``spontaneous`` or empty).
+    metadata : dict
+        Counts and ``quarantine`` (``bad_comfort``, ``bad_tsv``,
+        ``out_of_range:vote_tsv``, ``empty_vote``, ``bad_kind``,
+        ``other_participant``, time problems, ``duplicate_time``).
+    """
+    path = Path(path)
+    spec = source_spec
+    q = Quarantine(spec.name, spec.path)
+    fields = ("time", "participant", "comfort", "tsv", "note", "kind")
+    if spec.format == "json":
+        recs = _json_records(path, spec)
+        n = len(recs)
+        cols = {f: pd.Series([_text(r.get(spec.column(f))) for r in recs], dtype=object) for f in fields}
+        present = {f for f in fields if any(spec.column(f) in r for r in recs)}
+        rows = np.arange(1, n + 1, dtype=np.int64)
+        raws = [json.dumps(r, ensure_ascii=False, sort_keys=True) for r in recs]
+        encoding = "utf-8"
+        if n and "time" not in present:
+            raise InputError(f"no vote has the field '{spec.column('time')}'", where=spec.path,
+                             fix="give each vote a time, or map the field in [source.columns]")
+    else:
+        table = read_delimited(path, spec, [spec.column("time")], [spec.column(f) for f in fields[1:]], q)
+        present = {f for f in fields if spec.column(f) in table.header}
+        cols = {f: (column(table, spec.column(f)) if f in present else pd.Series([""] * len(table.rows), dtype=object))
+                for f in fields}
+        rows, raws, encoding = table.lines, table.raws, table.encoding
+        n = len(rows)
+    for f in spec.columns:
+        if f not in present and n:
+            raise InputError(f"column '{spec.column(f)}' (mapped from {f}) is not in the file",
+                             where=f"{spec.where} columns.{f}", fix="correct the column name (case-sensitive)")
+    if n and not ({"comfort", "tsv"} & present):
+        raise InputError("the votes file has neither a comfort nor a tsv column", where=spec.path,
+                         fix="add a comfort and/or tsv column, or map them in [source.columns]")
+    times, reason = parse_times(cols["time"], spec, session_spec, where=spec.path)
+
+    labels = {k.strip().lower(): v for k, v in spec.comfort_labels.items()}
+    comfort = np.full(n, None, dtype=object)
+    miss_c = missing_mask(cols["comfort"], spec.na_values)
+    for i, v in enumerate(cols["comfort"]):
+        if miss_c[i]:
+            continue
+        key = v.strip().lower()
+        lab = labels.get(key, key)
+        if lab in COMFORT_CLASSES:
+            comfort[i] = lab
+        elif reason[i] == "":
+            reason[i] = "bad_comfort"
+    tsv, bad = to_number(cols["tsv"], spec.decimal, spec.na_values)
+    with np.errstate(invalid="ignore"):
+        nonint = np.isfinite(tsv) & (np.round(tsv) != tsv)
+        outr = np.isfinite(tsv) & ((tsv < -3) | (tsv > 3))
+    reason[(bad | nonint) & (reason == "")] = "bad_tsv"
+    reason[outr & (reason == "")] = "out_of_range:vote_tsv"
+    empty = np.array([c is None for c in comfort]) & ~np.isfinite(tsv) & ~bad
+    reason[empty & (reason == "") & miss_c] = "empty_vote"
+
+    part = np.array([v.strip() if v.strip() else session_spec.participant for v in cols["participant"]], dtype=object)
+    other = part != session_spec.participant
+    reason[other & (reason == "")] = "other_participant"
+    kind = np.array([v.strip().lower() for v in cols["kind"]], dtype=object)
+    badk = np.array([k not in VOTE_KINDS and k not in ("",) for k in kind], dtype=bool) if n else np.zeros(0, bool)
+    reason[badk & (reason == "")] = "bad_kind"
+    note = np.array([v for v in cols["note"]], dtype=object)
+
+    values = {PARTICIPANT: part, VOTE_COMFORT: comfort, VOTE_TSV: tsv, VOTE_NOTE: note, VOTE_KIND: kind}
+    df, meta = finish(times, values, reason, None, rows, raws, q)
+    return df, assemble_metadata("votes", spec, meta, q, encoding=encoding, fields=sorted(present))
+
+
+def _text(v) -> str:
+    if v is None:
+        return ""
+    if isinstance(v, float) and not np.isfinite(v):
+        return ""
+    if isinstance(v, bool):
+        return str(v).lower()
+    return str(v)
+
+
+def _json_records(path: Path, spec) -> list[dict]:
+    text, _ = read_text(path)
+    try:
+        obj = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise InputError(f"not valid JSON ({exc.msg})", where=f"{spec.path}:{exc.lineno}",
+                         fix="correct the JSON at that line (commas, quotes, brackets)") from None
+    if isinstance(obj, dict) and isinstance(obj.get("votes"), list):
+        obj = obj["votes"]
+    if not isinstance(obj, list):
+        raise InputError("expected a list of votes (or {\"votes\": [...]})", where=spec.path,
+                         fix="write the votes as a JSON array of objects")
+    bad = [i for i, r in enumerate(obj, start=1) if not isinstance(r, dict)]
+    if bad:
+        raise InputError(f"vote #{bad[0]} is not an object", where=spec.path,
+                         fix='write each vote as {"time": ..., "comfort": ...}')
+    return obj
