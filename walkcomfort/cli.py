@@ -79,7 +79,10 @@ def main(argv: list[str] | None = None) -> int:
     args = list(sys.argv[1:] if argv is None else argv)
     verbose = "--verbose" in args or "-v" in args
     try:
-        cli.main(args=args, prog_name="walkcomfort", standalone_mode=False)
+        rv = cli.main(args=args, prog_name="walkcomfort", standalone_mode=False)
+        # click returns (not raises) a verb's ``click.exceptions.Exit`` code when not standalone
+        if isinstance(rv, int) and rv:
+            return rv
     except click.exceptions.Abort:
         click.echo("error: aborted.", err=True)
         return 130
