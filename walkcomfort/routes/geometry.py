@@ -82,20 +82,14 @@ class Route:
 
 # --------------------------------------------------------------------------- CRS
 def utm_crs_for(lon: float, lat: float) -> str:
-    """EPSG code of the UTM zone containing (lon, lat) on WGS84.
+    """The UTM zone CRS of (lon, lat) as ``"EPSG:326zz"``/``"EPSG:327zz"``.
 
-    Parameters
-    ----------
-    lon, lat : float
-        Longitude and latitude [°].
-
-    Returns
-    -------
-    str
-        ``"EPSG:326zz"`` (north) or ``"EPSG:327zz"`` (south).
+    A thin wrapper over :func:`walkcomfort.environment.geo.utm_crs`, so routes and
+    scenes of one site share one frame.
     """
-    zone = int(np.floor((float(lon) + 180.0) / 6.0)) % 60 + 1
-    return f"EPSG:{32600 + zone if lat >= 0 else 32700 + zone}"
+    from walkcomfort.environment.geo import utm_crs
+
+    return utm_crs(lon, lat).to_string()
 
 
 def _transformer(crs: str, inverse: bool = False):
@@ -330,9 +324,9 @@ def load_route(path: str | os.PathLike, spacing_m: float = DEFAULT_SPACING_M, de
         DEM raster for elevations (needs rasterio); overrides the file's elevations.
     route_id : str, optional
         Which line to use when the file holds several (by id/name).
-    crs : str, optional
+    crs : str or pyproj.CRS, optional
         Metric CRS for ``x_m, y_m``; default the UTM zone of the route's first vertex.
-        Pass the scene's CRS so route and scene share coordinates.
+        Pass the scene's ``crs`` so route and scene share coordinates.
 
     Returns
     -------
@@ -354,7 +348,7 @@ def load_route(path: str | os.PathLike, spacing_m: float = DEFAULT_SPACING_M, de
         k = int(np.flatnonzero(bad)[0])
         raise InputError(f"vertex {k} has lon/lat ({lon[k]}, {lat[k]}) outside WGS84 ranges", where=path,
                          fix="write coordinates as longitude, latitude in degrees")
-    crs = crs or utm_crs_for(lon[0], lat[0])
+    crs = utm_crs_for(lon[0], lat[0]) if crs is None else (crs if isinstance(crs, str) else crs.to_string())
     x, y = _transformer(crs).transform(lon, lat)
     d, xs, ys, vd = resample_line(x, y, spacing_m)
     if d[-1] <= 0:

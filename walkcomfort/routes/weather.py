@@ -606,6 +606,34 @@ def _utc_index(times) -> pd.DatetimeIndex:
     return times.tz_convert("UTC")
 
 
+#: Names accepted in stated conditions (``--conditions``), all numbers.
+CONDITION_KEYS = ("t_air_c", "rh_pct", "wind_ms", "wind_height_m", "cloud_frac", "ghi_wm2", "pressure_hpa")
+
+
+def parse_conditions(text: str | None) -> dict | None:
+    """``"t_air_c=33,rh_pct=30,wind_ms=1.5[,wind_height_m=10][,cloud_frac=0.2]"`` -> dict of floats."""
+    if text is None:
+        return None
+    out = {}
+    for item in str(text).split(","):
+        if not item.strip():
+            continue
+        key, sep, value = item.partition("=")
+        key = key.strip()
+        if not sep or key not in CONDITION_KEYS:
+            raise InputError(f"stated condition {item.strip()!r} is not 'name=number' with a name of "
+                             f"{list(CONDITION_KEYS)}", fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'")
+        try:
+            out[key] = float(value)
+        except ValueError:
+            raise InputError(f"stated condition {key} = {value.strip()!r} is not a number",
+                             fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'") from None
+    missing = [k for k in ("t_air_c", "rh_pct", "wind_ms") if k not in out]
+    if missing:
+        raise InputError(f"stated conditions lack {missing}", fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'")
+    return out
+
+
 def open_weather(path=None, conditions: dict | None = None, **kw) -> WeatherSource:
     """A weather source from a file path (EPW/TMY2/TMY3 or a logger CSV/Parquet) or stated conditions.
 

@@ -1,0 +1,164 @@
+"""``walkcomfort route`` (one route, one scheme, one or many departures) and ``walkcomfort compare``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from walkcomfort.errors import InputError
+
+DESIGN_HELP = ("Put clock-time departures on a design day from the weather file: 'hottest', 'pNN' (the day "
+               "closest to the NNth percentile of daily maxima, e.g. p95), or a date YYYY-MM-DD.")
+
+
+def _common(f):
+    opts = [
+        click.option("-o", "--out", "out_dir", type=click.Path(path_type=Path), required=True,
+                     help="Output folder."),
+        click.option("--scene", "scene_path", type=click.Path(path_type=Path), default=None,
+                     help="Base scene GeoJSON (buildings, trees, canopies). Without it: open ground."),
+        click.option("--depart", "departures", multiple=True, required=True,
+                     help="Departure: ISO date-time, HH:MM on the design day, or a sweep START..END/STEP "
+                          "(e.g. 08:00..18:00/1h). Repeatable."),
+        click.option("--timezone", default=None, help="IANA zone for departures without an offset and for reports."),
+        click.option("--weather", "weather_path", type=click.Path(path_type=Path), default=None,
+                     help="EPW, TMY2 (.tm2) or TMY3 (.csv) file, or a logger series (.csv/.parquet)."),
+        click.option("--conditions", default=None,
+                     help="Stated weather instead of a file: 't_air_c=33,rh_pct=30,wind_ms=1.5"
+                          "[,wind_height_m=10][,cloud_frac=0.2|ghi_wm2=800]'."),
+        click.option("--design-day", default=None, help=DESIGN_HELP),
+        click.option("--season", default=None, help="Months for the design-day rule, e.g. 6-8."),
+        click.option("--model", "model_path", type=click.Path(path_type=Path), default=None,
+                     help="Comfort model bundle folder; without it the physics-only UTCI-band rule is used."),
+        click.option("--spacing", "spacing_m", type=float, default=5.0, show_default=True,
+                     help="Point spacing along the route [m]."),
+        click.option("--speed", "flat_speed_ms", type=float, default=1.3, show_default=True,
+                     help="Walking speed on flat ground [m/s] (slopes by Tobler's function)."),
+        click.option("--route-id", default=None, help="Which line of the route file, if it holds several."),
+        click.option("--dem", type=click.Path(path_type=Path), default=None,
+                     help="DEM raster for elevations (needs: pip install rasterio)."),
+        click.option("--max-station-km", type=float, default=50.0, show_default=True,
+                     help="Refuse a weather file whose station is farther from the route [km]."),
+        click.option("--logger-wind-height", type=float, default=None,
+                     help="Wind sensor height of a logger series [m] (if the file does not say)."),
+        click.option("--no-reasons", is_flag=True, help="Skip per-point explanations (faster)."),
+    ]
+    for o in reversed(opts):
+        f = o(f)
+    return f
+
+
+def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_path=None, timezone=None,
+                   weather_path=None, conditions=None, design_day=None, season=None, model_path=None,
+                   spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
+                   logger_wind_height=None, no_reasons=False, include_base=True, echo=None):
+    """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
+
+    Returns
+    -------
+    (Comparison, dict of written files)
+    """
+    from walkcomfort import _io
+    from walkcomfort.routes.compare import compare_schemes
+    from walkcomfort.routes.designday import design_day as pick_day
+    from walkcomfort.routes.geometry import load_route
+    from walkcomfort.routes.predict import Predictor
+    from walkcomfort.routes.schemes import load_scheme
+    from walkcomfort.routes.timing import parse_departures
+    from walkcomfort.routes.weather import WeatherFile, open_weather, parse_conditions
+
+    echo = echo or (lambda s: None)
+    scene = None
+    if scene_path is not None:
+        from walkcomfort.environment.scene import load_scene
+
+        scene = load_scene(scene_path)
+    route = load_route(route_path, spacing_m=spacing_m, dem=dem, route_id=route_id,
+                       crs=scene.crs if scene is not None else None)
+    schemes = [load_scheme(p) for p in scheme_paths]
+    if schemes and scene is None:
+        raise InputError(f"scheme '{schemes[0].name}' edits a scene, but no scene was given", where=scheme_paths[0],
+                         fix="give the base scene with --scene")
+    weather = open_weather(weather_path, parse_conditions(conditions), typical=True, max_distance_km=max_station_km,
+                           wind_height_m=logger_wind_height)
+    day = None
+    chosen = None
+    if design_day is not None:
+        if not isinstance(weather, WeatherFile):
+            raise InputError("a design day is picked from a weather file (EPW/TMY), none was given",
+                             fix="give --weather with an EPW/TMY file, or full dates in --depart")
+        text = design_day.strip().lower()
+        if text == "hottest":
+            chosen = pick_day(weather, "hottest", months=season)
+        elif text.startswith("p") and text[1:].replace(".", "", 1).isdigit():
+            chosen = pick_day(weather, "percentile", percentile=float(text[1:]), months=season)
+        else:
+            chosen = pick_day(weather, "date", date=design_day, months=season)
+        day = chosen.date
+        echo(f"design day {chosen.date} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
+    deps = parse_departures(list(departures), timezone=timezone, day=day)
+    predictor = Predictor.from_bundle(model_path)
+    for n in route.notices:
+        echo(f"note: {n}")
+    for n in getattr(weather, "notices", []) or []:
+        echo(f"note: {n}")
+    if not predictor.is_model:
+        echo("note: no model bundle given: classes come from the physics-only UTCI-band rule")
+    result = compare_schemes(route, schemes, deps, weather, scene=scene, predictor=predictor,
+                             include_base=include_base, flat_speed_ms=flat_speed_ms, timezone=timezone,
+                             explain=not no_reasons)
+    if chosen is not None:
+        result.notices.append(f"design day {chosen.date} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
+    written = {}
+    if out_dir is not None:
+        inputs = [p for p in [route_path, scene_path, weather_path, *scheme_paths] if p is not None]
+        if model_path is not None:
+            inputs += sorted(p for p in Path(model_path).iterdir() if p.is_file())
+        params = {"departures": [d.isoformat() for d in deps], "timezone": timezone, "conditions": conditions,
+                  "design_day": chosen.as_dict() if chosen else None, "season": season, "spacing_m": spacing_m,
+                  "flat_speed_ms": flat_speed_ms, "route_id": route.route_id,
+                  "schemes": [s.name for s in schemes], "predictor": predictor.label,
+                  "weather": weather.describe(), "elevation_source": route.elevation_source}
+        prov = _io.provenance(inputs, params)
+        written = _write(result, out_dir, prov, timezone)
+    return result, written
+
+
+def _write(result, out_dir, prov, timezone):
+    from walkcomfort.routes.outputs import write_outputs
+
+    return write_outputs(result, out_dir, prov, timezone=timezone)
+
+
+def _report(result, written, out_dir):
+    s = result.summary
+    for _, r in s.iterrows():
+        click.echo(f"{r['scheme']:>14} {r['departure'].strftime('%Y-%m-%d %H:%M')}Z  walk {r['walk_min']:.1f} min  "
+                   f"comfortable {r['exp_min_comfortable']:.1f} min (expected)  shade {r['shade_share']:.0%}  "
+                   f"mean UTCI {r['mean_utci_c']:.1f} °C")
+    click.echo(f"wrote {len(written)} files to {out_dir}")
+
+
+@click.command()
+@click.argument("route_path", metavar="ROUTE", type=click.Path(path_type=Path))
+@click.option("--scheme", "scheme_path", type=click.Path(path_type=Path), default=None,
+              help="One shade scheme GeoJSON applied to the scene (default: the base scene).")
+@_common
+def route(route_path, scheme_path, **kw):
+    """Predict comfort along one planned route for one scheme and one or many departures."""
+    result, written = run_from_files(route_path, [scheme_path] if scheme_path else [], include_base=False,
+                                     echo=lambda s: click.echo(s, err=True), **kw)
+    _report(result, written, kw["out_dir"])
+
+
+@click.command()
+@click.argument("route_path", metavar="ROUTE", type=click.Path(path_type=Path))
+@click.option("--scheme", "scheme_paths", type=click.Path(path_type=Path), multiple=True, required=True,
+              help="Shade scheme GeoJSON; repeat for each scheme. The base scene is always included.")
+@_common
+def compare(route_path, scheme_paths, **kw):
+    """Compare shade schemes side by side along a planned route (with the base scene)."""
+    result, written = run_from_files(route_path, list(scheme_paths), include_base=True,
+                                     echo=lambda s: click.echo(s, err=True), **kw)
+    _report(result, written, kw["out_dir"])

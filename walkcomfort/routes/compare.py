@@ -1,0 +1,262 @@
+"""Route summaries, schemes side by side, best departure, and what each scheme buys.
+
+A summary row stands for one walk: one ``route_id × scheme × departure``. Time
+spent in each comfort class is given two ways:
+
+* **expected minutes** — Σ pᵢ·Δtᵢ over the walk's points, from the class
+  probabilities (Δt is the ``step_s`` each point stands for); they sum to the walk
+  time and carry the model's uncertainty;
+* **arg-max minutes** — the time whose most probable class is that class.
+
+Shade share is the time share of the walk with at least half of the direct beam
+blocked while the sun is up (``shade_frac`` ≥ 0.5, the state threshold the features
+use). Heat dose is the time integral of UTCI above 26 °C (the upper edge of "no
+thermal stress", Bröde et al. 2012, doi:10.1007/s00484-011-0454-1) [°C·min].
+UTCI statistics are time-weighted.
+
+These are planning estimates from a model, not a safety assessment: heat-health
+decisions follow local public-health and occupational guidance.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort import columns as C
+from walkcomfort.errors import InputError
+from walkcomfort.routes.geometry import Route
+from walkcomfort.routes.predict import COMFORT_CLASS, PREDICTOR, PROBA, Predictor, predict_route
+from walkcomfort.routes.schemes import BASE, Scheme, scheme_inventory
+from walkcomfort.routes.simulate import DEPARTURE, ROUTE_ID, SCHEME, STEP_S, simulate_timeline
+from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
+from walkcomfort.routes.weather import WeatherSource
+
+#: Heat-dose threshold [°C]: the upper bound of the UTCI band "no thermal stress".
+DOSE_THRESHOLD_C = 26.0
+#: A point is "in shade" when at least this share of the direct beam is blocked [-].
+SHADE_STATE_FRAC = 0.5
+KEYS = [ROUTE_ID, SCHEME, DEPARTURE]
+#: Columns compared against the base scheme (difference = scheme − base).
+DELTA_COLUMNS = ("exp_min_comfortable", "exp_min_neutral", "exp_min_uncomfortable", "exp_share_comfortable",
+                 "argmax_min_comfortable", "shade_share", "mean_utci_c", "peak_utci_c", "heat_dose_cmin",
+                 "mean_tmrt_c")
+
+CAUTION = ("Planning estimates from a model and a simulated walk, not a heat-safety assessment; follow local "
+           "public-health heat guidance, occupational-health rules and licensed design practice.")
+
+
+def summarise(points: pd.DataFrame) -> pd.DataFrame:
+    """One summary row per ``route_id × scheme × departure`` of a per-point table.
+
+    Returns
+    -------
+    DataFrame
+        Columns ``route_id, scheme, departure, arrival, walk_min, length_m, predictor,
+        exp_min_<class>, exp_share_<class>, argmax_min_<class>, argmax_share_<class>,
+        shade_share, mean_utci_c, peak_utci_c, mean_tmrt_c, heat_dose_cmin, points_n``.
+        Minutes [min], shares [-], UTCI/Tmrt [°C], heat dose [°C·min].
+    """
+    need = [*KEYS, STEP_S, C.UTCI_C, C.SHADE_FRAC, *PROBA.values(), COMFORT_CLASS]
+    missing = [c for c in need if c not in points.columns]
+    if missing:
+        raise InputError(f"the per-point table lacks columns {missing}", fix="give a table from predict_route")
+    df = points
+    dt = df[STEP_S].to_numpy(float)
+    w = pd.DataFrame({k: df[k].to_numpy() for k in KEYS})
+    w["dt"] = dt
+    w["t"] = df.index
+    for c in C.COMFORT_CLASSES:
+        w[f"e_{c}"] = df[PROBA[c]].to_numpy(float) * dt
+        w[f"a_{c}"] = (df[COMFORT_CLASS].to_numpy() == c) * dt
+    sun_up = df[C.SUN_ELEV_DEG].to_numpy(float) > 0 if C.SUN_ELEV_DEG in df.columns else np.ones(len(df), bool)
+    shade = np.nan_to_num(df[C.SHADE_FRAC].to_numpy(float), nan=0.0)
+    w["shade"] = ((shade >= SHADE_STATE_FRAC) & sun_up) * dt
+    w["sun_up"] = sun_up * dt
+    u = df[C.UTCI_C].to_numpy(float)
+    w["u_dt"] = u * dt
+    w["u"] = u
+    w["dose"] = np.clip(u - DOSE_THRESHOLD_C, 0.0, None) * dt / 60.0
+    w["tmrt_dt"] = (df[C.TMRT_C].to_numpy(float) * dt) if C.TMRT_C in df.columns else np.nan
+    w["dist"] = df[C.DIST_M].to_numpy(float) if C.DIST_M in df.columns else np.nan
+    w["pred"] = df[PREDICTOR].to_numpy() if PREDICTOR in df.columns else ""
+    g = w.groupby(KEYS, sort=True, dropna=False)
+    out = pd.DataFrame({"arrival": g["t"].max(), "walk_min": g["dt"].sum() / 60.0, "length_m": g["dist"].max(),
+                        "predictor": g["pred"].first()})
+    total = g["dt"].sum()
+    for c in C.COMFORT_CLASSES:
+        out[f"exp_min_{c}"] = g[f"e_{c}"].sum() / 60.0
+    for c in C.COMFORT_CLASSES:
+        out[f"exp_share_{c}"] = g[f"e_{c}"].sum() / total
+    for c in C.COMFORT_CLASSES:
+        out[f"argmax_min_{c}"] = g[f"a_{c}"].sum() / 60.0
+    for c in C.COMFORT_CLASSES:
+        out[f"argmax_share_{c}"] = g[f"a_{c}"].sum() / total
+    sun_t = g["sun_up"].sum()
+    out["sun_up_share"] = sun_t / total
+    out["shade_share"] = (g["shade"].sum() / sun_t).where(sun_t > 0, 0.0)
+    out["mean_utci_c"] = g["u_dt"].sum() / total
+    out["peak_utci_c"] = g["u"].max()
+    out["mean_tmrt_c"] = g["tmrt_dt"].sum() / total
+    out["heat_dose_cmin"] = g["dose"].sum()
+    out["points_n"] = g["dt"].size()
+    return out.reset_index()
+
+
+def compare_to_base(summary: pd.DataFrame, base: str = BASE) -> pd.DataFrame:
+    """Each scheme's summary beside the base at the same route and departure, with differences.
+
+    Returns
+    -------
+    DataFrame
+        The summary rows of the non-base schemes plus ``base_<col>`` and
+        ``delta_<col>`` (scheme − base) for :data:`DELTA_COLUMNS`.
+    """
+    if base not in set(summary[SCHEME]):
+        raise InputError(f"no '{base}' rows to compare against", fix="include the base scene in the comparison")
+    b = summary[summary[SCHEME] == base].set_index([ROUTE_ID, DEPARTURE])
+    others = summary[summary[SCHEME] != base].copy()
+    if others.empty:
+        return others
+    key = pd.MultiIndex.from_frame(others[[ROUTE_ID, DEPARTURE]])
+    for col in DELTA_COLUMNS:
+        base_vals = b[col].reindex(key).to_numpy(float)
+        others[f"base_{col}"] = base_vals
+        others[f"delta_{col}"] = others[col].to_numpy(float) - base_vals
+    return others.reset_index(drop=True)
+
+
+def best_departures(summary: pd.DataFrame) -> pd.DataFrame:
+    """The best departure of each route × scheme in a sweep.
+
+    Best = the most expected comfortable share; ties go to the lower heat dose, then
+    the earlier departure.
+    """
+    s = summary.sort_values([ROUTE_ID, SCHEME, "exp_share_comfortable", "heat_dose_cmin", DEPARTURE],
+                            ascending=[True, True, False, True, True], kind="stable")
+    best = s.groupby([ROUTE_ID, SCHEME], sort=True).head(1)
+    cols = [ROUTE_ID, SCHEME, DEPARTURE, "walk_min", "exp_min_comfortable", "exp_share_comfortable",
+            "mean_utci_c", "heat_dose_cmin"]
+    n = summary.groupby([ROUTE_ID, SCHEME]).size().rename("departures_n")
+    return best[cols].merge(n.reset_index(), on=[ROUTE_ID, SCHEME]).reset_index(drop=True)
+
+
+def cost_effectiveness(comparison: pd.DataFrame, inventories: dict[str, dict]) -> pd.DataFrame:
+    """Comfortable minutes gained per tree and per 100 m² of added shade, per scheme.
+
+    Parameters
+    ----------
+    comparison : DataFrame
+        From :func:`compare_to_base`.
+    inventories : dict
+        ``{scheme: scheme_inventory(...)}``.
+
+    Returns
+    -------
+    DataFrame
+        One row per route × scheme: what the scheme adds (``trees_added``,
+        ``crown_m2_added``, ``canopy_m2_added``, ``shade_m2_added``), the mean over
+        departures of the expected comfortable minutes gained per walk
+        (``gain_comfortable_min``), of the heat dose avoided and of the UTCI change,
+        and the gain per tree added and per 100 m² of shade added (NaN where nothing
+        of that kind was added).
+    """
+    rows = []
+    if comparison.empty:
+        return pd.DataFrame(rows)
+    for (rid, sch), g in comparison.groupby([ROUTE_ID, SCHEME], sort=True):
+        inv = inventories.get(sch, {})
+        gain = float(g["delta_exp_min_comfortable"].mean())
+        trees = inv.get("trees_added", 0) - inv.get("trees_removed", 0)
+        shade_m2 = float(inv.get("shade_m2_added", 0.0))
+        rows.append({ROUTE_ID: rid, SCHEME: sch, "departures_n": len(g),
+                     "trees_added": inv.get("trees_added", 0), "trees_removed": inv.get("trees_removed", 0),
+                     "crown_m2_added": inv.get("crown_m2_added", 0.0),
+                     "canopy_m2_added": inv.get("canopy_m2_added", 0.0), "shade_m2_added": shade_m2,
+                     "gain_comfortable_min": gain,
+                     "heat_dose_avoided_cmin": float(-g["delta_heat_dose_cmin"].mean()),
+                     "delta_mean_utci_c": float(g["delta_mean_utci_c"].mean()),
+                     "delta_shade_share": float(g["delta_shade_share"].mean()),
+                     "gain_min_per_tree": gain / trees if trees > 0 else np.nan,
+                     "gain_min_per_100m2_shade": gain / (shade_m2 / 100.0) if shade_m2 > 0 else np.nan})
+    return pd.DataFrame(rows)
+
+
+@dataclass
+class Comparison:
+    """Everything a scheme comparison produces (all DataFrames).
+
+    Attributes
+    ----------
+    points : per-point prediction table, all schemes stacked
+    summary : one row per route × scheme × departure
+    comparison : non-base schemes against the base, with differences
+    best : best departure per route × scheme
+    cost : cost-effectiveness per route × scheme
+    inventories : what each scheme adds (dict per scheme)
+    notices : things to tell the user
+    """
+
+    points: pd.DataFrame
+    summary: pd.DataFrame
+    comparison: pd.DataFrame
+    best: pd.DataFrame
+    cost: pd.DataFrame
+    inventories: dict = field(default_factory=dict)
+    notices: list = field(default_factory=list)
+
+
+def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, scene=None,
+                    predictor: Predictor | None = None, include_base: bool = True,
+                    flat_speed_ms: float = DEFAULT_FLAT_SPEED_MS, timezone: str | None = None,
+                    walker: dict | None = None, explain: bool = True, **env_kw) -> Comparison:
+    """Predict one route under several schemes and compare them with the base scene.
+
+    The walk (positions, times, weather) is simulated once and reused for every
+    scheme, so differences come from the scene alone.
+
+    Parameters
+    ----------
+    route, departures, weather, scene, predictor, flat_speed_ms, timezone, walker, explain
+        As :func:`~walkcomfort.routes.predict.predict_route`.
+    schemes : iterable of Scheme
+        The schemes; their names must be unique.
+    include_base : bool, default True
+        Add the base scene (needed for differences).
+
+    Returns
+    -------
+    Comparison
+    """
+    schemes = list(schemes)
+    names = [s.name for s in schemes]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise InputError(f"scheme names {dup} appear twice", fix="give each scheme its own name")
+    if (include_base and BASE not in names) or not schemes:
+        schemes = [Scheme.base(), *schemes]
+    predictor = predictor or Predictor(None)
+    timeline = simulate_timeline(route, departures, weather, flat_speed_ms=flat_speed_ms, timezone=timezone,
+                                 walker=walker)
+    tables = []
+    inventories = {}
+    for s in schemes:
+        tables.append(predict_route(route, None, weather, scene=scene, scheme=s, predictor=predictor,
+                                    explain=explain, timeline=timeline, **env_kw))
+        inventories[s.name] = scheme_inventory(scene, s) if scene is not None else scheme_inventory_empty()
+    points = pd.concat(tables)
+    points.attrs = dict(tables[0].attrs)
+    points.attrs["scheme"] = [s.name for s in schemes]
+    summary = summarise(points)
+    comparison = compare_to_base(summary) if BASE in set(summary[SCHEME]) else summary.iloc[0:0]
+    best = best_departures(summary)
+    cost = cost_effectiveness(comparison, inventories)
+    return Comparison(points, summary, comparison, best, cost, inventories,
+                      list(points.attrs.get("notices", [])))
+
+
+def scheme_inventory_empty() -> dict:
+    return {"trees_added": 0, "trees_removed": 0, "crown_m2_added": 0.0, "canopy_m2_added": 0.0,
+            "buildings_changed": 0, "edits_n": 0, "shade_m2_added": 0.0}
