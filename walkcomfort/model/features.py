@@ -39,10 +39,10 @@ MAX_STEP_S = 60.0
 #: Longest walk the exponential windows handle in one piece [s] (exp overflow guard).
 MAX_WALK_S = 10 * 3600.0
 
-# participant attribute columns (from the manifest's [participant] table)
-CLO = "clo"                    # [clo] clothing insulation
-ACCLIMATISED = "acclimatised"  # bool
-AGE_BAND = "age_band"          # text such as "25-34" or "65+"
+# participant attribute columns (from the manifest's [participant] table; columns.PARTICIPANT_ATTRS)
+CLO = C.CLO                    # [clo] clothing insulation
+ACCLIMATISED = C.ACCLIMATISED  # bool
+AGE_BAND = C.AGE_BAND          # text such as "25-34" or "65+"
 PARTICIPANT_ATTRS = (CLO, ACCLIMATISED, AGE_BAND)
 
 #: Current-condition features (also the only inputs of the logistic baseline).
