@@ -1,0 +1,171 @@
+"""Colours used by the maps and reports, chosen to stay apart for colour-blind readers.
+
+The comfort palette is walkcomfort's own: a mid blue for *comfortable*, a warm sand for
+*neutral* and a dark plum for *uncomfortable*. The three differ in lightness as well as
+hue (CIECAM02 lightness J ≈ 51, 75, 19), so they stay apart under the three kinds of
+dichromacy and in greyscale print; ``tests/report/test_palette.py`` checks the pairwise
+CAM02-UCS colour differences under the Machado et al. (2009) simulation of deuteranopia,
+protanopia and tritanopia.
+
+The UTCI band colours follow the order of hues of the chart that comes with the UTCI
+assessment scale (Bröde et al. 2012, doi:10.1007/s00484-011-0454-1): dark red through red
+and orange for heat stress, green for no thermal stress, pale to dark blue for cold
+stress. The hex values are ours, picked to match that chart's order (from memory of the
+chart, not copied from a file).
+
+Sequential scales (shade, model error rate) run monotonically in lightness so that they
+read correctly without colour.
+
+References
+----------
+Machado, G. M., Oliveira, M. M., Fernandes, L. A. F. (2009). A physiologically-based
+model for simulation of color vision deficiency. IEEE TVCG 15(6), 1291-1298,
+doi:10.1109/TVCG.2009.113.
+"""
+
+from __future__ import annotations
+
+import math
+
+from walkcomfort import columns as C
+
+# --- comfort classes (our own palette) ---------------------------------------------------
+COMFORT_COLOURS: dict[str, str] = {
+    "comfortable": "#3e9fd8",
+    "neutral": "#efc35b",
+    "uncomfortable": "#6b1d4a",
+}
+COMFORT_LABELS: dict[str, str] = {
+    "comfortable": "Comfortable",
+    "neutral": "Neutral",
+    "uncomfortable": "Uncomfortable",
+}
+# drawn under every route line so the light colours stay visible on a white page or on tiles
+HALO_COLOUR = "#1f1f1f"
+MISSING_COLOUR = "#9b9b9b"
+
+assert tuple(COMFORT_COLOURS) == C.COMFORT_CLASSES  # one colour per glossary class, same order
+
+# --- UTCI assessment scale bands (hue order of the published chart) -----------------------
+UTCI_BAND_COLOURS: dict[str, str] = {
+    "extreme heat stress": "#7a0010",
+    "very strong heat stress": "#d7191c",
+    "strong heat stress": "#f0722a",
+    "moderate heat stress": "#f9b233",
+    "no thermal stress": "#2e9b45",
+    "slight cold stress": "#a6d8f0",
+    "moderate cold stress": "#5fb1e3",
+    "strong cold stress": "#2c7bc0",
+    "very strong cold stress": "#1c4e96",
+    "extreme cold stress": "#0d2259",
+}
+assert set(UTCI_BAND_COLOURS) == {band[2] for band in C.UTCI_BANDS}
+
+# --- sequential scales ----------------------------------------------------------------------
+# shade fraction: 0 = full sun (pale straw) ... 1 = full shade (dark slate)
+SHADE_STOPS = ("#f7ec9c", "#b9c18c", "#6f8b88", "#3b5268", "#1d2a40")
+# model error rate in a map cell: 0 = always right (pale) ... 1 = always wrong (deep violet)
+ERROR_STOPS = ("#f3eef8", "#cbb8dd", "#9c7bbf", "#6c3d9a", "#3f0f6e")
+
+# --- scene (buildings, trees, canopies) ----------------------------------------------------
+SCENE_COLOURS: dict[str, str] = {
+    "building": "#7d7d86",
+    "tree": "#3f7f4c",
+    "canopy": "#b38a5a",
+}
+# edits of a shade scheme are told apart by the outline, not by colour alone
+EDIT_STYLES: dict[str, dict] = {
+    "existing": {"dashArray": None, "weight": 1, "outline": "#4a4a4a"},
+    "add": {"dashArray": "6 4", "weight": 3, "outline": "#111111"},
+    "modify": {"dashArray": "2 4", "weight": 3, "outline": "#111111"},
+    "remove": {"dashArray": "1 5", "weight": 2, "outline": "#8a8a8a"},
+}
+
+
+def _hex_to_rgb(colour: str) -> tuple[int, int, int]:
+    colour = colour.lstrip("#")
+    return int(colour[0:2], 16), int(colour[2:4], 16), int(colour[4:6], 16)
+
+
+def _rgb_to_hex(rgb) -> str:
+    return "#" + "".join(f"{max(0, min(255, int(round(v)))):02x}" for v in rgb)
+
+
+def ramp(stops: tuple[str, ...], value: float) -> str:
+    """Colour at ``value`` (0…1) on a piecewise-linear ramp through ``stops``.
+
+    Parameters
+    ----------
+    stops : tuple of str
+        Hex colours at evenly spaced positions 0, 1/(n-1), …, 1.
+    value : float
+        Position [-]; clipped to 0…1. NaN gives :data:`MISSING_COLOUR`.
+
+    Returns
+    -------
+    str
+        ``#rrggbb``.
+    """
+    if value is None or not math.isfinite(value):
+        return MISSING_COLOUR
+    value = min(1.0, max(0.0, float(value)))
+    pos = value * (len(stops) - 1)
+    i = min(int(pos), len(stops) - 2)
+    t = pos - i
+    a, b = _hex_to_rgb(stops[i]), _hex_to_rgb(stops[i + 1])
+    return _rgb_to_hex([x + (y - x) * t for x, y in zip(a, b)])
+
+
+def comfort_colour(comfort_class) -> str:
+    """Map colour of a comfort class name (grey for a missing or unknown class)."""
+    return COMFORT_COLOURS.get(comfort_class, MISSING_COLOUR)
+
+
+def utci_band_colour(band) -> str:
+    """Colour of a UTCI assessment-scale band name (grey for missing)."""
+    return UTCI_BAND_COLOURS.get(band, MISSING_COLOUR)
+
+
+def utci_band_name(utci_c: float):
+    """Band name of a UTCI value [°C] on the assessment scale (None for NaN).
+
+    Bounds are those of :data:`walkcomfort.columns.UTCI_BANDS` (lower bound exclusive,
+    upper inclusive).
+    """
+    if utci_c is None or not math.isfinite(utci_c):
+        return None
+    for low, high, name in C.UTCI_BANDS:
+        if low < utci_c <= high:
+            return name
+    return None  # pragma: no cover - the bands cover the whole real line
+
+
+def shade_colour(shade_frac: float) -> str:
+    """Colour of a shade fraction [-] (0 full sun … 1 full shade)."""
+    return ramp(SHADE_STOPS, shade_frac)
+
+
+def error_colour(rate: float) -> str:
+    """Colour of a model error rate [-] in a map cell."""
+    return ramp(ERROR_STOPS, rate)
+
+
+def relative_luminance(colour: str) -> float:
+    """WCAG 2.x relative luminance of an sRGB hex colour [-] (0 black … 1 white)."""
+    out = []
+    for v in _hex_to_rgb(colour):
+        c = v / 255.0
+        out.append(c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4)
+    r, g, b = out
+    return 0.2126 * r + 0.7152 * g + 0.0722 * b
+
+
+def contrast_ratio(a: str, b: str) -> float:
+    """WCAG 2.x contrast ratio between two hex colours (1 … 21)."""
+    la, lb = sorted((relative_luminance(a), relative_luminance(b)), reverse=True)
+    return (la + 0.05) / (lb + 0.05)
+
+
+def text_colour_on(background: str) -> str:
+    """Black or white, whichever contrasts more with ``background``."""
+    return "#000000" if contrast_ratio(background, "#000000") >= contrast_ratio(background, "#ffffff") else "#ffffff"
