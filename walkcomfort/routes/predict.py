@@ -65,7 +65,9 @@ class Predictor:
             if set(classes) - set(C.COMFORT_CLASSES) or not classes:
                 raise InputError(f"the model predicts {classes}, not the comfort classes {list(C.COMFORT_CLASSES)}",
                                  fix="use a bundle fitted on the 3-class comfort vote (target='comfort')")
-            self.label = label or f"model:{_model_digest(model)}"
+            from walkcomfort.model.predict import predictor_label
+
+            self.label = label or predictor_label(model)
 
     @classmethod
     def from_bundle(cls, folder: str | os.PathLike | None) -> "Predictor":
@@ -93,39 +95,12 @@ class Predictor:
         n = len(timeline)
         if self.model is None:
             return _physics(timeline)
-        from walkcomfort.model.features import build_features
+        from walkcomfort.model.predict import predict_timeline
 
-        X = build_features(timeline)
-        names = list(getattr(self.model, "feature_names_in_", X.columns))
-        missing = [c for c in names if c not in X.columns]
-        if missing:
-            raise InputError(f"the model needs features {missing[:5]} that this version does not build",
-                             fix="refit the model with this version of walkcomfort")
-        X = X[names]
-        proba = np.asarray(self.model.predict_proba(X), dtype=float)
-        classes = [str(c) for c in self.model.classes_]
-        out = pd.DataFrame(index=timeline.index)
-        for c in C.COMFORT_CLASSES:
-            out[PROBA[c]] = proba[:, classes.index(c)] if c in classes else 0.0
-        p = out[list(PROBA.values())].to_numpy()
-        out[COMFORT_CLASS] = np.array(C.COMFORT_CLASSES, dtype=object)[np.argmax(p, axis=1)]
-        out[PREDICTOR] = self.label
-        out[REASONS] = _model_reasons(self.model, X, out[COMFORT_CLASS].to_numpy()) if explain else ""
-        assert len(out) == n
+        out = predict_timeline(self.model, timeline, reasons=explain)
+        if len(out) != n:
+            raise RuntimeError(f"the model gave {len(out)} rows for {n} timeline rows")
         return out
-
-
-def _model_digest(model) -> str:
-    v = getattr(model, "bundle_digest_", None)  # set by model.bundle.load_bundle
-    if v:
-        d = str(v)
-        return d.split(":", 1)[0] + ":" + d.split(":", 1)[-1][:16]
-    booster = getattr(model, "booster_", None)
-    if booster is not None and hasattr(booster, "model_to_string"):
-        import hashlib
-
-        return "sha256:" + hashlib.sha256(booster.model_to_string().encode()).hexdigest()[:16]
-    return "unknown"
 
 
 def _physics(timeline: pd.DataFrame) -> pd.DataFrame:
@@ -142,14 +117,6 @@ def _physics(timeline: pd.DataFrame) -> pd.DataFrame:
     out[REASONS] = [f"UTCI {x:.1f} °C ({b}) -> {c} by the UTCI-band rule (no model)" if np.isfinite(x)
                     else "UTCI unknown" for x, b, c in zip(u, band, cls)]
     return out
-
-
-def _model_reasons(model, X: pd.DataFrame, predicted: np.ndarray, top: int = 3) -> list[str]:
-    """Top features pushing each row toward its predicted class, in words (model.explain)."""
-    from walkcomfort.model import explain
-
-    reasons = explain.top_reasons(model, X, n=top, classes=list(predicted))
-    return ["; ".join(r) for r in reasons]
 
 
 # --------------------------------------------------------------------------- route prediction
@@ -205,7 +172,10 @@ def predict_route(route: Route, departures, weather: WeatherSource, scene=None, 
                                      walker=walker)
     env = add_simulated_environment(timeline, scene=scene_s, **env_kw)
     pred = predictor.predict(env, explain=explain)
-    table = pd.concat([env, pred], axis=1)
+    # assign by position: departures of a sweep may share instants, so the index can repeat
+    table = env.copy()
+    for c in pred.columns:
+        table[c] = pred[c].to_numpy()
     table[SCHEME] = scheme.name
     cols = [c for c in POINT_COLUMNS if c in table.columns] + [c for c in EXTRA_COLUMNS if c in table.columns]
     missing = [c for c in POINT_COLUMNS if c not in table.columns]
