@@ -181,7 +181,7 @@ def fit_clocks(session, devices, frame_times: dict[str, pd.Timestamp] | None = N
         One entry per device (the reference maps to the identity).
     """
     frame_times = frame_times or {}
-    where = str(session.manifest_path.name if hasattr(session.manifest_path, "name") else session.manifest_path)
+    where = str(session.manifest_path)
     events = []
     for ev in session.sync:
         ta = ev.time_a

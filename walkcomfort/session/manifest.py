@@ -130,6 +130,11 @@ class SourceSpec:
     def where(self) -> str:
         return f"{self.manifest} [[source]] #{self.index} ({self.kind})"
 
+    @property
+    def display(self) -> str:
+        """The file as the user would find it (session folder as given + relative path), for messages."""
+        return str(self.abs_path)
+
     def column(self, canonical: str) -> str:
         """Raw column name for a canonical field (the canonical name itself when not mapped)."""
         return self.columns.get(canonical, canonical)
@@ -471,7 +476,7 @@ def _no_unknown(table: dict, allowed, m: str, w: str) -> None:
 
 def _suggest(word: str, options) -> str | None:
     close = difflib.get_close_matches(str(word), [str(o) for o in options], n=1, cutoff=0.6)
-    return f"did you mean '{close[0]}'?" if close else None
+    return f"use '{close[0]}' (the closest known name)" if close else None
 
 
 def _table(data: dict, key: str, m: str, required: bool = False) -> dict:

@@ -175,7 +175,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
     g = frames[gps.name]
     if len(g) < 2:
         raise InputError(f"the GPS track has {len(g)} usable fix(es); a timeline needs at least two",
-                         where=gps.path, fix="check the file (times, coordinates) and its quarantine reasons")
+                         where=gps.display, fix="check the file (times, coordinates) and its quarantine reasons")
     t0, t1 = g.index[0], g.index[-1]
     if spec.start is not None:
         t0 = max(t0, spec.start)
@@ -183,7 +183,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
         t1 = min(t1, spec.end)
     if t1 <= t0:
         raise InputError(f"the walk window [{t0.isoformat()} … {t1.isoformat()}] is empty: the manifest's "
-                         "start/end do not overlap the GPS track", where=f"{spec.manifest_path.name} [session]",
+                         "start/end do not overlap the GPS track", where=f"{spec.manifest_path} [session]",
                          fix="correct start/end (local time) or remove them")
     step_ns = int(round(step_s * 1e9))
     a = -(-t0.value // step_ns) * step_ns

@@ -86,7 +86,7 @@ def read_delimited(path: Path, spec, required: list[str], optional: list[str], q
     """
     text, encoding = read_text(path)
     lines = text.splitlines()
-    where = spec.path
+    where = spec.display
     header_at = None
     delim = spec.delimiter
     for i, line in enumerate(lines[:50]):
@@ -166,7 +166,7 @@ def to_number(s: pd.Series, decimal: str = ".", na_values=()) -> tuple[np.ndarra
     return vals, bad | inf
 
 
-def parse_times(s: pd.Series, spec, session, where: str) -> tuple[pd.DatetimeIndex, np.ndarray]:
+def parse_times(s: pd.Series, spec, session, where: str, lines=None) -> tuple[pd.DatetimeIndex, np.ndarray]:
     """Parse a column of time text to UTC.
 
     Text with a UTC offset (or ``Z``) is taken as written; naive text is read in the
@@ -214,8 +214,11 @@ def parse_times(s: pd.Series, spec, session, where: str) -> tuple[pd.DatetimeInd
                 sub[why != ""] = why[why != ""]
                 reason[naive] = sub
     if n_aware and n_naive:
-        raise InputError(f"the time column mixes {n_aware} times with a UTC offset and {n_naive} without",
-                         where=where, fix="write every time in one form (all with an offset, or all local "
+        minority = aware if n_aware < n_naive else naive
+        at = int(np.flatnonzero(minority)[0])
+        raise InputError(f"the time column mixes {n_aware} times with a UTC offset and {n_naive} without "
+                         f"(first odd one: {text.iloc[at]!r})",
+                         where=_where(where, line=int(lines[at])) if lines is not None else where, fix="write every time in one form (all with an offset, or all local "
                                           "and declare time_zone in the manifest)")
     idx = pd.DatetimeIndex(result).tz_localize("UTC")
     bad = np.asarray(idx.isna()) & (reason == "")
@@ -349,7 +352,7 @@ def read_sensor_csv(spec, session, fields: list[tuple[str, str, bool]], kind: st
     for f, out, raw in present:
         factors[f] = spec.units.get(f)
         to_si(np.zeros(1), f, factors[f], spec.where)
-    times, reason = parse_times(column(table, time_col), spec, session, where=spec.path)
+    times, reason = parse_times(column(table, time_col), spec, session, where=spec.display, lines=table.lines)
     values: dict[str, np.ndarray] = {}
     for f, out, raw in present:
         v, bad = to_number(column(table, raw), spec.decimal, spec.na_values)

@@ -66,13 +66,13 @@ def read_gpx(path, source_spec, session_spec):
     try:
         text = path.read_bytes().decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise InputError(f"not UTF-8 text ({exc.reason} at byte {exc.start})", where=source_spec.path,
+        raise InputError(f"not UTF-8 text ({exc.reason} at byte {exc.start})", where=source_spec.display,
                          fix="export the GPX again as UTF-8") from None
     try:
         gpx = gpxpy.parse(text)
     except gpxpy.gpx.GPXException as exc:
         msg = " ".join(str(exc).split())
-        raise InputError(f"not a readable GPX file ({msg})", where=source_spec.path,
+        raise InputError(f"not a readable GPX file ({msg})", where=source_spec.display,
                          fix="the file may be truncated or not GPX: export the track again from the device") from None
     q = Quarantine(source_spec.name, source_spec.path)
     lat, lon, ele, t, rows, raws = [], [], [], [], [], []
@@ -123,10 +123,10 @@ def read_gpx(path, source_spec, session_spec):
                     ext[col].append(vals.get(col, np.nan))
     if n_aware and n_naive:
         raise InputError(f"the GPX mixes {n_aware} times with a zone and {n_naive} without",
-                         where=source_spec.path, fix="export the track again with every time in UTC ('Z')")
+                         where=source_spec.display, fix="export the track again with every time in UTC ('Z')")
     if not t:
         if k == 0:
-            raise InputError("the GPX holds no track points", where=source_spec.path,
+            raise InputError("the GPX holds no track points", where=source_spec.display,
                              fix="export the recorded track (not only waypoints or a route)")
     n = len(t)
     reason = np.full(n, "", dtype=object)

@@ -51,7 +51,7 @@ def read_votes(path, source_spec, session_spec):
         raws = [json.dumps(r, ensure_ascii=False, sort_keys=True) for r in recs]
         encoding = "utf-8"
         if n and "time" not in present:
-            raise InputError(f"no vote has the field '{spec.column('time')}'", where=spec.path,
+            raise InputError(f"no vote has the field '{spec.column('time')}'", where=spec.display,
                              fix="give each vote a time, or map the field in [source.columns]")
     else:
         table = read_delimited(path, spec, [spec.column("time")], [spec.column(f) for f in fields[1:]], q)
@@ -65,9 +65,10 @@ def read_votes(path, source_spec, session_spec):
             raise InputError(f"column '{spec.column(f)}' (mapped from {f}) is not in the file",
                              where=f"{spec.where} columns.{f}", fix="correct the column name (case-sensitive)")
     if n and not ({"comfort", "tsv"} & present):
-        raise InputError("the votes file has neither a comfort nor a tsv column", where=spec.path,
+        raise InputError("the votes file has neither a comfort nor a tsv column", where=spec.display,
                          fix="add a comfort and/or tsv column, or map them in [source.columns]")
-    times, reason = parse_times(cols["time"], spec, session_spec, where=spec.path)
+    times, reason = parse_times(cols["time"], spec, session_spec, where=spec.display,
+                                lines=rows if spec.format != "json" else None)
 
     labels = {k.strip().lower(): v for k, v in spec.comfort_labels.items()}
     comfort = np.full(n, None, dtype=object)
@@ -118,15 +119,15 @@ def _json_records(path: Path, spec) -> list[dict]:
     try:
         obj = json.loads(text)
     except json.JSONDecodeError as exc:
-        raise InputError(f"not valid JSON ({exc.msg})", where=f"{spec.path}:{exc.lineno}",
+        raise InputError(f"not valid JSON ({exc.msg})", where=f"{spec.display}:{exc.lineno}",
                          fix="correct the JSON at that line (commas, quotes, brackets)") from None
     if isinstance(obj, dict) and isinstance(obj.get("votes"), list):
         obj = obj["votes"]
     if not isinstance(obj, list):
-        raise InputError("expected a list of votes (or {\"votes\": [...]})", where=spec.path,
+        raise InputError("expected a list of votes (or {\"votes\": [...]})", where=spec.display,
                          fix="write the votes as a JSON array of objects")
     bad = [i for i, r in enumerate(obj, start=1) if not isinstance(r, dict)]
     if bad:
-        raise InputError(f"vote #{bad[0]} is not an object", where=spec.path,
+        raise InputError(f"vote #{bad[0]} is not an object", where=spec.display,
                          fix='write each vote as {"time": ..., "comfort": ...}')
     return obj
