@@ -45,6 +45,7 @@ class TrainingTable:
     attributes: pd.DataFrame  # clo, acclimatised, age_band per row
     target: str = "comfort"
     quarantine: pd.DataFrame = field(default_factory=pd.DataFrame)
+    tsv: np.ndarray | None = None  # sensation votes at the same rows (NaN where not given), if any
 
     @property
     def digest(self) -> str:
@@ -98,9 +99,13 @@ def training_table(timeline: pd.DataFrame, target: str = "comfort", features: pd
     attrs = participant_attributes(timeline, participants).iloc[good]
     quarantine = pd.DataFrame(bad, columns=["row", "raw", "reason"])
     quarantine.insert(0, "source", where)
+    tsv = None
+    if C.VOTE_TSV in timeline.columns:
+        tsv = pd.to_numeric(timeline[C.VOTE_TSV].iloc[good], errors="coerce").to_numpy(dtype=float,
+                                                                                         na_value=np.nan)
     return TrainingTable(X=feats.iloc[good], y=y, groups=np.asarray(grp, dtype=object),
                          walk_id=np.asarray(walk, dtype=object), attributes=attrs, target=target,
-                         quarantine=quarantine)
+                         quarantine=quarantine, tsv=tsv)
 
 
 def concat_tables(tables: list[TrainingTable]) -> TrainingTable:
@@ -110,7 +115,8 @@ def concat_tables(tables: list[TrainingTable]) -> TrainingTable:
         X=pd.concat([t.X for t in tables]), y=np.concatenate([t.y for t in tables]),
         groups=np.concatenate([t.groups for t in tables]), walk_id=np.concatenate([t.walk_id for t in tables]),
         attributes=pd.concat([t.attributes for t in tables]), target=tables[0].target,
-        quarantine=pd.concat([t.quarantine for t in tables], ignore_index=True))
+        quarantine=pd.concat([t.quarantine for t in tables], ignore_index=True),
+        tsv=None if any(t.tsv is None for t in tables) else np.concatenate([t.tsv for t in tables]))
 
 
 # --- grouped folds -------------------------------------------------------------------------------

@@ -1,0 +1,62 @@
+"""`walkcomfort fit` writes a bundle and report; `walkcomfort evaluate` reproduces their numbers."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from walkcomfort import _io
+from walkcomfort.cli import main
+from walkcomfort.model._synthetic import synthetic_campaign
+
+
+@pytest.fixture(scope="module")
+def timeline_dir(tmp_path_factory):
+    """Synthetic walks written the way `walkcomfort ingest`/`thermal` write them: OUT/<walk_id>/timeline.parquet."""
+    out = tmp_path_factory.mktemp("thermal")
+    camp = synthetic_campaign(n_participants=6, walks_per_participant=2, duration_s=1800, vote_every_s=90, seed=3)
+    for wid, df in camp.groupby("walk_id", sort=True):
+        att = {"walk_id": wid, "participant": df["participant"].iloc[0], "timezone": "UTC",
+               "clo": float(df["clo"].iloc[0]), "acclimatised": bool(df["acclimatised"].iloc[0]),
+               "age_band": df["age_band"].iloc[0]}
+        data = df.drop(columns=["clo", "acclimatised", "age_band"])
+        _io.write_parquet(out / wid / "timeline.parquet", data, {"session": att, "provenance": {}})
+    return out
+
+
+@pytest.mark.slow
+def test_fit_then_evaluate_give_the_same_numbers(timeline_dir, tmp_path, capsys):
+    bundle = tmp_path / "bundle"
+    assert main(["fit", str(timeline_dir), "-o", str(bundle), "--folds", "3", "--rounds", "60",
+                 "--bootstrap", "20"]) == 0
+    fit_out = capsys.readouterr().out
+    assert {p.name for p in bundle.iterdir()} == {"model.txt", "manifest.json", "metrics.json", "report.html"}
+    report = (bundle / "report.html").read_text()
+    assert "not a heat-safety tool" in report and report.count("data:image/png;base64,") >= 6
+    metrics = json.loads((bundle / "metrics.json").read_text())
+    hist = metrics["cv"]["metrics"]["history"]["macro_f1"]
+    assert f"{hist:.3f}" in fit_out and f"{hist:.3f}" in report
+
+    # the bundle on its own training votes: the report's in-sample table
+    assert main(["evaluate", str(bundle), str(timeline_dir)]) == 0
+    ev = capsys.readouterr().out
+    assert "in-sample" in ev and f"{metrics['in_sample']['macro_f1']:.3f}" in ev
+    assert f"{metrics['in_sample']['macro_f1']:.3f}" in report
+
+    # re-running the grouped validation from the bundle's settings prints the fit's table line for line
+    assert main(["evaluate", str(bundle), str(timeline_dir), "--cross-validate"]) == 0
+    cv_out = capsys.readouterr().out
+    table = lambda text: [ln for ln in text.splitlines() if ln.startswith(("history", "physics", "logistic",
+                                                                           "majority", "model"))]
+    assert table(cv_out) == table(fit_out) and len(table(fit_out)) == 5
+
+
+def test_fit_without_thermal_columns_is_a_one_line_error(tmp_path, capsys):
+    camp = synthetic_campaign(n_participants=2, walks_per_participant=1, duration_s=300, seed=1)
+    df = camp[camp["walk_id"] == "P01-w1"].drop(columns=["utci_c"])
+    _io.write_parquet(tmp_path / "t" / "P01-w1" / "timeline.parquet", df,
+                      {"session": {"walk_id": "P01-w1", "participant": "P01"}})
+    assert main(["fit", str(tmp_path / "t"), "-o", str(tmp_path / "b")]) == 2
+    err = capsys.readouterr().err
+    assert "utci_c" in err and "walkcomfort thermal" in err and len(err.strip().splitlines()) == 1

@@ -1,0 +1,75 @@
+"""``walkcomfort fit`` and ``walkcomfort evaluate``: thin shells over :mod:`walkcomfort.model.workflow`."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from walkcomfort.model.classifier import PRESETS, TARGETS
+
+
+@click.command(help="Fit the comfort model on labelled timelines; validate it on walkers it never saw.\n\n"
+                    "TIMELINES are timeline.parquet files, walk folders or output folders of "
+                    "`walkcomfort thermal` (OUT/<walk_id>/timeline.parquet). Writes the bundle "
+                    "(model.txt, manifest.json), metrics.json and report.html into BUNDLE_DIR.")
+@click.argument("timelines", nargs=-1, required=True, type=click.Path(exists=True, path_type=Path))
+@click.option("-o", "--out", "out", required=True, type=click.Path(file_okay=False, path_type=Path),
+              help="Bundle folder to write.")
+@click.option("--preset", type=click.Choice(list(PRESETS)), default="small", show_default=True,
+              help="Hyper-parameters: 'small' suits a few hundred votes.")
+@click.option("--target", type=click.Choice(list(TARGETS)), default="comfort", show_default=True,
+              help="3-class comfort vote or 7-point sensation vote.")
+@click.option("--folds", type=int, default=None,
+              help="Grouped K-fold by walker (default: leave one walker out).")
+@click.option("--rounds", type=int, default=None, help="Boosting rounds (default: from the preset).")
+@click.option("--seed", type=int, default=0, show_default=True)
+@click.option("--threads", type=int, default=1, show_default=True, help="LightGBM threads (fixed for reproducibility).")
+@click.option("--bootstrap", type=int, default=200, show_default=True,
+              help="Walker resamples for the calibration intervals (0: none).")
+def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap):
+    from walkcomfort.model.workflow import campaign_table, fit_table, format_metrics, write_fit_outputs
+
+    table, files, _ = campaign_table(timelines, target=target)
+    click.echo(f"{len(table.y)} votes from {len(set(map(str, table.groups)))} walkers in {len(files)} timelines"
+               + (f"; {len(table.quarantine)} votes set aside (see the report)" if len(table.quarantine) else ""))
+    result = fit_table(table, preset=preset, n_splits=folds, n_estimators=rounds, seed=seed, n_jobs=threads,
+                       n_boot=bootstrap, inputs=[str(f) for f in files])
+    paths = write_fit_outputs(result, out)
+    click.echo(f"cross-validated ({result.cv.scheme}):")
+    click.echo(format_metrics(result.cv.metrics))
+    click.echo(f"bundle: {out}  report: {paths['report']}")
+
+
+@click.command(help="Score a saved model bundle on labelled timelines.\n\n"
+                    "Prints macro-F1, balanced accuracy, accuracy, log-loss and Brier. With "
+                    "--cross-validate, re-runs the grouped validation with the bundle's own settings "
+                    "(the numbers of its report when given the same timelines).")
+@click.argument("bundle", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.argument("timelines", nargs=-1, required=True, type=click.Path(exists=True, path_type=Path))
+@click.option("--cross-validate", "cross", is_flag=True,
+              help="Re-run grouped cross-validation (model and baselines) with the bundle's settings.")
+def evaluate(bundle, timelines, cross):
+    from walkcomfort.model.bundle import load_bundle
+    from walkcomfort.model.evaluate import cross_validate
+    from walkcomfort.model.workflow import campaign_table, format_metrics, score_model
+
+    model = load_bundle(bundle)
+    manifest = model.manifest_
+    table, files, _ = campaign_table(timelines, target=model.target)
+    click.echo(f"{len(table.y)} votes from {len(set(map(str, table.groups)))} walkers in {len(files)} timelines")
+    same = table.digest == manifest.get("training_digest")
+    if cross:
+        s = (manifest.get("extra") or {}).get("settings", {})
+        cv = cross_validate(table, n_splits=s.get("n_splits"), preset=s.get("preset", model.preset),
+                            n_estimators=s.get("n_estimators"), random_state=s.get("seed", 0),
+                            n_jobs=s.get("n_jobs", 1))
+        click.echo(f"cross-validated ({cv.scheme}):")
+        click.echo(format_metrics(cv.metrics))
+        return
+    metrics = score_model(model, table)
+    label = "bundle model on these votes" + (" (its own training votes: in-sample)" if same else "")
+    click.echo(format_metrics({"bundle": metrics}, {"bundle": label}))
+    if same and manifest.get("cv"):
+        click.echo(f"these are the training votes; the validated scores ({manifest['cv'].get('scheme')}) are:")
+        click.echo(format_metrics(manifest["cv"]["metrics"]))

@@ -1,0 +1,175 @@
+"""The fit workflow behind ``walkcomfort fit`` / ``evaluate``: timelines in, validated bundle out.
+
+Kept apart from the click commands so it can be called from Python (the demo
+pipeline does) and tested without a shell.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort import _io
+from walkcomfort import columns as C
+from walkcomfort.errors import InputError
+from walkcomfort.model.evaluate import (MODEL_NAMES, CVResult, TrainingTable, classification_metrics,
+                                        cross_validate, group_scores, training_table)
+
+TIMELINE_FILE = "timeline.parquet"
+REPORT_FILE = "report.html"
+METRICS_FILE = "metrics.json"
+
+
+def find_timelines(paths) -> list[Path]:
+    """Timeline files under the given paths: a ``timeline.parquet``, a walk folder, or an output folder."""
+    found = []
+    for p in map(Path, paths):
+        if p.is_file():
+            found.append(p)
+        elif (p / TIMELINE_FILE).is_file():
+            found.append(p / TIMELINE_FILE)
+        elif p.is_dir():
+            hits = sorted(p.glob(f"**/{TIMELINE_FILE}"))
+            if not hits:
+                raise InputError(f"no {TIMELINE_FILE} under this folder", where=p,
+                                 fix="run `walkcomfort ingest` and `walkcomfort thermal` into it first")
+            found.extend(hits)
+        else:
+            raise InputError("no such file or folder", where=p, fix="check the path")
+    unique = list(dict.fromkeys(x.resolve() for x in found))
+    if not unique:
+        raise InputError("no timelines given", fix="pass timeline folders written by `walkcomfort thermal`")
+    return unique
+
+
+def load_campaign(paths) -> tuple[pd.DataFrame, list[Path]]:
+    """Read and stack timelines (``session.timeline.read_timeline`` + ``combine_campaign``)."""
+    from walkcomfort.session.timeline import combine_campaign, read_timeline
+
+    files = find_timelines(paths)
+    frames = []
+    for f in files:
+        df = read_timeline(f)
+        if C.UTCI_C not in df.columns:
+            raise InputError("the timeline has no UTCI column (utci_c)", where=f,
+                             fix="add the thermal environment first: `walkcomfort thermal`")
+        frames.append(df)
+    return combine_campaign(frames), files
+
+
+@dataclass
+class FitResult:
+    """Everything ``walkcomfort fit`` learns and reports."""
+
+    model: object
+    table: TrainingTable
+    cv: CVResult
+    in_sample: dict
+    per_walker: pd.DataFrame
+    per_group: dict              # attribute -> DataFrame of group scores (cross-validated)
+    calibration: dict
+    settings: dict
+    inputs: list
+
+    def manifest_extra(self) -> dict:
+        return {"settings": self.settings, "in_sample": _strip(self.in_sample),
+                "calibration": {k: self.calibration[k] for k in ("neutral", "range", "ci", "reference_band_c")
+                                if k in self.calibration},
+                "inputs": self.inputs}
+
+
+def _strip(m: dict) -> dict:
+    return {k: v for k, v in m.items() if k != "reliability"}
+
+
+def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None = None,
+              n_estimators: int | None = None, seed: int = 0, n_jobs: int = 1, n_boot: int = 200,
+              progress: bool | None = None, inputs=()) -> FitResult:
+    """Grouped CV of the history model and baselines, final fit on all votes, calibration analysis."""
+    from walkcomfort.model.calibration import local_calibration
+    from walkcomfort.model.classifier import ComfortClassifier
+    from walkcomfort.model.features import FEATURES
+
+    if len(table.y) == 0:
+        raise InputError("the timelines hold no usable votes", fix="ingest sessions with a votes source")
+    settings = {"preset": preset, "n_splits": n_splits, "n_estimators": n_estimators, "seed": seed,
+                "n_jobs": n_jobs, "target": table.target, "n_boot": n_boot}
+    cv = cross_validate(table, n_splits=n_splits, progress=progress, preset=preset, n_estimators=n_estimators,
+                        random_state=seed, n_jobs=n_jobs)
+    model = ComfortClassifier(preset=preset, target=table.target, n_estimators=n_estimators,
+                              features=list(FEATURES), random_state=seed, n_jobs=n_jobs)
+    model.fit(table.X, table.y, groups=table.groups)
+    in_sample = score_model(model, table, cv.labels)
+    per_walker = group_scores(cv.y, cv.pred["history"], cv.groups)
+    per_group = {}
+    for attr in (C.AGE_BAND, C.ACCLIMATISED, C.CLO):
+        if attr in table.attributes.columns and table.attributes[attr].notna().any():
+            per_group[attr] = group_scores(cv.y, cv.pred["history"], table.attributes[attr].to_numpy(dtype=object))
+    utci = table.X[C.UTCI_C].to_numpy()
+    tsv = table.tsv
+    comfort = table.y if table.target == "comfort" else None
+    if table.target == "tsv":
+        tsv = table.y.astype(float)
+    calibration = local_calibration(utci, tsv=tsv, comfort=comfort, groups=table.groups, n_boot=n_boot, seed=seed)
+    return FitResult(model=model, table=table, cv=cv, in_sample=in_sample, per_walker=per_walker,
+                     per_group=per_group, calibration=calibration, settings=settings, inputs=list(inputs))
+
+
+def score_model(model, table: TrainingTable, labels=None) -> dict:
+    """Metrics of a fitted model on labelled rows (no refitting)."""
+    from walkcomfort.model.evaluate import aligned_proba
+
+    labels = labels or [c for c in model.classes_]
+    proba = aligned_proba(model, table.X, labels)
+    pred = np.array(labels, dtype=object)[np.argmax(proba, axis=1)]
+    return classification_metrics(table.y, pred, proba, labels)
+
+
+def campaign_table(paths, target: str = "comfort") -> tuple[TrainingTable, list[Path], pd.DataFrame]:
+    campaign, files = load_campaign(paths)
+    table = training_table(campaign, target=target)
+    return table, files, campaign
+
+
+def write_fit_outputs(result: FitResult, folder: str | os.PathLike) -> dict:
+    """Bundle (model.txt, manifest.json), metrics.json and report.html in ``folder``."""
+    from walkcomfort.model.bundle import save_bundle
+    from walkcomfort.report.model_report import write_model_report
+
+    folder = Path(folder)
+    cv_json = result.cv.to_json()
+    manifest = save_bundle(result.model, folder, training_digest=result.table.digest, cv_metrics=cv_json,
+                           extra=result.manifest_extra())
+    metrics = _io.write_json(folder / METRICS_FILE, {
+        "cv": cv_json, "in_sample": result.in_sample,
+        "per_walker": result.per_walker.to_dict(orient="records"),
+        "per_group": {k: v.to_dict(orient="records") for k, v in result.per_group.items()},
+        "calibration": result.calibration,
+    })
+    report = write_model_report(result, folder / REPORT_FILE)
+    return {"manifest": manifest, "metrics": metrics, "report": report}
+
+
+def metrics_rows(metrics: dict, names: dict | None = None) -> list[tuple[str, str, str, str, str, str]]:
+    """Rows of the metrics table printed by the CLI and shown in the report (3 decimals, same text)."""
+    names = names or MODEL_NAMES
+    rows = []
+    for key, m in metrics.items():
+        rows.append((names.get(key, key), f"{m['macro_f1']:.3f}", f"{m['balanced_accuracy']:.3f}",
+                     f"{m['accuracy']:.3f}", f"{m['log_loss']:.3f}", f"{m['brier']:.3f}"))
+    return rows
+
+
+METRICS_HEADER = ("model", "macro-F1", "balanced accuracy", "accuracy", "log-loss", "Brier")
+
+
+def format_metrics(metrics: dict, names: dict | None = None) -> str:
+    rows = [METRICS_HEADER] + metrics_rows(metrics, names)
+    widths = [max(len(r[i]) for r in rows) for i in range(len(METRICS_HEADER))]
+    lines = ["  ".join(c.ljust(w) if i == 0 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths)))
+             for r in rows]
+    return "\n".join(lines)
