@@ -17,6 +17,7 @@ import datetime as _dt
 import difflib
 import math
 import os
+import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath, PureWindowsPath
@@ -28,6 +29,8 @@ import pandas as pd
 from walkcomfort.errors import InputError
 
 SCHEMA = "walkcomfort-session/1"
+# a date and a time of day (pandas alone would read "10:00" as today at 10:00)
+_ISO_DATETIME = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
 MANIFEST_NAME = "session.toml"
 
 KINDS = ("gps", "weather", "noise", "light", "frames", "votes")
@@ -539,6 +542,8 @@ def _time(v, tz, where: str, required: bool = False) -> pd.Timestamp | None:
         ts = pd.Timestamp(v)
     elif isinstance(v, str):
         try:
+            if not _ISO_DATETIME.match(v.strip()):
+                raise ValueError(v)
             ts = pd.Timestamp(v)
         except (ValueError, TypeError):
             raise InputError(f"time '{v}' is not an ISO 8601 date and time", where=where,
