@@ -88,7 +88,7 @@ def read_votes(path, source_spec, session_spec):
         outr = np.isfinite(tsv) & ((tsv < -3) | (tsv > 3))
     reason[(bad | nonint) & (reason == "")] = "bad_tsv"
     reason[outr & (reason == "")] = "out_of_range:vote_tsv"
-    empty = np.array([c is None for c in comfort]) & ~np.isfinite(tsv) & ~bad
+    empty = np.array([c is None for c in comfort], dtype=bool) & ~np.isfinite(tsv) & ~bad
     reason[empty & (reason == "") & miss_c] = "empty_vote"
 
     part = np.array([v.strip() if v.strip() else session_spec.participant for v in cols["participant"]], dtype=object)
