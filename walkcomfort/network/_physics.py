@@ -24,6 +24,8 @@ nearly always blocked in a built area (common practice).
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 import pandas as pd
 
@@ -87,7 +89,7 @@ def point_environment(part: Partition) -> dict[str, np.ndarray]:
         from walkcomfort.environment import skyview as _skyview
 
         trans = np.array(_shade.beam_transmittance_grid(scene, x, y, elev, azim, z_m=z,
-                                                        month=_months(times)), dtype=float)
+                                                        month=np.asarray(times.month)), dtype=float)
         svf = _skyview.sky_view_factor(scene, x, y, z_m=z)[C.SVF].to_numpy(float)
     trans = trans.copy()
     trans[:, low] = 0.0
@@ -103,12 +105,6 @@ def point_environment(part: Partition) -> dict[str, np.ndarray]:
             C.UTCI_C: u[C.UTCI_C].to_numpy(float).reshape(n, t),
             C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool).reshape(n, t),
             C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy()}
-
-
-def _months(times: pd.DatetimeIndex):
-    """The month of the chunk for leaf-on transmissivity: chunks never span a month in practice."""
-    months = pd.DatetimeIndex(times).month
-    return int(months[len(months) // 2])
 
 
 def rule_probabilities(utci_c: np.ndarray) -> dict[str, np.ndarray]:
@@ -130,5 +126,59 @@ def partition_rows(part: Partition) -> pd.DataFrame:
     return aggregate_points(part, {**env, **probs}, predictor)
 
 
-def model_probabilities(part: Partition, env: dict, model: str):  # pragma: no cover - wired when routes lands
-    raise NotImplementedError("model-based network prediction needs walkcomfort.routes.predict")
+@lru_cache(maxsize=4)
+def _predictor(folder: str):
+    """One loaded model per worker process and bundle folder (bundles are verified on load)."""
+    from walkcomfort.routes.predict import Predictor
+
+    return Predictor.from_bundle(folder)
+
+
+def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
+    """Every segment x time as a short simulated walk along the segment, timeline-like.
+
+    The walker steps onto the segment at the batch time and walks its sample points in
+    order at the routes' flat walking speed; the history windows of the model see
+    that walk only (no exposure before the segment is known at network scale).
+    Rows are point-major: row ``i * T + j`` is point ``i`` at time ``j``.
+    """
+    from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
+
+    pts = part.points
+    n, t = len(pts), len(part.times)
+    seg = pts[C.SEGMENT_ID].to_numpy()
+    # sample points stand for equal lengths: neighbours are length / n_points apart
+    step_m = pts["step_m"].to_numpy(float)
+    dist = (pts["point_n"].to_numpy() + 0.5) * step_m
+    offset_s = (pts["point_n"].to_numpy() * step_m) / DEFAULT_FLAT_SPEED_MS
+    times = (np.asarray(part.times.as_unit("ns").asi8)[None, :]
+             + np.round(offset_s * 1e9).astype(np.int64)[:, None]).ravel()
+    idx = pd.DatetimeIndex(times.astype("datetime64[ns]")).tz_localize("UTC").rename(C.TIME)
+    walk = (np.repeat(seg.astype(object), t) + "@"
+            + np.tile(part.times.strftime("%Y-%m-%dT%H:%M:%SZ").to_numpy(dtype=object), n))
+
+    def grid(a):
+        a = np.asarray(a, dtype=float)
+        return np.broadcast_to(a if a.ndim == 2 else a[None, :], (n, t)).ravel()
+
+    df = pd.DataFrame({C.WALK_ID: walk, C.PARTICIPANT: "simulated",
+                       C.LAT: np.repeat(pts[C.LAT].to_numpy(float), t), C.LON: np.repeat(pts[C.LON].to_numpy(float), t),
+                       C.ELEV_M: float(part.context["site"].get("elev_m", 0.0)),
+                       C.DIST_M: np.repeat(dist, t), C.SPEED_MS: DEFAULT_FLAT_SPEED_MS, C.SLOPE_PCT: 0.0}, index=idx)
+    for name in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SUN_ELEV_DEG, C.SHADE_FRAC, C.SVF, C.TMRT_C, C.UTCI_C):
+        df[name] = grid(env[name])
+    df[C.BEAM_TRANS_FRAC] = 1.0 - df[C.SHADE_FRAC]
+    df.attrs["session"] = {"timezone": "UTC", "site": part.tile_id, "simulated": True,
+                           "wind_height_m": float(part.context.get("wind_height_m", 10.0)),
+                           **(part.context.get("walker") or {})}
+    return df
+
+
+def model_probabilities(part: Partition, env: dict, model: str):
+    """Class probabilities ``(N, T)`` from a model bundle, through the routes' prediction path."""
+    predictor = _predictor(str(model))
+    tl = segment_walks(part, env)
+    pred = predictor.predict(tl, explain=False)
+    n, t = len(part.points), len(part.times)
+    probs = {p: pred[p].to_numpy(float).reshape(n, t) for p in P_COLUMNS}
+    return probs, predictor.label

@@ -198,6 +198,10 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
             raise InputError(f"weather has no row at {len(missing)} of the batch times (first {missing[0]})",
                              fix="give weather at every batch time (resample the weather source to the step)")
         weather = weather.loc[times]
+    base_site = ((scenes.get(BASE) or {}).get("walkcomfort") or {}).get("site")
+    if site is None and base_site:
+        site = {"lat": float(base_site["lat"]), "lon": float(base_site["lon"]),
+                "elev_m": float(base_site.get("elev_m", 0.0))}
     if site is None:
         site = {"lat": float(network.points[C.LAT].mean()), "lon": float(network.points[C.LON].mean()),
                 "elev_m": 0.0}
@@ -206,6 +210,11 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
     fn = partition_fn or compute_partition
 
     # a chunk never spans two months, so each partition has one leaf-on state of the trees
+    seg = network.segments
+    all_points = network.points.copy()
+    all_points["step_m"] = all_points[C.SEGMENT_ID].map(seg["length_m"] / seg["n_points"]).to_numpy(float)
+    scenes = {name: _with_site(scene, site, network.crs) for name, scene in scenes.items()}
+
     chunks = []
     for _, month_times in pd.Series(times, index=times).groupby([times.year, times.month], sort=True):
         mt = pd.DatetimeIndex(month_times.index, name=C.TIME)
@@ -218,7 +227,7 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
         tiles: list[Tile] = make_tiles(network, obstacle_table(scene, network.crs), tile_size_m,
                                        min_sun_elev_deg, z_m)
         for tile in tiles:
-            pts = network.points.loc[network.points[C.SEGMENT_ID].isin(tile.segment_ids)].reset_index(drop=True)
+            pts = all_points.loc[all_points[C.SEGMENT_ID].isin(tile.segment_ids)].reset_index(drop=True)
             tscene = subset_scene(scene, tile.obstacle_ids)
             for k, chunk in enumerate(chunks):
                 w = None if weather is None else weather.loc[chunk]
@@ -240,6 +249,25 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
         h.update(pd.util.hash_pandas_object(weather, index=True).values.tobytes())
     params["scheme_digests"] = scheme_digests
     return NetworkJob(parts, fn, params, "sha256:" + h.hexdigest(), sorted(scenes))
+
+
+def _with_site(scene: dict | None, site: dict, crs) -> dict | None:
+    """The scene GeoJSON with its site stated, checked to share the network's metric CRS.
+
+    Every tile's scene is rebuilt on a worker from a subset of the features; stating
+    the site keeps its local frame the same as the whole scene's.
+    """
+    if scene is None:
+        return None
+    from walkcomfort.environment.geo import utm_crs
+
+    meta = dict(scene.get("walkcomfort") or {})
+    s = dict(meta.get("site") or site)
+    if utm_crs(s["lon"], s["lat"]) != crs:
+        raise InputError(f"the scene's site ({s['lat']:.5f}, {s['lon']:.5f}) lies in another UTM zone than the "
+                         "street network's coordinates", fix="load the network with crs=scene.crs")
+    meta["site"] = s
+    return {**scene, "walkcomfort": meta}
 
 
 def _json_digest(obj) -> str:

@@ -45,24 +45,10 @@ QUARANTINE_COLUMNS = ["source", "file", "row", "reason", "raw"]
 
 
 def local_crs(lon: float, lat: float):
-    """The UTM zone (WGS84 datum) containing ``(lon, lat)`` as a :class:`pyproj.CRS`.
+    """The metric CRS of a site: the environment stage's UTM zone (``environment.geo.utm_crs``)."""
+    from walkcomfort.environment.geo import utm_crs
 
-    Parameters
-    ----------
-    lon, lat : float
-        A point of the site [°] (WGS84).
-    """
-    return _utm_crs(lon, lat)
-
-
-def _utm_crs(lon: float, lat: float):
-    from pyproj import CRS
-    from pyproj.aoi import AreaOfInterest
-    from pyproj.database import query_utm_crs_info
-
-    info = query_utm_crs_info(datum_name="WGS 84",
-                              area_of_interest=AreaOfInterest(lon, lat, lon, lat))
-    return CRS.from_epsg(info[0].code)
+    return utm_crs(lon, lat)
 
 
 @dataclass
