@@ -177,6 +177,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
         raise InputError(f"the GPS track has {len(g)} usable fix(es); a timeline needs at least two",
                          where=gps.display, fix="check the file (times, coordinates) and its quarantine reasons")
     t0, t1 = g.index[0], g.index[-1]
+    track_t0, track_t1 = t0, t1
     if spec.start is not None:
         t0 = max(t0, spec.start)
     if spec.end is not None:
@@ -269,7 +270,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
             ok = inside & (dist <= tol * 1e9)
             in_window = (t >= t0.value - tol * 1e9) & (t <= t1.value + tol * 1e9)
             trimmed = ~ok & (spec.start is not None or spec.end is not None) & \
-                (t >= g.index[0].value - tol * 1e9) & (t <= g.index[-1].value + tol * 1e9) & ~in_window
+                (t >= track_t0.value - tol * 1e9) & (t <= track_t1.value + tol * 1e9) & ~in_window
             book.mark(s.name, trimmed, "outside_walk_window")
             book.mark(s.name, ~ok & ~trimmed, "outside_track_span")
             for i in np.flatnonzero(ok):
@@ -329,8 +330,8 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
         "walk_id": spec.id,
         "participant": spec.participant,
         "timeline": {"start": steps[0].isoformat(), "end": steps[-1].isoformat(), "rows": int(len(steps)),
-                     "step_s": float(step_s), "track_start": g.index[0].isoformat(),
-                     "track_end": g.index[-1].isoformat()},
+                     "step_s": float(step_s), "track_start": track_t0.isoformat(),
+                     "track_end": track_t1.isoformat()},
         "parameters": params,
         "max_gap_s": {k: round(v, 6) for k, v in gaps_used.items()},
         "clocks": {dev: fit.as_dict() for dev, fit in sorted(fits.items())},

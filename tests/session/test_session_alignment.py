@@ -1,0 +1,112 @@
+"""Alignment rules: energy averaging on coarser steps, max gap, window trimming, events and their tolerance."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from walkcomfort import columns as C
+from walkcomfort.session.lag import first_order_response
+from walkcomfort.session.readers import energy_average
+from walkcomfort.session.timeline import _to_steps, build_timeline
+
+SESSIONS = Path(__file__).resolve().parents[1] / "fixtures" / "sessions"
+WALK_OK = SESSIONS / "walk_ok"
+
+
+def test_coarse_step_averages_levels_on_energy():
+    tl = build_timeline(WALK_OK, step_s=60.0)
+    d = tl.data
+    assert (np.diff(d.index.asi8) == 60_000_000_000).all()
+    # the fixture writes LAeq,1s = 55 + 10·(s // 100 % 2) + s % 3 at walk second s;
+    # a 60 s step holds the readings within ±30 s of it, averaged on energy (ISO 1996-1)
+    s = np.arange(90, 150)
+    levels = 55 + 10 * (s // 100 % 2) + s % 3
+    assert d[C.LAEQ_DB].iloc[2] == pytest.approx(energy_average(levels), abs=1e-9)
+    assert d[C.LAEQ_DB].iloc[2] > np.mean(levels) + 1.0     # not the arithmetic mean
+
+
+def test_to_steps_interpolates_within_the_max_gap_only():
+    s = np.array([0, 1, 2, 3, 4, 5, 6, 7, 8, 9], dtype=np.int64) * 10**9
+    t = np.array([0, 2, 8], dtype=np.int64) * 10**9
+    v = np.array([[10.0], [12.0], [18.0]])
+    out, gap = _to_steps(t, v, s, 10**9, max_gap_s=3.0)
+    np.testing.assert_allclose(out[:3, 0], [10, 11, 12])
+    assert np.isnan(out[3:8, 0]).all() and out[8, 0] == 18 and np.isnan(out[9, 0])
+    assert list(gap) == [False, False, False, True, True, True, True, True, False, True]
+    out, gap = _to_steps(t, v, s, 10**9, max_gap_s=6.0)
+    np.testing.assert_allclose(out[2:9, 0], [12, 13, 14, 15, 16, 17, 18])
+
+
+def test_to_steps_energy_interpolation():
+    s = np.array([0, 1, 2], dtype=np.int64) * 10**9
+    t = np.array([0, 2], dtype=np.int64) * 10**9
+    out, _ = _to_steps(t, np.array([[60.0], [70.0]]), s, 10**9, max_gap_s=5.0, energy=True)
+    # half-way between 60 and 70 dB on energy is their energy average, 67.40 dB (ISO 1996-1)
+    assert out[1, 0] == pytest.approx(67.40, abs=0.005)
+
+
+def test_manifest_window_trims_and_quarantines(tmp_path):
+    d = tmp_path / "w"
+    shutil.copytree(WALK_OK, d)
+    p = d / "session.toml"
+    p.write_text(p.read_text().replace('site = "Fixture Town (invented)"',
+                                       'site = "Fixture Town (invented)"\nstart = "2026-07-14T10:02:00"\n'
+                                       'end = "2026-07-14T10:06:00"'))
+    tl = build_timeline(d)
+    assert tl.data.index[0] == pd.Timestamp("2026-07-14T08:02:00Z")
+    assert tl.data.index[-1] == pd.Timestamp("2026-07-14T08:06:00Z")
+    s = tl.qa["summary"]
+    assert s["reconciles"] and s["outside_walk_window_rows"] > 0
+    # votes at 08:01:00 and 08:09:10 fall outside the window, the one at 08:05:10 stays
+    assert tl.qa["sources"]["votes"]["quarantine_reasons"] == {"outside_walk_window": 2}
+    assert tl.data[C.VOTE_COMFORT].notna().sum() == 1
+
+
+def test_votes_on_the_same_step_keep_the_nearest(tmp_path):
+    d = tmp_path / "w"
+    shutil.copytree(WALK_OK, d)
+    (d / "votes.csv").write_text("time,comfort\n2026-07-14 10:01:00,comfortable\n"
+                                 "2026-07-14 10:01:20,neutral\n2026-07-14 10:01:31,uncomfortable\n")
+    tl = build_timeline(d, step_s=60.0)
+    # 10:01:20 is 20 s from the 10:01 step and 10:01:31 is 29 s from 10:02 (tolerance 60 s)
+    assert tl.data.loc["2026-07-14T08:01:00Z", C.VOTE_COMFORT] == "comfortable"
+    assert tl.data.loc["2026-07-14T08:02:00Z", C.VOTE_COMFORT] == "uncomfortable"
+    assert tl.qa["sources"]["votes"]["quarantine_reasons"] == {"same_step": 1}
+
+
+def test_lag_correction_in_the_timeline(tmp_path):
+    # a logger whose air sensor (τ = 20 s) saw a 25 -> 35 °C step at walk second 200
+    d = tmp_path / "w"
+    shutil.copytree(WALK_OK, d)
+    secs = np.arange(-20, 620, 2)
+    true = np.where(secs < 200, 25.0, 35.0)
+    read = first_order_response(true, 2.0, 20.0)
+    rows = ["DateTime,Temp_F,RH,Wind_kmh,Globe_F"]
+    for s, v in zip(secs, read):
+        x = 10 * 3600 + s + 7
+        rows.append(f"2026-07-14 {x // 3600:02d}:{x % 3600 // 60:02d}:{x % 60:02d},{v * 9 / 5 + 32:.6f},40,5,100")
+    (d / "logger" / "weather.csv").write_text("\n".join(rows) + "\n")
+    plain = build_timeline(d)
+    fixed = build_timeline(d, lag_correction=True)
+    at = pd.Timestamp("2026-07-14T08:03:40Z")          # 20 s after the step
+    # the reading at s = 220 has seen 11 samples of 2 s at 35 °C: 25 + 10·(1 − e^(−22/20)) (first-order lag)
+    assert plain.data.loc[at, C.T_AIR_C] == pytest.approx(25 + 10 * (1 - np.exp(-22 / 20)), abs=0.01)
+    assert fixed.data.loc[at, C.T_AIR_C] == pytest.approx(35.0, abs=0.1)
+    assert fixed.data.attrs["session"]["lag_corrected"] is True
+    assert plain.data.attrs["session"]["lag_corrected"] is False
+    # settling: the first 3τ = 60 s of the air sensor and 3·60 s of the globe are flagged
+    assert plain.data[C.QA_SETTLING].iloc[:160].all() and not plain.data[C.QA_SETTLING].iloc[170:].any()
+
+
+def test_gps_jump_flagged_on_the_timeline():
+    tl = build_timeline(SESSIONS / "broken" / "gps_jump")
+    assert tl.qa["summary"]["gps_jumps"] == 1
+    assert tl.data[C.QA_GPS_JUMP].sum() == 1
+    assert tl.data.loc["2026-07-14T08:00:25Z", C.QA_GPS_JUMP]
+    # the jump did not reach the track: speed stays at walking pace
+    assert tl.data[C.SPEED_MS].max() < 3.0
