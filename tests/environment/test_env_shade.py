@@ -1,0 +1,136 @@
+"""Direct-beam shade: published geometry, trees and canopies, and the vectorised kernel vs a plain loop."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from shapely.geometry import Point, Polygon
+
+from walkcomfort.environment import shade
+from walkcomfort.environment.geo import LocalFrame
+from walkcomfort.environment.scene import Scene, scene_from_local
+from walkcomfort.environment.synthetic import random_scene
+
+LAT, LON = 40.4168, -3.7038
+FRAME = LocalFrame(LON, LAT)
+X0, Y0 = FRAME.project(LON, LAT)
+
+
+def _rect(x0, y0, x1, y1):
+    return Polygon([(X0 + x0, Y0 + y0), (X0 + x1, Y0 + y0), (X0 + x1, Y0 + y1), (X0 + x0, Y0 + y1)])
+
+
+def _wall_scene(h, d):
+    # a 2 km long east-west wall whose north face is d metres south of the point
+    return scene_from_local([(_rect(-1000, -d - 1, 1000, -d), {"id": "wall", "kind": "building", "height_m": h})],
+                            LAT, LON)
+
+
+@pytest.mark.parametrize("h, d", [(10.0, 8.0), (20.0, 5.0), (6.0, 30.0)])
+def test_long_wall_shades_iff_tan_elevation_below_ratio(h, d):
+    # From the geometry (issue 3): with the sun due south, a long wall of height H at
+    # distance d south of a point at body height z shades it iff tan(e) < (H - z)/d.
+    z = 1.1
+    thr = np.degrees(np.arctan((h - z) / d))
+    e = np.array([thr - 5, thr - 0.05, thr + 0.05, thr + 5, 89.0])
+    got = shade.beam_transmittance(_wall_scene(h, d), np.full(5, X0), np.full(5, Y0), e, np.full(5, 180.0), z_m=z)
+    expected = (np.tan(np.radians(e)) >= (h - z) / d).astype(float)
+    np.testing.assert_array_equal(got, expected)
+
+
+def test_sun_below_horizon_gives_no_beam_and_nan_passes():
+    sc = _wall_scene(10, 8)
+    got = shade.beam_transmittance(sc, [X0, X0, X0, np.nan], [Y0 + 50, Y0 + 50, Y0 + 50, Y0],
+                                   [-0.5, 0.0, 45.0, 30.0], [180, 180, 0, 180])
+    assert got[:3].tolist() == [0.0, 0.0, 1.0] and np.isnan(got[3])
+    assert shade.beam_transmittance(None, [X0], [Y0], [30.0], [180.0]).tolist() == [1.0]
+
+
+def test_true_north_not_grid_north():
+    # Near the edge of UTM zone 30 the grid is rotated ~1.9° from true north. A thin tree
+    # 60 m due *true* south (same longitude) must be hit by a sun at true azimuth 180°;
+    # without the convergence correction the ray would pass 2 m to the side of a 1 m crown.
+    lon, lat = -5.9, 40.0
+    south = (lon, lat - 60 / 111_000)
+    sc = Scene.from_geojson({"type": "FeatureCollection", "walkcomfort": {"site": {"lat": lat, "lon": lon}},
+                             "features": [{"type": "Feature", "geometry": {"type": "Point", "coordinates": list(south)},
+                                           "properties": {"id": "t", "kind": "tree", "height_m": 40.0,
+                                                          "crown_base_m": 1.0, "crown_radius_m": 1.0,
+                                                          "transmissivity": 0.25}}]})
+    x, y = sc.project(lon, lat)
+    assert shade.beam_transmittance(sc, [x], [y], [20.0], [180.0]).tolist() == [0.25]
+    assert shade.beam_transmittance(sc, [x], [y], [20.0], [184.0]).tolist() == [1.0]
+
+
+def _tree_scene(**extra):
+    props = {"id": "t", "kind": "tree", "height_m": 8.0, "crown_base_m": 3.0, "crown_radius_m": 3.0,
+             "transmissivity": 0.2} | extra
+    return scene_from_local([(Point(X0, Y0 - 10), props)], LAT, LON)
+
+
+def test_tree_crown_transmissivity_and_height_band():
+    # From the geometry: trunk 10 m south, crown 3..8 m, radius 3 m, point at 1.1 m.
+    # The ray at horizontal distance s is at 1.1 + s tan e; it is inside the crown's
+    # disc for s in [7, 13]. e = 30°: heights 5.1..8.6 -> passes the crown (x 0.2);
+    # e = 70°: above 8 m already at s = 7 -> sun; e = 5°: below 3 m over the disc -> sun.
+    sc = _tree_scene()
+    got = shade.beam_transmittance(sc, np.full(3, X0), np.full(3, Y0), [30.0, 70.0, 5.0], [180.0] * 3)
+    np.testing.assert_allclose(got, [0.2, 1.0, 1.0])
+    by_month = _tree_scene(transmissivity_by_month={"1": 0.7})
+    assert shade.beam_transmittance(by_month, [X0], [Y0], [30.0], [180.0], month=1)[0] == pytest.approx(0.7)
+    assert shade.beam_transmittance(by_month, [X0], [Y0], [30.0], [180.0], month=7)[0] == pytest.approx(0.2)
+    assert shade.beam_transmittance(by_month, [X0], [Y0], [30.0], [180.0])[0] == pytest.approx(0.2)
+
+
+def test_crossings_multiply_and_canopy_overhead():
+    # From the definition (each crossing passes its transmissivity): two crowns in line.
+    items = [(Point(X0, Y0 - 8), {"id": "a", "kind": "tree", "height_m": 30.0, "crown_base_m": 0.5,
+                                  "crown_radius_m": 2.0, "transmissivity": 0.5}),
+             (Point(X0, Y0 - 16), {"id": "b", "kind": "tree", "height_m": 30.0, "crown_base_m": 0.5,
+                                   "crown_radius_m": 2.0, "transmissivity": 0.3}),
+             (_rect(30, -5, 40, 5), {"id": "p", "kind": "canopy", "height_m": 3.0, "transmissivity": 0.4})]
+    sc = scene_from_local(items, LAT, LON)
+    got = shade.beam_transmittance(sc, [X0, X0 + 35, X0 + 35], [Y0, Y0, Y0], [20.0, 60.0, 60.0], [180.0, 180.0, 0.0])
+    # under the canopy's middle: sun at 60° leaves the slab 1.1-1.3 m away -> still under it
+    np.testing.assert_allclose(got, [0.15, 0.4, 0.4])
+    assert shade.beam_transmittance(sc, [X0 + 35], [Y0 + 5.5], [80.0], [0.0])[0] == 1.0  # just outside, sun away
+
+
+def test_courtyard_hole_and_inside_footprint():
+    # From the geometry: a 40 m square block with a 20 m courtyard, 12 m tall.
+    block = Polygon([(X0 - 20, Y0 - 20), (X0 + 20, Y0 - 20), (X0 + 20, Y0 + 20), (X0 - 20, Y0 + 20)],
+                    holes=[[(X0 - 10, Y0 - 10), (X0 + 10, Y0 - 10), (X0 + 10, Y0 + 10), (X0 - 10, Y0 + 10)]])
+    sc = scene_from_local([(block, {"id": "blk", "kind": "building", "height_m": 12.0})], LAT, LON)
+    # courtyard centre: wall 10 m away, (12-1.1)/10 -> threshold 47.5°
+    got = shade.beam_transmittance(sc, [X0] * 3 + [X0 + 15], [Y0] * 3 + [Y0], [60.0, 40.0, 89.0, 60.0], [180.0] * 4)
+    assert got.tolist() == [1.0, 0.0, 1.0, 0.0]  # last point stands inside the footprint
+
+
+def test_vectorised_equals_plain_loop_on_random_scene():
+    # Reference: the plain shapely loop (shade.beam_transmittance_naive) on an invented
+    # scene with L-shaped buildings, point trees, crown polygons with monthly values and canopies.
+    sc, (x0, y0) = random_scene(40, 30, 200, seed=3, n_crowns=10, n_canopies=10)
+    rng = np.random.default_rng(11)
+    m = 400
+    x, y = x0 + rng.uniform(-100, 100, m), y0 + rng.uniform(-100, 100, m)
+    e, a = rng.uniform(-3, 85, m), rng.uniform(0, 360, m)
+    z = rng.uniform(0.3, 2.0, m)
+    month = rng.integers(1, 13, m)
+    fast = shade.beam_transmittance(sc, x, y, e, a, z_m=z, month=month)
+    slow = shade.beam_transmittance_naive(sc, x, y, e, a, z_m=z, month=month)
+    np.testing.assert_allclose(fast, slow, atol=1e-12)
+    assert 0.05 < np.mean(fast[e > 0] < 1) < 0.95  # the test scene really shades some rays
+
+
+def test_grid_equals_rowwise():
+    sc, (x0, y0) = random_scene(40, 30, 200, seed=4)
+    rng = np.random.default_rng(5)
+    x, y = x0 + rng.uniform(-80, 80, 30), y0 + rng.uniform(-80, 80, 30)
+    e = np.array([-2.0, 3.0, 15.0, 40.0, 70.0, np.nan])
+    a = np.array([80.0, 90.0, 120.0, 180.0, 240.0, 200.0])
+    g = shade.beam_transmittance_grid(sc, x, y, e, a, month=[7] * 6)
+    ii, jj = np.repeat(np.arange(30), 6), np.tile(np.arange(6), 30)
+    rows = shade.beam_transmittance(sc, x[ii], y[ii], e[jj], a[jj], month=7).reshape(30, 6)
+    np.testing.assert_array_equal(np.isnan(g), np.isnan(rows))
+    np.testing.assert_allclose(g[:, :5], rows[:, :5])
+    assert (g[:, 0] == 0).all() and np.isnan(g[:, 5]).all()

@@ -1,0 +1,413 @@
+"""The scene: buildings, trees and canopies that cast shade and hide the sky.
+
+A scene is a GeoJSON FeatureCollection in WGS84 lon/lat (the contract is in
+DEVELOPERS.md, "Scene GeoJSON"). Every feature has ``properties.id`` (a unique
+string) and ``properties.kind``:
+
+``building``
+    Polygon/MultiPolygon footprint, ``height_m`` > 0 above ground; opaque; extruded
+    from the ground to its height (flat roof).
+``tree``
+    Point (trunk) with ``crown_radius_m`` > 0 — a vertical cylinder of that radius — or
+    a Polygon crown outline — a prism; ``height_m`` total height, ``crown_base_m``
+    (0 ≤ base < height) the crown's lowest level, ``transmissivity`` the leaf-on
+    fraction of the direct beam passing through the crown, optionally
+    ``transmissivity_by_month`` (``{"1": 0.6, …, "12": 0.6}``; months not listed use
+    ``transmissivity``).
+``canopy``
+    Polygon/MultiPolygon (pergola, awning, sail), ``height_m`` its underside,
+    ``transmissivity`` 0 (opaque) … 1 (open). Modelled as a slab
+    :data:`CANOPY_THICKNESS_M` thick.
+
+Optional top-level ``"walkcomfort": {"site": {"lat": .., "lon": .., "elev_m": ..}}``
+fixes the site (and so the local UTM frame); otherwise the centre of the features'
+bounding box is used. The ground is taken as flat.
+
+Each crossing of a crown multiplies the beam by that crown's transmissivity, whatever
+the path length inside it (a documented simplification of Beer–Lambert attenuation;
+measured crown transmissivities are whole-crown values).
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import math
+import os
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+import shapely
+from shapely.geometry import mapping, shape
+
+from walkcomfort.environment.geo import LocalFrame
+from walkcomfort.errors import InputError
+
+KINDS = ("building", "tree", "canopy")
+KIND_CODE = {k: i for i, k in enumerate(KINDS)}
+#: Thickness given to canopies (pergolas, awnings) so that they are solids [m].
+CANOPY_THICKNESS_M = 0.2
+
+_POLY = ("Polygon", "MultiPolygon")
+
+
+@dataclass(frozen=True)
+class Obstacles:
+    """Scene obstacles in the local frame, as flat arrays for the vectorised kernels.
+
+    One row per solid part (a MultiPolygon gives one row per polygon). Circle
+    obstacles (point trees) have no edges; polygon obstacles own the edges
+    ``edge_ptr[i]:edge_ptr[i+1]`` (exterior and holes, so the crossing-number test
+    is exact for holes too).
+    """
+
+    kind: np.ndarray        # int8 code, see KIND_CODE
+    feature: np.ndarray     # int index into Scene.features
+    z_bottom: np.ndarray    # [m] lowest level of the solid
+    z_top: np.ndarray       # [m] highest level
+    tau_base: np.ndarray    # (n,) leaf-on beam transmittance (0 for buildings)
+    tau_month: np.ndarray   # (n, 12) beam transmittance per month (0 for buildings)
+    is_circle: np.ndarray   # bool
+    cx: np.ndarray          # [m] bounding-circle centre (the trunk for point trees)
+    cy: np.ndarray
+    r: np.ndarray           # [m] bounding-circle radius (crown radius for point trees)
+    edge_ptr: np.ndarray    # (n+1,) CSR pointer into the edge arrays
+    ex1: np.ndarray
+    ey1: np.ndarray
+    ex2: np.ndarray
+    ey2: np.ndarray
+    footprints: np.ndarray  # shapely geometries (circles as polygons) for the STRtree
+    tree: shapely.STRtree
+    grid_convergence_deg: float = 0.0  # add to a true azimuth to get the local-grid direction
+
+    @property
+    def n(self) -> int:
+        return int(self.kind.size)
+
+    @property
+    def z_max(self) -> float:
+        return float(self.z_top.max()) if self.n else 0.0
+
+
+class Scene:
+    """Validated obstacles of a site plus its local metric frame.
+
+    Build with :func:`load_scene` or :meth:`Scene.from_geojson`; :meth:`to_geojson`
+    gives the GeoJSON back. ``Scene.crs`` is the site's UTM CRS and
+    :meth:`project` maps lon/lat to local x/y metres.
+    """
+
+    def __init__(self, features: list[dict], site: dict | None = None, source: str = "scene"):
+        try:  # own copy; a JSON round trip is much faster than deepcopy for GeoJSON content
+            self._features = json.loads(json.dumps(list(features)))
+        except (TypeError, ValueError):
+            self._features = [copy.deepcopy(f) for f in features]
+        self.source = source
+        self._geoms = [_validate_feature(f, i, source) for i, f in enumerate(self._features)]
+        ids = [f["properties"]["id"] for f in self._features]
+        seen: dict[str, int] = {}
+        for i, fid in enumerate(ids):
+            if fid in seen:
+                raise InputError(f"feature id {fid!r} is used twice (features {seen[fid]} and {i})",
+                                 where=f"{source} feature {i}", fix="give every feature a unique properties.id")
+            seen[fid] = i
+        self.site = _site(site, self._geoms, source)
+        self.frame = LocalFrame(self.site["lon"], self.site["lat"])
+
+    # --- construction / export -----------------------------------------------------
+    @classmethod
+    def from_geojson(cls, obj: dict | str, source: str = "scene") -> "Scene":
+        """Scene from a GeoJSON FeatureCollection (a dict or JSON text)."""
+        if isinstance(obj, str):
+            try:
+                obj = json.loads(obj)
+            except json.JSONDecodeError as exc:
+                raise InputError(f"not valid JSON ({exc.msg})", where=f"{source}:{exc.lineno}",
+                                 fix="check the file is GeoJSON") from None
+        if not isinstance(obj, dict) or obj.get("type") != "FeatureCollection":
+            raise InputError(f"expected a GeoJSON FeatureCollection, got type {obj.get('type') if isinstance(obj, dict) else type(obj).__name__!r}",
+                             where=source, fix="wrap the features in {\"type\": \"FeatureCollection\", \"features\": [...]}")
+        feats = obj.get("features")
+        if not isinstance(feats, list):
+            raise InputError("FeatureCollection has no 'features' list", where=source,
+                             fix="add a 'features' array")
+        meta = obj.get("walkcomfort") or {}
+        site = meta.get("site") if isinstance(meta, dict) else None
+        return cls(feats, site=site, source=source)
+
+    @classmethod
+    def empty(cls, lat: float, lon: float, elev_m: float = 0.0) -> "Scene":
+        """A scene with no obstacles at a site (open ground everywhere)."""
+        return cls([], site={"lat": lat, "lon": lon, "elev_m": elev_m})
+
+    def to_geojson(self) -> dict:
+        """The scene as a GeoJSON FeatureCollection dict (site included)."""
+        return {"type": "FeatureCollection", "walkcomfort": {"site": dict(self.site)},
+                "features": copy.deepcopy(self._features)}
+
+    # --- access ------------------------------------------------------------------------
+    @property
+    def features(self) -> list[dict]:
+        """Copies of the GeoJSON features (editing them does not change the scene)."""
+        return copy.deepcopy(self._features)
+
+    @property
+    def ids(self) -> list[str]:
+        return [f["properties"]["id"] for f in self._features]
+
+    def __len__(self) -> int:
+        return len(self._features)
+
+    def __repr__(self) -> str:
+        kinds = {k: sum(1 for f in self._features if f["properties"]["kind"] == k) for k in KINDS}
+        return (f"Scene({len(self)} features: {kinds['building']} buildings, {kinds['tree']} trees, "
+                f"{kinds['canopy']} canopies; site {self.site['lat']:.5f}, {self.site['lon']:.5f}; {self.crs.name})")
+
+    @property
+    def crs(self):
+        """The local projected CRS (UTM zone of the site)."""
+        return self.frame.crs
+
+    def project(self, lon, lat):
+        """WGS84 lon/lat [°] -> local x, y [m]."""
+        return self.frame.project(lon, lat)
+
+    def unproject(self, x, y):
+        """Local x, y [m] -> WGS84 lon/lat [°]."""
+        return self.frame.unproject(x, y)
+
+    @cached_property
+    def obstacles(self) -> Obstacles:
+        """Obstacles in local metres, prepared once for the shade and sky-view kernels."""
+        return _prepare(self)
+
+
+def scene_from_local(items, lat: float, lon: float, elev_m: float = 0.0) -> Scene:
+    """Build a scene from geometries drawn in the site's local metres.
+
+    Parameters
+    ----------
+    items : iterable of (shapely geometry, dict)
+        Geometry in local UTM metres of the site and the feature properties
+        (``id``, ``kind``, heights …, as in the scene contract).
+    lat, lon : float
+        The site [°]; fixes the local frame.
+    elev_m : float, default 0
+        Site elevation [m].
+
+    Returns
+    -------
+    Scene
+        Validated like any GeoJSON scene; coordinates are stored as lon/lat.
+    """
+    items = list(items)
+    frame = LocalFrame(lon, lat)
+    geoms = np.empty(len(items), dtype=object)
+    geoms[:] = [g for g, _ in items]
+    if len(items):
+        geoms = shapely.transform(geoms, lambda xy: np.column_stack(frame.unproject(xy[:, 0], xy[:, 1])))
+    feats = [feature_to_geojson(g, p) for g, (_, p) in zip(geoms, items)]
+    return Scene(feats, site={"lat": float(lat), "lon": float(lon), "elev_m": float(elev_m)})
+
+
+def load_scene(path: str | os.PathLike) -> Scene:
+    """Read and validate a scene GeoJSON file (see the module docstring for its contract)."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError("scene file not found", where=str(path), fix="give the path of a .geojson scene") from None
+    return Scene.from_geojson(text, source=str(path))
+
+
+# --- validation ----------------------------------------------------------------------------
+
+def _num(props: dict, key: str, where: str, *, required: bool = True, lo: float | None = None,
+         hi: float | None = None, lo_open: bool = False, default=None):
+    if key not in props or props[key] is None:
+        if required:
+            raise InputError(f"missing '{key}'", where=where, fix=f"add properties.{key} (a number)")
+        return default
+    val = props[key]
+    if isinstance(val, bool) or not isinstance(val, (int, float)) or not math.isfinite(val):
+        raise InputError(f"'{key}' must be a finite number, got {val!r}", where=where,
+                         fix=f"write properties.{key} as a number")
+    val = float(val)
+    if lo is not None and (val <= lo if lo_open else val < lo):
+        raise InputError(f"'{key}' = {val:g} must be {'>' if lo_open else '>='} {lo:g}", where=where,
+                         fix=f"correct properties.{key}")
+    if hi is not None and val > hi:
+        raise InputError(f"'{key}' = {val:g} must be <= {hi:g}", where=where, fix=f"correct properties.{key}")
+    return val
+
+
+def _validate_feature(f, i: int, source: str):
+    where = f"{source} feature {i}"
+    if not isinstance(f, dict) or f.get("type") != "Feature":
+        raise InputError("not a GeoJSON Feature", where=where, fix="each entry of 'features' must be a Feature")
+    props = f.get("properties")
+    if not isinstance(props, dict):
+        raise InputError("feature has no properties", where=where, fix="add properties with id, kind and height_m")
+    fid = props.get("id")
+    if not isinstance(fid, str) or not fid:
+        raise InputError(f"properties.id must be a non-empty string, got {fid!r}", where=where,
+                         fix="give every feature a unique string id")
+    where = f"{source} feature {i} (id {fid!r})"
+    kind = props.get("kind")
+    if kind not in KINDS:
+        raise InputError(f"kind {kind!r} is not one of {', '.join(KINDS)}", where=where, fix="set properties.kind")
+    try:
+        geom = shape(f.get("geometry"))
+    except Exception as exc:  # shapely raises several types for malformed GeoJSON
+        raise InputError(f"geometry cannot be read ({exc})", where=where, fix="write a GeoJSON geometry") from None
+    gtype = geom.geom_type
+    if geom.is_empty:
+        raise InputError("geometry is empty", where=where, fix="give the outline or the trunk position")
+    if not shapely.is_valid(geom):
+        raise InputError(f"invalid geometry: {shapely.is_valid_reason(geom)}", where=where,
+                         fix="repair the polygon (no self-intersections, closed rings)")
+    x0, y0, x1, y1 = geom.bounds
+    if not (-180 <= x0 <= x1 <= 180 and -90 <= y0 <= y1 <= 90):
+        raise InputError(f"coordinates {geom.bounds} are not WGS84 lon/lat", where=where,
+                         fix="export the scene in EPSG:4326 (lon, lat) as GeoJSON requires")
+    if kind == "building":
+        if gtype not in _POLY:
+            raise InputError(f"a building needs a Polygon footprint, got {gtype}", where=where,
+                             fix="draw the footprint as a Polygon")
+        _num(props, "height_m", where, lo=0.0, lo_open=True)
+    elif kind == "tree":
+        h = _num(props, "height_m", where, lo=0.0, lo_open=True)
+        cb = _num(props, "crown_base_m", where, lo=0.0)
+        if cb >= h:
+            raise InputError(f"crown_base_m = {cb:g} must be below height_m = {h:g}", where=where,
+                             fix="give the height of the lowest branches, below the tree top")
+        _num(props, "transmissivity", where, lo=0.0, hi=1.0)
+        if gtype == "Point":
+            _num(props, "crown_radius_m", where, lo=0.0, lo_open=True)
+        elif gtype not in _POLY:
+            raise InputError(f"a tree needs a Point trunk or a Polygon crown, got {gtype}", where=where,
+                             fix="use a Point with crown_radius_m or a crown Polygon")
+        by_month = props.get("transmissivity_by_month")
+        if by_month is not None:
+            if not isinstance(by_month, dict):
+                raise InputError("transmissivity_by_month must be an object {\"1\": 0.6, ...}", where=where,
+                                 fix="key months 1..12 as strings")
+            for k, v in by_month.items():
+                if str(k) not in {str(m) for m in range(1, 13)}:
+                    raise InputError(f"transmissivity_by_month has month {k!r}", where=where,
+                                     fix="use months \"1\" … \"12\"")
+                _num({"v": v}, "v", f"{where} transmissivity_by_month[{k}]", lo=0.0, hi=1.0)
+    else:  # canopy
+        if gtype not in _POLY:
+            raise InputError(f"a canopy needs a Polygon, got {gtype}", where=where, fix="draw its outline as a Polygon")
+        _num(props, "height_m", where, lo=0.0, lo_open=True)
+        _num(props, "transmissivity", where, lo=0.0, hi=1.0)
+    return geom
+
+
+def _site(site, geoms, source: str) -> dict:
+    if site is not None:
+        if not isinstance(site, dict):
+            raise InputError("walkcomfort.site must be an object with lat, lon", where=source, fix="see DEVELOPERS.md")
+        lat = _num(site, "lat", f"{source} walkcomfort.site", lo=-90, hi=90)
+        lon = _num(site, "lon", f"{source} walkcomfort.site", lo=-180, hi=180)
+        elev = _num(site, "elev_m", f"{source} walkcomfort.site", required=False, default=0.0)
+        return {"lat": lat, "lon": lon, "elev_m": elev}
+    if not geoms:
+        raise InputError("an empty scene needs walkcomfort.site to fix its location", where=source,
+                         fix="add {\"walkcomfort\": {\"site\": {\"lat\": .., \"lon\": ..}}}")
+    b = shapely.total_bounds(np.array(geoms, dtype=object))
+    return {"lat": float((b[1] + b[3]) / 2), "lon": float((b[0] + b[2]) / 2), "elev_m": 0.0}
+
+
+# --- preparation --------------------------------------------------------------------------
+
+def _tau_months(props: dict) -> np.ndarray:
+    base = float(props.get("transmissivity", 0.0))
+    out = np.full(12, base)
+    for k, v in (props.get("transmissivity_by_month") or {}).items():
+        out[int(k) - 1] = float(v)
+    return out
+
+
+def _prepare(scene) -> Obstacles:
+    feats, geoms_in = scene._features, scene._geoms
+    nf = len(feats)
+    e = np.empty(0)
+    if nf == 0:
+        return Obstacles(np.empty(0, np.int8), np.empty(0, np.int64), e, e, e, np.empty((0, 12)), np.empty(0, bool),
+                         e, e, e, np.zeros(1, np.int64), e, e, e, e, np.empty(0, object), shapely.STRtree([]),
+                         _convergence(scene))
+    geoms = np.empty(nf, dtype=object)
+    geoms[:] = geoms_in
+    # one pyproj call for every coordinate of the scene
+    local = shapely.transform(geoms, lambda xy: np.column_stack(scene.frame.project(xy[:, 0], xy[:, 1])))
+    kind = np.empty(nf, np.int8)
+    zb, zt, tau_base = np.empty(nf), np.empty(nf), np.zeros(nf)
+    tau_m = np.zeros((nf, 12))
+    radius = np.zeros(nf)
+    for i, f in enumerate(feats):
+        p = f["properties"]
+        k = p["kind"]
+        kind[i] = KIND_CODE[k]
+        if k == "building":
+            zb[i], zt[i] = 0.0, float(p["height_m"])
+        else:
+            if k == "tree":
+                zb[i], zt[i] = float(p["crown_base_m"]), float(p["height_m"])
+                radius[i] = float(p.get("crown_radius_m") or 0.0)
+            else:
+                zb[i] = float(p["height_m"])
+                zt[i] = zb[i] + CANOPY_THICKNESS_M
+            tau_base[i] = float(p["transmissivity"])
+            tau_m[i] = _tau_months(p)
+    is_point = shapely.get_type_id(local) == 0
+    # point trees: circles
+    pt = np.flatnonzero(is_point)
+    pcx, pcy = shapely.get_x(local[pt]), shapely.get_y(local[pt])
+    pfoot = shapely.buffer(local[pt], radius[pt], quad_segs=8) if pt.size else np.empty(0, object)
+    # polygons: one solid per part; edges of all rings
+    pg = np.flatnonzero(~is_point)
+    parts, part_feat = shapely.get_parts(local[pg], return_index=True)
+    part_feat = pg[part_feat]
+    rings, ring_part = shapely.get_rings(parts, return_index=True)
+    xy, ring_of = shapely.get_coordinates(rings, return_index=True)
+    same = ring_of[1:] == ring_of[:-1]
+    e1, e2 = xy[:-1][same], xy[1:][same]
+    edge_part = ring_part[ring_of[:-1][same]]
+    counts_poly = np.bincount(edge_part, minlength=parts.size)
+    b = shapely.bounds(parts)
+    qcx, qcy = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
+    ext_xy, ext_of = shapely.get_coordinates(shapely.get_exterior_ring(parts), return_index=True)
+    d = np.hypot(ext_xy[:, 0] - qcx[ext_of], ext_xy[:, 1] - qcy[ext_of])
+    qr = np.zeros(parts.size)
+    np.maximum.at(qr, ext_of, d)
+    qr = qr * (1 + 1e-9) + 1e-6  # strictly enclosing
+    # circles first, then polygon parts
+    feat_idx = np.concatenate([pt, part_feat]).astype(np.int64)
+    n = feat_idx.size
+    counts = np.concatenate([np.zeros(pt.size, np.int64), counts_poly.astype(np.int64)])
+    fps = np.empty(n, dtype=object)
+    fps[:pt.size] = pfoot
+    fps[pt.size:] = parts
+    return Obstacles(
+        kind=kind[feat_idx], feature=feat_idx, z_bottom=zb[feat_idx], z_top=zt[feat_idx],
+        tau_base=tau_base[feat_idx], tau_month=tau_m[feat_idx],
+        is_circle=np.concatenate([np.ones(pt.size, bool), np.zeros(parts.size, bool)]),
+        cx=np.concatenate([pcx, qcx]), cy=np.concatenate([pcy, qcy]), r=np.concatenate([radius[pt], qr]),
+        edge_ptr=np.concatenate([[0], np.cumsum(counts)]).astype(np.int64),
+        ex1=e1[:, 0].copy(), ey1=e1[:, 1].copy(), ex2=e2[:, 0].copy(), ey2=e2[:, 1].copy(),
+        footprints=fps, tree=shapely.STRtree(fps), grid_convergence_deg=_convergence(scene),
+    )
+
+
+def _convergence(scene) -> float:
+    frame = getattr(scene, "frame", None)
+    return frame.grid_convergence_deg if frame is not None else 0.0
+
+
+def feature_to_geojson(geom, properties: dict) -> dict:
+    """A GeoJSON Feature dict from a shapely lon/lat geometry and properties (helper for scene builders)."""
+    return {"type": "Feature", "geometry": mapping(geom), "properties": dict(properties)}
