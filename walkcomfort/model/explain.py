@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from walkcomfort.model.features import FEATURE_INFO
+from walkcomfort.model.features import DOSE_THRESHOLD_C, FEATURE_INFO
 
 
 def contributions(model, X: pd.DataFrame, check: bool = True) -> np.ndarray:
@@ -49,6 +49,11 @@ def _describe(name: str, value: float) -> str:
     if name.startswith("sun_min_"):
         w = name.removeprefix("sun_min_").removesuffix("min")
         return f"{value:.1f} of the last {w} min in full sun"
+    if name == "sun_streak_min":
+        return f"{value:.1f} min in full sun before this point" if value > 0 else "in shade here"
+    if name.startswith("heat_dose_"):
+        w = name.removeprefix("heat_dose_").removesuffix("min")
+        return f"heat dose {value:.0f} °C·min above UTCI {DOSE_THRESHOLD_C:g} °C in the last {w} min"
     if name == "since_sun_shade_change_s":
         return f"{value / 60:.1f} min since stepping between sun and shade"
     if name.startswith("utci_contrast_"):

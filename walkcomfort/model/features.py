@@ -84,6 +84,7 @@ def _declare_all() -> tuple[str, ...]:
     names += [
         _declare("in_sun", "in direct sun now (1) or shade (0)", "-"),
         _declare("since_sun_shade_change_s", "time since stepping between sun and shade", "s"),
+        _declare("sun_streak_min", "minutes in the sun without a break in shade", "min"),
         _declare("t_air_mean_5min", "mean air temperature over the last 5 min", "°C"),
         _declare("wind_mean_5min", "mean wind speed over the last 5 min", "m/s"),
         _declare(C.LAEQ_DB, "sound level now", "dB(A)"),
@@ -225,6 +226,7 @@ def build_features(timeline: pd.DataFrame, participants: dict | None = None) -> 
 
     f["in_sun"] = np.where(np.isnan(shade), np.nan, (shade < SHADE_STATE_FRAC).astype(float))
     f["since_sun_shade_change_s"] = ctx.since_change(f["in_sun"])
+    f["sun_streak_min"] = f["in_sun"] * f["since_sun_shade_change_s"] / 60.0
     f["t_air_mean_5min"] = ctx.mean(col(C.T_AIR_C), 300.0)
     f["wind_mean_5min"] = ctx.mean(col(C.WIND_MS), 300.0)
     # sound: energy averages, Leq = 10 log10(mean 10^(L/10)) (IEC 61672-1 definition of Leq)
