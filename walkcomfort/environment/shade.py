@@ -104,30 +104,36 @@ def ray_pairs(obs: Obstacles, x, y, dx, dy, length):
     return ray[keep], ob[keep], enter[keep], exit_[keep]
 
 
-def segment_polygon_hits(obs: Obstacles, ob, ax, ay, bx, by):
-    """Does segment A→B meet polygon obstacle ``ob`` (crossing an edge or starting inside)?
+def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool = True):
+    """Crossings of segment A→B with the edges of polygon obstacle ``ob``, per pair.
 
-    Vectorised over pairs via the obstacles' edge CSR; exact for holes and concave outlines.
+    Vectorised over pairs through the obstacles' edge CSR (exterior and hole rings),
+    processed in bounded chunks.
 
     Returns
     -------
-    ndarray of bool
-        One per pair.
+    inside : ndarray of bool
+        A lies inside the polygon (crossing-number test; holes count as outside).
+    n_cross : ndarray of int
+        Number of edges the segment crosses.
+    t_min, t_max : ndarray
+        Smallest and largest crossing parameter along A→B (0…1; NaN without crossings).
     """
     k = ob.size
-    hit = np.zeros(k, dtype=bool)
+    inside = np.zeros(k, dtype=bool)
+    n_cross = np.zeros(k, dtype=np.int64)
+    t_min = np.full(k, np.nan)
+    t_max = np.full(k, np.nan)
     if k == 0:
-        return hit
+        return inside, n_cross, t_min, t_max
     start = obs.edge_ptr[ob]
     counts = obs.edge_ptr[ob + 1] - start
-    # process in chunks of pairs so that the edge expansion stays bounded
     csum = np.cumsum(counts)
-    bounds = np.searchsorted(csum, np.arange(_CHUNK_EDGES, csum[-1] + _CHUNK_EDGES, _CHUNK_EDGES), side="right")
     lo = 0
-    for hi in list(bounds) + [k]:
+    while lo < k:
+        base = csum[lo - 1] if lo else 0
+        hi = int(np.searchsorted(csum, base + _CHUNK_EDGES, side="right"))
         hi = min(max(hi, lo + 1), k)
-        if hi <= lo:
-            continue
         sl = slice(lo, hi)
         c = counts[sl]
         total = int(c.sum())
@@ -147,13 +153,27 @@ def segment_polygon_hits(obs: Obstacles, ob, ax, ay, bx, by):
             straddle = (e1y > pay) != (e2y > pay)
             xint = e1x + (pay - e1y) * sx / sy
             toggle = straddle & (pax < xint)
-        n_cross = np.bincount(rep, weights=cross, minlength=hi - lo)
-        n_toggle = np.bincount(rep, weights=toggle, minlength=hi - lo)
-        hit[sl] = (n_cross > 0) | (n_toggle.astype(np.int64) % 2 == 1)
+        m = hi - lo
+        n_cross[sl] = np.bincount(rep, weights=cross, minlength=m).astype(np.int64)
+        inside[sl] = np.bincount(rep, weights=toggle, minlength=m).astype(np.int64) % 2 == 1
+        if want_t and cross.any():
+            tmin = np.full(m, np.inf)
+            tmax = np.full(m, -np.inf)
+            np.minimum.at(tmin, rep[cross], tt[cross])
+            np.maximum.at(tmax, rep[cross], tt[cross])
+            t_min[sl] = np.where(np.isfinite(tmin), tmin, np.nan)
+            t_max[sl] = np.where(np.isfinite(tmax), tmax, np.nan)
         lo = hi
-        if lo >= k:
-            break
-    return hit
+    return inside, n_cross, t_min, t_max
+
+
+def segment_polygon_hits(obs: Obstacles, ob, ax, ay, bx, by):
+    """Does segment A→B meet polygon obstacle ``ob`` (crossing an edge or starting inside)?
+
+    Exact for holes and concave outlines; one bool per pair.
+    """
+    inside, n_cross, _, _ = segment_polygon_crossings(obs, ob, ax, ay, bx, by, want_t=False)
+    return inside | (n_cross > 0)
 
 
 #: Width of the direction bins rows are grouped in for the candidate search [°]; the
