@@ -176,3 +176,22 @@ def test_bad_job_inputs_are_one_line_errors(small_net):
         engines.make_engine("spark")
     with pytest.raises(InputError, match="ends"):
         daytime_times("2026-07-14T10:00", "2026-07-14T08:00")
+
+
+def test_dask_engine_uses_an_existing_scheduler_by_address(small_net, tmp_path):
+    from distributed import LocalCluster
+
+    job = _job(small_net)
+    engines.run_job(job, tmp_path / "a", "in-process")
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=False, protocol="tcp", host="127.0.0.1",
+                      dashboard_address="127.0.0.1:0") as cluster:
+        report = engines.run_job(job, tmp_path / "b", "dask", scheduler=cluster.scheduler_address, timeout_s=20)
+        assert report.ok and report.parameters["scheduler"] == cluster.scheduler_address
+        assert len(cluster.scheduler.workers) == 1  # the engine closed its client, not the cluster
+    assert _digests(tmp_path / "a") == _digests(tmp_path / "b")
+
+
+def test_unreachable_scheduler_is_a_one_line_error(small_net, tmp_path):
+    job = _job(small_net)
+    with pytest.raises(InputError, match="no Dask scheduler answered at 'tcp://127.0.0.1:9'"):
+        engines.run_job(job, tmp_path, "dask", scheduler="tcp://127.0.0.1:9", timeout_s=1)

@@ -90,7 +90,7 @@ def point_environment(part: Partition) -> dict[str, np.ndarray]:
 
         trans = np.array(_shade.beam_transmittance_grid(scene, x, y, elev, azim, z_m=z,
                                                         month=np.asarray(times.month)), dtype=float)
-        svf = _skyview.sky_view_factor(scene, x, y, z_m=z)[C.SVF].to_numpy(float)
+        svf = _tile_svf(part, scene, x, y, z)
     trans = trans.copy()
     trans[:, low] = 0.0
     grid = np.ones((n, t))
@@ -105,6 +105,30 @@ def point_environment(part: Partition) -> dict[str, np.ndarray]:
             C.UTCI_C: u[C.UTCI_C].to_numpy(float).reshape(n, t),
             C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool).reshape(n, t),
             C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy()}
+
+
+#: Sky view factors already computed in this process, by tile content (time chunks of one
+#: tile share them: the sky view does not change with time).
+_SVF_CACHE: dict[str, np.ndarray] = {}
+_SVF_CACHE_MAX = 256
+
+
+def _tile_svf(part: Partition, scene, x, y, z) -> np.ndarray:
+    import hashlib
+    import json
+
+    from walkcomfort.environment import skyview as _skyview
+
+    h = hashlib.sha256(json.dumps(part.scene, sort_keys=True).encode())
+    h.update(np.ascontiguousarray(x).tobytes() + np.ascontiguousarray(y).tobytes() + repr(z).encode())
+    key = h.hexdigest()
+    hit = _SVF_CACHE.get(key)
+    if hit is None:
+        hit = _skyview.sky_view_factor(scene, x, y, z_m=z)[C.SVF].to_numpy(float)
+        if len(_SVF_CACHE) >= _SVF_CACHE_MAX:
+            _SVF_CACHE.pop(next(iter(_SVF_CACHE)))
+        _SVF_CACHE[key] = hit
+    return hit.copy()
 
 
 def rule_probabilities(utci_c: np.ndarray) -> dict[str, np.ndarray]:

@@ -36,7 +36,7 @@ def _conditions(text: str | None) -> dict | None:
 
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
-                    min_sun_elev_deg=5.0, model=None):
+                    min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0):
     """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
     from walkcomfort.network.batch import BASE, daytime_times, plan_job
     from walkcomfort.network.segments import load_network
@@ -64,7 +64,10 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     site = {"lat": float(site_meta.get("lat", network.points[C.LAT].mean())),
             "lon": float(site_meta.get("lon", network.points[C.LON].mean())),
             "elev_m": float(site_meta.get("elev_m", 0.0))}
-    source = open_weather(weather_path, _conditions(conditions))
+    kw = {"max_distance_km": max_station_km}
+    if logger_wind_height is not None:
+        kw["wind_height_m"] = logger_wind_height
+    source = open_weather(weather_path, _conditions(conditions), **kw)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
     context = {"wind_height_m": float(weather.attrs.get("wind_height_m", getattr(source, "wind_height_m", 10.0))),
                "weather": getattr(source, "label", "weather"), "model": str(model) if model else None}
@@ -104,6 +107,10 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--weather", "weather_path", type=click.Path(dir_okay=False, path_type=Path),
               help="Weather file (EPW/TMY) or logger series.")
 @click.option("--conditions", help="Stated weather instead of a file: 't_air_c=33,rh_pct=30,wind_ms=1.5'.")
+@click.option("--logger-wind-height", type=float, default=None,
+              help="Wind sensor height of a logger series [m] (if the file does not say).")
+@click.option("--max-station-km", type=float, default=50.0, show_default=True,
+              help="Refuse a weather file whose station is farther from the network [km].")
 @click.option("--model", type=click.Path(file_okay=False, path_type=Path),
               help="Saved comfort model bundle; without it the UTCI-band rule gives the classes.")
 @click.option("--start", required=True, help="First time, ISO (e.g. 2026-07-14T07:00).")
@@ -128,7 +135,7 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--resume", is_flag=True, help="Keep partitions an earlier run of the same job already wrote.")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Output folder.")
-def network(streets, scene_path, scheme_paths, weather_path, conditions, model, start, end, step, timezone,
+def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model, start, end, step, timezone,
             segment_length_m, spacing_m, tile_size_m, time_chunk, min_sun_elev_deg, engine, scheduler, workers,
             threads_per_worker, retries, resume, out_dir):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
@@ -146,7 +153,7 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, model, 
         raise InputError("--scheduler was given with --engine in-process", fix="add --engine dask")
     net, job = plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone or "UTC",
                                weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
-                               min_sun_elev_deg, model)
+                               min_sun_elev_deg, model, logger_wind_height, max_station_km)
     click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
                f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
                err=True)
