@@ -193,8 +193,13 @@ def render_frame(svf: float, sky_crowns: float, sunlit: bool, people_n: int, rng
     inner = max(w - 2 * wall, 1)
     band = green_up * w * horizon / inner
     if band > 0.5:
+        # separate crowns: the depth swings around its mean so sky shows between them
+        period = float(rng.uniform(28.0, 44.0))
+        phase = float(rng.uniform(0.0, 2 * np.pi))
+        swing = min(0.9, (horizon - band) / max(band, 1e-6)) if band < horizon else 0.0
         for col in range(wall, w - wall):
-            depth = int(np.clip(band + rng.normal(0, 2.0), 0, horizon))
+            depth = int(np.clip(band * (1 + swing * np.sin(2 * np.pi * col / period + phase))
+                                + rng.normal(0, 2.0), 0, horizon))
             if depth > 0:
                 g = int(rng.integers(95, 135))
                 d.line([(col, 0), (col, depth - 1)], fill=(int(g * 0.45), g, int(g * 0.3)))
@@ -204,6 +209,12 @@ def render_frame(svf: float, sky_crowns: float, sunlit: bool, people_n: int, rng
     d.rectangle([0, horizon + 13 if wall else horizon, w - 1, h - 1], fill=pave)
     if wall:
         d.rectangle([wall, horizon, w - wall - 1, horizon + 12], fill=pave)
+    # paving joints: the texture a real pavement shows (and a focus check looks for)
+    joint = tuple(int(c * 0.8) for c in pave)
+    for r in range(horizon + 16, h, 9):
+        d.line([(0, r), (w, r)], fill=joint)
+    for cx in range(int(rng.integers(0, 14)), w, 14):
+        d.line([(cx, horizon + 16), (cx + (cx - w // 2) // 3, h)], fill=joint)
     for i in range(people_n):
         px = int(rng.integers(wall + 4, max(wall + 5, w - wall - 8)))
         ph = int(rng.integers(14, 24))
@@ -211,7 +222,7 @@ def render_frame(svf: float, sky_crowns: float, sunlit: bool, people_n: int, rng
         d.rectangle([px, top + 5, px + 4, top + ph], fill=(45, 45, 60))
         d.ellipse([px, top, px + 4, top + 5], fill=(170, 125, 95))
         label[max(top, 0): top + ph + 1, px: px + 5] = 5
-    arr = np.asarray(img, np.int16) + rng.normal(0, 3.0, (h, w, 3)).astype(np.int16)
+    arr = np.asarray(img, np.int16) + rng.normal(0, 4.0, (h, w, 3)).astype(np.int16)
     img = Image.fromarray(np.clip(arr, 0, 255).astype(np.uint8))
     truth = {"sky_frac": float((label == 1).mean()), "green_frac": float((label == 2).mean()),
              "people_n": int(people_n)}
@@ -229,7 +240,7 @@ def jpeg_bytes(img, local_time: pd.Timestamp) -> bytes:
     exif[0x0132] = stamp                      # DateTime
     exif.get_ifd(0x8769)[0x9003] = stamp      # DateTimeOriginal
     buf = io.BytesIO()
-    img.save(buf, "JPEG", quality=72, exif=exif.tobytes(), optimize=False, progressive=False)
+    img.save(buf, "JPEG", quality=60, exif=exif.tobytes(), optimize=False, progressive=False)
     return buf.getvalue()
 
 

@@ -29,6 +29,7 @@ def readme_text(town, summaries, planted, schemes, physics, seed) -> str:
                     "Physics of truth from `walkcomfort.environment`, except (not landed yet when this folder was "
                     "generated; the simulator used the documented stand-ins in `walkcomfort/demo/_interim.py`): "
                     + ", ".join(f"`{k}`" for k in interim) + ".")
+    from walkcomfort.demo.scenario import DESIGN_DAY as S_DAY
     return f"""# demo_walks — an INVENTED scenario
 
 **Everything in this folder is invented.** {T.TOWN_NAME} is not a real town, the walkers
@@ -61,6 +62,9 @@ Regenerate (byte-identical for the same seed): `walkcomfort demo --regenerate`
 - A market square (Placa del Mercat) where people gather late morning and evening.
 - `routes/` — planned routes as GeoJSON LineStrings (lon, lat, elevation) and one as a GPX
   route: {', '.join(f'`{r}`' for r in town.routes)}.
+
+- `weather/design-day.csv` — the invented weather course of {S_DAY} (10-min logger series,
+  ISO 8601 times with offset, wind at 1.1 m) for planned-route comparisons.
 
 | scheme file | what it does | trees added | canopy m² added | modified | removed |
 |---|---|---|---|---|---|
@@ -101,7 +105,7 @@ mean radiant temperature from short- and long-wave fluxes and UTCI follow the me
 `walkcomfort.environment`. {physics_line}
 Weather is an invented clear summer day: air temperature from about 21.5 °C at 06:00 to
 32.5 °C at 15:30 (shifted a little day by day), nearly constant dew point, an afternoon breeze.
-`truth/` keeps what the devices could not see: the per-session truth every 5 s,
+`truth/` keeps what the devices could not see: the per-session truth every 10 s,
 the pixel shares of sky and greenery drawn into each frame (`truth/frames.csv`), and each
 vote's latent score (`truth/votes.csv`).
 

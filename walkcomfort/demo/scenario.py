@@ -117,7 +117,7 @@ def write_session(root: Path, town: T.Town, plan: S.SessionPlan, seed: int, func
     if jump:
         pts = list(range(jump["at"], jump["at"] + jump["n"]))
         planted.append({"session": plan.id, "kind": "gps_jump", "source": "gps", "file": "gps/track.gpx",
-                        "points": pts, "times": [fixes.index[i].isoformat() for i in pts],
+                        "points": [i + 1 for i in pts], "times": [fixes.index[i].isoformat() for i in pts],
                         "offset_m": round(float(np.hypot(jump["dx_m"], jump["dy_m"])), 1)})
 
     offset = CLOCK_OFFSET["offset_s"] if plan.id == CLOCK_OFFSET["session"] else 0.0
@@ -184,7 +184,7 @@ def write_session(root: Path, town: T.Town, plan: S.SessionPlan, seed: int, func
     _io.atomic_write_text(folder / "votes" / "votes.csv", D.votes_text(votes, tz))
     _io.atomic_write_text(folder / "session.toml", manifest_text(plan, sync))
 
-    every5 = truth.iloc[::5]
+    every5 = truth.iloc[::10]
     cols = ["x_m", "y_m", "dist_m", "elev_m", "slope_pct", "sun_elev_deg", "beam_trans_frac", "svf", "t_air_c",
             "rh_pct", "wind_ms", "tmrt_c", "utci_c", "t_globe_steady_c", "laeq_db", "illum_lux", "crowd_n",
             "heat_load_c", "sun_min", "discomfort"]
@@ -208,6 +208,27 @@ def write_session(root: Path, town: T.Town, plan: S.SessionPlan, seed: int, func
     return {"planted": planted, "summary": summary, "frames": frames, "votes": vt}
 
 
+DESIGN_DAY = "2026-07-15"
+
+
+def design_day_csv(day: str = DESIGN_DAY) -> str:
+    """The invented weather course of one day as a logger series (every 10 min, 06:00–22:00 local).
+
+    Same invented course the walks were simulated under, without the random part: a
+    logger CSV with a ``time`` column in ISO 8601 with offset and canonical columns (wind at 1.1 m).
+    """
+    local = pd.date_range(f"{day} 06:00", f"{day} 22:00", freq="10min", tz=T.TIMEZONE)
+    hour = (local.hour + local.minute / 60.0).to_numpy()
+    t = S.diurnal_t_air_c(hour, S.DAY_OFFSET_K.get(day, 0.0))
+    td = 16.0 + 1.5 * np.exp(-((hour - 17.0) / 3.0) ** 2)
+    rh = 100.0 * np.exp(17.62 * td / (243.12 + td)) / np.exp(17.62 * t / (243.12 + t))
+    wind = 0.9 + 1.4 * np.exp(-((hour - 16.0) / 3.0) ** 2)
+    p = 993.0 + 1.2 * np.cos(2 * np.pi * (hour - 10.0) / 12.0)
+    df = pd.DataFrame({"time": [x.isoformat() for x in local], "t_air_c": t, "rh_pct": rh, "wind_ms": wind,
+                       "pressure_hpa": p})
+    return _fmt_csv(df, 2)
+
+
 def _clear(root: Path) -> None:
     """Remove the generated parts of an earlier scenario in ``root`` (only if it is one)."""
     if not root.exists():
@@ -217,7 +238,7 @@ def _clear(root: Path) -> None:
 
         raise InputError(f"'{root}' is not empty and holds no {MARKER}", where=root,
                          fix="give an empty or new folder, or the demo_walks folder itself")
-    for sub in ("sessions", "truth", "routes", "schemes"):
+    for sub in ("sessions", "truth", "routes", "schemes", "weather"):
         if (root / sub).is_dir():
             shutil.rmtree(root / sub)
 
@@ -253,6 +274,7 @@ def generate_demo(out_dir, seed: int = S.DEFAULT_SEED, n_walkers: int = 8) -> di
     for sid in town.schemes:
         _io.write_json(root / "schemes" / f"{sid}.geojson", T.scheme_geojson(town, sid))
 
+    _io.atomic_write_text(root / "weather" / "design-day.csv", design_day_csv())
     funcs = S._env_funcs(town)
     results = []
     from walkcomfort._progress import track
@@ -268,7 +290,8 @@ def generate_demo(out_dir, seed: int = S.DEFAULT_SEED, n_walkers: int = 8) -> di
     doc = {
         "note": ("Imperfections planted on purpose in the invented demo sessions. QA should find exactly these: "
                  "every source not listed here has no clock offset, gap, duplicate or out-of-range row. "
-                 "Lines are 1-based file lines (the header is line 1); times are UTC."),
+                 "Lines are 1-based file lines (the header is line 1); GPS points are 1-based track point numbers; "
+                 "times are UTC."),
         "imperfections": planted,
     }
     _io.write_json(root / MARKER, doc)

@@ -1,0 +1,166 @@
+"""The checks the demo scenario promises: QA finds exactly what was planted, the physics is sane."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from walkcomfort.demo import latent, simulator as S, town as T
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_walks"
+PLANTED = json.loads((DEMO / "planted.json").read_text())["imperfections"]
+SESSIONS = sorted(p.name for p in (DEMO / "sessions").iterdir() if (p / "session.toml").is_file())
+
+
+@pytest.fixture(scope="module")
+def timelines():
+    timeline = pytest.importorskip("walkcomfort.session.timeline")
+    return {sid: timeline.build_timeline(DEMO / "sessions" / sid) for sid in SESSIONS}
+
+
+def _found(tl) -> set:
+    """Every imperfection QA reports for one walk, as comparable tuples."""
+    sid = tl.qa["walk_id"]
+    out = set()
+    for dev, fit in tl.qa["clocks"].items():
+        if abs(fit["offset_s"]) > 0.5 or abs(fit["drift_ppm"]) > 0:
+            out.add((sid, "clock_offset", dev, round(fit["offset_s"])))
+    for name, e in tl.qa["sources"].items():
+        for start in e.get("gap_starts", []):
+            out.add((sid, "gap", name, start[:19]))
+    q = tl.quarantine
+    for _, r in q.iterrows():
+        reason = str(r["reason"])
+        kind = ("out_of_range" if reason.startswith("out_of_range") else
+                "duplicate" if reason.startswith("duplicate") else
+                "gps_jump" if reason == "gps_jump" else reason)
+        out.add((sid, kind, str(r["source"]), int(r["row"])))
+    return out
+
+
+def _planted() -> set:
+    out = set()
+    for p in PLANTED:
+        k = p["kind"]
+        if k == "clock_offset":
+            out.add((p["session"], k, p["device"], round(p["offset_s"])))
+        elif k == "gap":
+            # QA names a gap by the last reading before it: one second before the first missing row
+            start = pd.Timestamp(p["first_missing"]) - pd.Timedelta(seconds=1)
+            out.add((p["session"], k, p["source"], start.isoformat()[:19]))
+        elif k in ("out_of_range", "duplicate"):
+            out.update((p["session"], k, p["source"], line) for line in p["lines"])
+        elif k == "gps_jump":
+            out.update((p["session"], k, p["source"], pt) for pt in p["points"])
+    return out
+
+
+def test_every_kind_of_imperfection_is_planted():
+    kinds = {p["kind"] for p in PLANTED}
+    assert {"clock_offset", "gap", "out_of_range", "duplicate", "gps_jump"} <= kinds
+    clock = next(p for p in PLANTED if p["kind"] == "clock_offset")
+    toml = (DEMO / "sessions" / clock["session"] / "session.toml").read_text()
+    assert toml.count("[[sync]]") == clock["sync_events"] >= 1
+
+
+def test_ingest_reconciles_every_source_of_every_session(timelines):
+    assert len(timelines) >= 12
+    for sid, tl in timelines.items():
+        for name, e in tl.qa["sources"].items():
+            assert e["reconciles"], (sid, name)
+            assert e["rows_read"] == e["rows_used"] + e["rows_quarantined"], (sid, name)
+
+
+def test_qa_finds_exactly_the_planted_imperfections(timelines):
+    found = set().union(*(_found(tl) for tl in timelines.values()))
+    assert found == _planted()
+
+
+def test_the_clock_offset_is_recovered_from_the_sync_events(timelines):
+    clock = next(p for p in PLANTED if p["kind"] == "clock_offset")
+    fit = timelines[clock["session"]].qa["clocks"][clock["device"]]
+    assert fit["offset_s"] == pytest.approx(clock["offset_s"], abs=0.5)
+    assert fit["n_events"] == clock["sync_events"]
+
+
+def test_globe_inversion_round_trips_within_0_1_k():
+    tmrt = pytest.importorskip("walkcomfort.environment.tmrt")
+    truth = pd.concat([pd.read_csv(p) for p in sorted((DEMO / "truth").glob("sv-*.csv"))])
+    ta, tr, v = truth["t_air_c"].to_numpy(), truth["tmrt_c"].to_numpy(), truth["wind_ms"].to_numpy()
+    # the steady globe temperature written in the truth files (rounded to 1 mK) back through ISO 7726
+    back = np.asarray(tmrt.tmrt_from_globe(truth["t_globe_steady_c"].to_numpy(), ta, v,
+                                           diameter_m=S.GLOBE_DIAMETER_M, emissivity=S.GLOBE_EMISSIVITY))
+    assert np.max(np.abs(back - tr)) < 0.1
+    # and the inversion itself, on the unrounded values
+    tg = np.asarray(tmrt.globe_from_tmrt(tr, ta, v, diameter_m=S.GLOBE_DIAMETER_M, emissivity=S.GLOBE_EMISSIVITY))
+    again = np.asarray(tmrt.tmrt_from_globe(tg, ta, v, diameter_m=S.GLOBE_DIAMETER_M, emissivity=S.GLOBE_EMISSIVITY))
+    assert np.max(np.abs(again - tr)) < 0.1
+
+
+def test_the_globe_sensor_lags_with_its_time_constant():
+    # first-order response to a step: after one time constant 1 - 1/e of the step (from the definition)
+    y = S.first_order(np.r_[np.zeros(1), np.full(2000, 10.0)], S.TAU_GLOBE_S, start=0.0)
+    assert y[int(S.TAU_GLOBE_S)] == pytest.approx(10.0 * (1 - np.exp(-1.0)), rel=0.01)
+
+
+@pytest.mark.parametrize("sid", SESSIONS)
+def test_mean_utci_in_shade_is_below_mean_utci_in_sun_on_the_same_walk(sid):
+    t = pd.read_csv(DEMO / "truth" / f"{sid}.csv")
+    shade = t["beam_trans_frac"] < latent.SHADE_BELOW
+    if shade.sum() < 3 or (~shade).sum() < 3:
+        pytest.skip("walk without both sun and shade")
+    assert t.loc[shade, "utci_c"].mean() < t.loc[~shade, "utci_c"].mean() - 2.0
+
+
+def test_noise_is_higher_near_the_road(timelines):
+    near, far = [], []
+    for tl in timelines.values():
+        d = tl.data.dropna(subset=["lat", "lon", "laeq_db"])
+        _, y = T.from_lonlat(d["lon"].to_numpy(), d["lat"].to_numpy())
+        dist = T.road_distance_m(0.0, y)
+        near.append(d["laeq_db"].to_numpy()[dist < 20])
+        far.append(d["laeq_db"].to_numpy()[dist > 100])
+
+    def leq(levels):  # energy average, ISO 1996-1
+        return 10 * np.log10(np.mean(10 ** (np.concatenate(levels) / 10)))
+
+    assert leq(near) > leq(far) + 8.0
+
+
+def test_frames_follow_the_surroundings():
+    f = pd.read_csv(DEMO / "truth" / "frames.csv")
+    assert np.corrcoef(f["svf"], f["sky_frac"])[0, 1] > 0.8
+    shaded = ~f["sunlit"]
+    assert f.loc[shaded, "green_frac"].mean() > f.loc[~shaded, "green_frac"].mean()
+
+
+def test_votes_come_from_the_documented_process():
+    v = pd.read_csv(DEMO / "truth" / "votes.csv")
+    cls = latent.comfort_class(v["latent_noisy"].to_numpy())
+    assert (cls == v["comfort"].to_numpy()).all()
+    assert set(v["kind"]) == {"prompted", "spontaneous"}
+    counts = v["comfort"].value_counts(normalize=True)
+    assert counts.min() > 0.15          # every class is represented
+    # the votes in the session files are the same votes, with the app's labels
+    n = sum(len(pd.read_csv(DEMO / "sessions" / s / "votes" / "votes.csv")) for s in SESSIONS)
+    assert n == len(v)
+
+
+def test_shade_after_sun_feels_better_than_shade_all_along():
+    """The relief term of the invented process: same UTCI now, different history."""
+    w = latent.Walker("X", 1.3, 1.0, 0.0, 0.5, "25-34", True)
+    n = 900
+    sun_then_shade = np.r_[np.full(600, 38.0), np.full(300, 30.0)]
+    shade_all_along = np.full(n, 30.0)
+    trans_a = np.r_[np.ones(600), np.zeros(300)]
+    zeros = np.zeros(n)
+    a = latent.discomfort(w, sun_then_shade, trans_a, zeros, zeros + 50, zeros)
+    b = latent.discomfort(w, shade_all_along, np.zeros(n), zeros, zeros + 50, zeros)
+    assert a["d"][620] < b["d"][620]          # 20 s into the shade: relief
+    # while in the sun, a long stretch adds discomfort at the same UTCI
+    assert a["d"][599] > latent.discomfort(w, np.full(60, 38.0), np.ones(60), zeros[:60], zeros[:60] + 50,
+                                           zeros[:60])["d"][59]

@@ -1,0 +1,235 @@
+"""The whole chain on the invented demo town, stage by stage, as far as the stages exist.
+
+``run_demo(out_dir)`` runs ingest → frame cues → thermal environment → model fit →
+route comparison under the shade schemes → map and reports on ``demo_walks/``. Each stage
+is the stage's own public command (the same verb a user would type, called in this
+process), run only when its module is importable; a stage whose module has not landed,
+or whose input did not come out of an earlier stage, is reported as skipped with the
+reason. Outputs go to one folder per stage under ``out_dir``.
+
+The data are invented (see ``demo_walks/README.md``); the outputs are a demonstration
+of the tool, not findings and not design advice.
+"""
+
+from __future__ import annotations
+
+import importlib
+import importlib.util
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+CAUTION = ("Caution: the demo data are INVENTED (an invented town, invented walkers, invented comfort "
+           "votes); nothing here is a finding or design advice. Real heat exposure on field walks needs "
+           "water, shade breaks and stop rules: follow local occupational-health guidance, your ethics "
+           "approval, and local codes and licensed practice for any design decision.")
+
+ROUTES = ("estacio-escola", "mercat-parc")
+DEPARTURES = ("09:00", "19:00", "2h")     # local clock times on the design day, every 2 h
+
+
+@dataclass
+class StageResult:
+    name: str
+    status: str                 # "ran" | "skipped" | "failed"
+    detail: str = ""
+    outputs: list = field(default_factory=list)
+
+
+@dataclass
+class DemoRun:
+    out_dir: Path
+    demo_dir: Path
+    stages: list = field(default_factory=list)
+
+    @property
+    def ok(self) -> bool:
+        return not any(s.status == "failed" for s in self.stages)
+
+    def stage(self, name: str) -> StageResult | None:
+        return next((s for s in self.stages if s.name == name), None)
+
+
+def default_demo_dir() -> Path:
+    """``demo_walks/`` next to the package (a clone) or in the working folder."""
+    import walkcomfort
+
+    here = Path(walkcomfort.__file__).resolve().parents[1] / "demo_walks"
+    if (here / "planted.json").is_file():
+        return here
+    return Path.cwd() / "demo_walks"
+
+
+def _has_verb(verb: str) -> tuple[bool, str]:
+    from walkcomfort.cli import VERBS
+
+    module, attr, _ = VERBS[verb]
+    try:
+        if importlib.util.find_spec(module) is None:
+            return False, f"{module} has not landed yet"
+    except ModuleNotFoundError:
+        return False, f"{module} has not landed yet"
+    try:
+        mod = importlib.import_module(module)
+    except ImportError as exc:
+        return False, f"{module} cannot be imported ({exc})"
+    if not hasattr(mod, attr):
+        return False, f"{module} has no '{attr}' command yet"
+    return True, ""
+
+
+def _run_verb(verb: str, args: list[str], echo: Callable[[str], None]) -> None:
+    """Run one walkcomfort verb in this process (errors propagate as WalkcomfortError)."""
+    from walkcomfort.cli import cli
+
+    echo(f"$ walkcomfort {verb} " + " ".join(args))
+    cli.main(args=[verb, *args], prog_name="walkcomfort", standalone_mode=False, obj={"verbose": False})
+
+
+def _timelines_in(folder: Path) -> list[Path]:
+    return sorted(folder.glob("*/timeline.parquet")) if folder.is_dir() else []
+
+
+def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None = None,
+             echo: Callable[[str], None] = print, stages: tuple[str, ...] | None = None) -> DemoRun:
+    """Run the chain on the demo scenario and return what ran, what was skipped and where outputs are.
+
+    Parameters
+    ----------
+    out_dir : path
+        Folder for the outputs (one sub-folder per stage).
+    demo_dir : path, optional
+        The scenario folder (default :func:`default_demo_dir`). Generated there when absent.
+    regenerate : bool
+        Regenerate the scenario from its seed before running (byte-identical for the same seed).
+    seed : int, optional
+        Seed for regeneration (default: the scenario's own, or the simulator's default).
+    echo : callable
+        Where progress lines go.
+    stages : tuple of str, optional
+        Run only these stages (names as in the CLI verbs); default all.
+    """
+    from walkcomfort.errors import WalkcomfortError
+
+    out = Path(out_dir)
+    demo = Path(demo_dir) if demo_dir is not None else default_demo_dir()
+    run = DemoRun(out_dir=out, demo_dir=demo)
+    if regenerate or not (demo / "planted.json").is_file():
+        from walkcomfort.demo import scenario, simulator
+
+        if seed is None:
+            seed = simulator.DEFAULT_SEED
+            prov = demo / "provenance.json"
+            if prov.is_file():
+                import json
+
+                seed = int(json.loads(prov.read_text()).get("seed", seed))
+        echo(f"generating the invented scenario into {demo} (seed {seed}) ...")
+        scenario.generate_demo(demo, seed=seed)
+        run.stages.append(StageResult("generate", "ran", f"seed {seed}", [demo]))
+    sessions = demo / "sessions"
+    paths = {
+        "timelines": out / "timelines",
+        "frames": out / "frames",
+        "thermal": out / "thermal",
+        "model": out / "model",
+        "routes": out / "routes",
+        "map": out / "map",
+        "reports": out / "reports",
+    }
+
+    def want(name):
+        return stages is None or name in stages
+
+    def attempt(name, verb, needs: Callable[[], str], build: Callable[[], list[list[str]]], outputs):
+        if not want(name):
+            return
+        ok, why = _has_verb(verb)
+        if not ok:
+            run.stages.append(StageResult(name, "skipped", why))
+            echo(f"[{name}] skipped: {why}")
+            return
+        missing = needs()
+        if missing:
+            run.stages.append(StageResult(name, "skipped", missing))
+            echo(f"[{name}] skipped: {missing}")
+            return
+        try:
+            for args in build():
+                _run_verb(verb, args, echo)
+        except WalkcomfortError as exc:
+            run.stages.append(StageResult(name, "failed", exc.one_line()))
+            echo(f"[{name}] failed: {exc.one_line()}")
+            return
+        except ImportError as exc:
+            # the stage's command exists but something it builds on has not landed yet
+            why = f"needs {getattr(exc, 'name', None) or exc}, which has not landed yet"
+            run.stages.append(StageResult(name, "skipped", why))
+            echo(f"[{name}] skipped: {why}")
+            return
+        except Exception as exc:  # another engineer's stage broke: report it, go on with the rest
+            msg = " ".join(str(exc).split())
+            run.stages.append(StageResult(name, "failed", f"internal error {type(exc).__name__}: {msg}"))
+            echo(f"[{name}] failed: internal error {type(exc).__name__}: {msg}")
+            return
+        run.stages.append(StageResult(name, "ran", "", outputs()))
+        echo(f"[{name}] done -> {', '.join(str(p) for p in outputs())}")
+
+    # 1. ingest every session (QA and quarantine per walk, a campaign table)
+    attempt("ingest", "ingest", lambda: "",
+            lambda: [[str(sessions), "-o", str(paths["timelines"]), "--campaign"]],
+            lambda: [paths["timelines"]])
+    have_tl = lambda: "" if _timelines_in(paths["timelines"]) else "no ingested timelines (ingest did not run)"  # noqa: E731
+
+    # 2. camera-frame cues (sky, greenery, people) into the timelines
+    attempt("frames", "frames", have_tl,
+            lambda: [[str(paths["timelines"]), "--sessions", str(sessions), "-o", str(paths["frames"])]],
+            lambda: [paths["frames"]])
+    base_tl = paths["frames"] if _timelines_in(paths["frames"]) else paths["timelines"]
+
+    # 3. thermal environment: sun, shade and sky view from the scene, Tmrt from the globe, UTCI
+    attempt("thermal", "thermal", have_tl,
+            lambda: [[str(base_tl if _timelines_in(base_tl) else paths["timelines"]), "-o", str(paths["thermal"]),
+                      "--scene", str(demo / "scene.geojson")]],
+            lambda: [paths["thermal"]])
+    have_thermal = lambda: "" if _timelines_in(paths["thermal"]) else "no timelines with UTCI (thermal did not run)"  # noqa: E731
+
+    # 4. comfort model, validated on walkers it never saw
+    attempt("fit", "fit", have_thermal,
+            lambda: [[*[str(p) for p in _timelines_in(paths["thermal"])], "-o", str(paths["model"])]],
+            lambda: [paths["model"]])
+
+    # 5. planned routes under each shade scheme, on the invented design day
+    def compare_args():
+        model = ["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []
+        schemes = [a for p in sorted((demo / "schemes").glob("*.geojson")) for a in ("--scheme", str(p))]
+        from walkcomfort.demo.scenario import DESIGN_DAY
+        from walkcomfort.demo.town import TIMEZONE
+
+        return [[str(demo / "routes" / f"{rid}.geojson"), *schemes, "-o", str(paths["routes"] / rid),
+                 "--scene", str(demo / "scene.geojson"), "--weather", str(demo / "weather" / "design-day.csv"),
+                 "--logger-wind-height", "1.1", "--timezone", TIMEZONE,
+                 "--depart", f"{DESIGN_DAY}T{DEPARTURES[0]}..{DESIGN_DAY}T{DEPARTURES[1]}/{DEPARTURES[2]}", *model]
+                for rid in ROUTES]
+
+    attempt("compare", "compare", lambda: "", compare_args, lambda: [paths["routes"] / r for r in ROUTES])
+
+    # 6. the HTML map and the reports
+    attempt("map", "map", lambda: "" if paths["routes"].is_dir() else "no route predictions (compare did not run)",
+            lambda: [[str(paths["routes"] / ROUTES[0]), "--scene", str(demo / "scene.geojson"),
+                      "-o", str(paths["map"] / "routes.html")]],
+            lambda: [paths["map"] / "routes.html"])
+    attempt("report", "report", have_tl,
+            lambda: [[str(base_tl), "-o", str(paths["reports"])]],
+            lambda: [paths["reports"]])
+    return run
+
+
+def summary_lines(run: DemoRun) -> list[str]:
+    lines = ["", "walkcomfort demo — invented town, invented walks", f"scenario: {run.demo_dir}"]
+    for s in run.stages:
+        where = f" -> {', '.join(str(p) for p in s.outputs)}" if s.outputs else ""
+        why = f" ({s.detail})" if s.detail and s.status != "ran" else ""
+        lines.append(f"  {s.name:<9} {s.status}{why}{where}")
+    lines += ["", CAUTION]
+    return lines
