@@ -51,6 +51,12 @@ def find_gps_jumps(times: pd.DatetimeIndex, lat, lon, max_speed_ms: float = MAX_
     t = pd.DatetimeIndex(times).as_unit("ns").asi8 / 1e9
     la = np.asarray(lat, float)
     lo = np.asarray(lon, float)
+    # fast path: when no two consecutive fixes are too far apart there is no jump at all
+    dt = np.diff(t)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        v = haversine_m(la[:-1], lo[:-1], la[1:], lo[1:]) / dt
+    if not np.any((dt > 0) & (v > max_speed_ms)):
+        return jump
     good = 0
     run: list[int] = []
     i = 1

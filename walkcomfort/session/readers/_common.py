@@ -23,6 +23,7 @@ from walkcomfort.errors import InputError, where as _where
 QUARANTINE_COLUMNS = ("source", "file", "row", "reason", "raw")
 MISSING = ("", "na", "n/a", "nan", "null", "none", "-", "--", "---")
 _TZ_SUFFIX = re.compile(r"(?:[zZ]|[+-]\d\d(?::?\d\d)?)$")
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f]")  # control bytes (tab allowed): not logger text
 
 
 class Quarantine:
@@ -116,7 +117,7 @@ def read_delimited(path: Path, spec, required: list[str], optional: list[str], q
         s = line.strip()
         if not s or s.startswith("#"):
             continue
-        if any(ord(ch) < 32 and ch != "\t" for ch in line):
+        if _CONTROL.search(line):
             q.add(i + 1, "bad_line", line)
             continue
         fields = _split(line, delim)
@@ -150,8 +151,8 @@ def column(table: RawTable, name: str) -> pd.Series:
 
 
 def missing_mask(s: pd.Series, na_values=()) -> np.ndarray:
-    markers = set(MISSING) | {v.lower() for v in na_values}
-    return s.map(lambda v: v.lower() in markers).to_numpy(dtype=bool)
+    markers = list(set(MISSING) | {v.lower() for v in na_values})
+    return s.astype(str).str.lower().isin(markers).to_numpy(dtype=bool)
 
 
 def to_number(s: pd.Series, decimal: str = ".", na_values=()) -> tuple[np.ndarray, np.ndarray]:

@@ -11,6 +11,7 @@ A frame whose time cannot be read is quarantined, never given an invented time.
 from __future__ import annotations
 
 import re
+from datetime import datetime
 from pathlib import Path
 
 import numpy as np
@@ -92,8 +93,6 @@ def read_frames(path, source_spec, session_spec):
     naive = np.full(n, np.datetime64("NaT", "ns"), dtype="datetime64[ns]")
     aware = np.full(n, np.datetime64("NaT", "ns"), dtype="datetime64[ns]")
     if source_spec.time_from == "filename":
-        from datetime import datetime
-
         rx = pattern_regex(source_spec.filename_pattern)
         for i, p in enumerate(images):
             m = rx.match(p.stem)
@@ -120,8 +119,8 @@ def read_frames(path, source_spec, session_spec):
                 reason[i] = "no_exif_time"
                 continue
             try:
-                ts = pd.Timestamp(pd.to_datetime(dto, format="%Y:%m:%d %H:%M:%S.%f" if "." in dto
-                                                 else "%Y:%m:%d %H:%M:%S"))
+                ts = pd.Timestamp(datetime.strptime(dto, "%Y:%m:%d %H:%M:%S.%f" if "." in dto
+                                                    else "%Y:%m:%d %H:%M:%S"))
             except (ValueError, TypeError):
                 reason[i] = "bad_time"
                 continue
