@@ -1,0 +1,201 @@
+"""Pseudonyms, track trimming, and the shareable copy of a session (`walkcomfort share`)."""
+
+from __future__ import annotations
+
+import hashlib
+import hmac
+import shutil
+import tomllib
+
+import gpxpy
+import numpy as np
+import pytest
+from PIL import Image
+from skimage import data
+
+from walkcomfort import _io
+from walkcomfort.cli import main
+from walkcomfort.errors import InputError
+from walkcomfort.imagery import faces, privacy
+from walkcomfort.imagery.share import RECORD_NAME, share_session
+
+SECRET = b"0123456789abcdef-test-secret-not-for-real-use"
+
+
+# --- pseudonyms and distances --------------------------------------------------------------
+
+
+def test_pseudonym_is_the_documented_keyed_hash():
+    # from the definition in walkcomfort.imagery.privacy: HMAC-SHA256 (RFC 2104) over
+    # kind NUL value, first 10 hex digits upper-case, with a kind prefix
+    expect = "P-" + hmac.new(SECRET, b"participant\x00P01", hashlib.sha256).hexdigest()[:10].upper()
+    assert privacy.pseudonym("P01", SECRET) == expect
+    assert privacy.pseudonym(" P01 ", SECRET) == expect
+    assert privacy.pseudonym("P01", SECRET, "session").startswith("S-")
+    assert privacy.pseudonym("P01", SECRET, "session")[2:] != expect[2:]
+    assert privacy.pseudonym("P01", SECRET[::-1]) != expect
+    assert privacy.pseudonym("P02", SECRET) != expect
+    with pytest.raises(InputError):
+        privacy.pseudonym("P01", b"short")
+
+
+def test_load_secret(tmp_path, monkeypatch):
+    f = tmp_path / "project.secret"
+    f.write_bytes(SECRET + b"\n")
+    assert privacy.load_secret(f) == SECRET
+    monkeypatch.setenv(privacy.SECRET_ENV, SECRET.decode())
+    assert privacy.load_secret() == SECRET
+    monkeypatch.delenv(privacy.SECRET_ENV)
+    with pytest.raises(InputError, match="no pseudonym secret"):
+        privacy.load_secret()
+    f.write_text("tooshort")
+    with pytest.raises(InputError, match="at least 16"):
+        privacy.load_secret(f)
+
+
+def test_great_circle_from_definition():
+    # one degree of latitude on a sphere of radius R is R·π/180 = 111 195.08 m (R = 6 371 008.8 m)
+    assert privacy.great_circle_m(10.0, 5.0, 11.0, 5.0) == pytest.approx(111_195.08, abs=0.01)
+    # a quarter of a great circle: from the pole to the equator, R·π/2
+    assert privacy.great_circle_m(90.0, 0.0, 0.0, 40.0) == pytest.approx(privacy.EARTH_RADIUS_M * np.pi / 2)
+
+
+def test_trim_mask_removes_both_ends_and_returns_to_home():
+    # a walk 1 km north in 10 m steps, back south past the start (the front door) to
+    # 100 m beyond it, then 600 m east to the end (near the equator: degrees of lat and
+    # lon are about the same length there)
+    step = 10.0 / 111_195.08
+    lat = np.concatenate([np.arange(0, 101), np.arange(99, -11, -1), np.full(60, -10)]) * step
+    lon = np.concatenate([np.zeros(101), np.zeros(110), np.arange(1, 61)]) * step
+    drop = privacy.trim_mask(lat, lon, 200.0)
+    d_start = privacy.great_circle_m(lat[0], lon[0], lat, lon)
+    d_end = privacy.great_circle_m(lat[-1], lon[-1], lat, lon)
+    np.testing.assert_array_equal(drop, (d_start <= 200.0) | (d_end <= 200.0))
+    assert drop[:20].all() and not drop[25:180].any()      # start area on the way out
+    assert drop[191:211].all()                              # passing the front door again
+    assert drop[-15:].all() and not drop[-35:-25].any()     # the end area
+    # NaN positions are removed too; radius 0 removes only the points *at* the start or
+    # the end: the first, the last, the return through the start (index 200), the NaN
+    lat2 = lat.copy()
+    lat2[50] = np.nan
+    assert np.flatnonzero(privacy.trim_mask(lat2, lon, 0.0)).tolist() == [0, 50, 200, len(lat) - 1]
+    with pytest.raises(InputError):
+        privacy.trim_mask(lat, lon, -5)
+
+
+def test_toml_round_trip(repo_root):
+    manifest = repo_root / "tests" / "fixtures" / "sessions" / "walk_ok" / "session.toml"
+    d = tomllib.loads(manifest.read_text(encoding="utf-8"))
+    assert tomllib.loads(privacy.to_toml(d)) == d
+    tricky = {"a": {"b c": "x\"y\n", "n": float("inf"), "l": [1, 2.5, "z"]}, "arr": [{"k": 1, "sub": {"v": True}}]}
+    assert tomllib.loads(privacy.to_toml(tricky)) == tricky
+
+
+# --- the shareable copy ------------------------------------------------------------------------
+
+
+def _tree_digests(folder):
+    return {p.relative_to(folder).as_posix(): _io.file_digest(p) for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+@pytest.fixture
+def session_with_face(tmp_path, repo_root):
+    """The fixture walk with one frame replaced by a photograph of a face, and a personal note."""
+    src = repo_root / "tests" / "fixtures" / "sessions" / "walk_ok"
+    dst = tmp_path / "raw" / "walk"
+    shutil.copytree(src, dst)
+    frame = dst / "camera" / "IMG_0005.jpg"
+    with Image.open(frame) as im:
+        exif = im.getexif()
+        exif_bytes = exif.tobytes()
+    ifd = exif.get_ifd(0x8769)
+    ifd[0x927C] = b"maker-note-with-serial-1234"   # a maker note, which must not survive
+    exif_bytes = exif.tobytes()
+    Image.fromarray(data.astronaut()).save(frame, quality=92, exif=exif_bytes)
+    votes = dst / "votes.csv"
+    votes.write_text(votes.read_text(encoding="utf-8").replace("shady start", "met my neighbour Ana"),
+                     encoding="utf-8")
+    return dst
+
+
+def test_share_writes_a_clean_copy_that_passes_check(tmp_path, session_with_face, capsys):
+    raw_before = _tree_digests(session_with_face)
+    out = tmp_path / "shared"
+    folder, record = share_session(session_with_face, out, SECRET, radius_m=50.0)
+    # the raw session is untouched
+    assert _tree_digests(session_with_face) == raw_before
+    # the copy passes the session stage's own check
+    capsys.readouterr()
+    assert main(["check", str(folder)]) == 0
+    assert "check passed" in capsys.readouterr().out
+
+    manifest = tomllib.loads((folder / "session.toml").read_text(encoding="utf-8"))
+    assert manifest["session"]["participant"] == privacy.pseudonym("P01", SECRET)
+    assert manifest["session"]["id"] == folder.name == privacy.pseudonym("fixture-p01-am", SECRET, "session")
+    assert all("note" not in ev for ev in manifest.get("sync", []))
+
+    # the track ends are trimmed: no point within 50 m of the raw start or end
+    raw = gpxpy.parse((session_with_face / "gps" / "track.gpx").read_text(encoding="utf-8"))
+    raw_pts = [p for t in raw.tracks for s in t.segments for p in s.points if p.time is not None]
+    shared = gpxpy.parse((folder / "gps" / "track.gpx").read_text(encoding="utf-8"))
+    pts = [p for t in shared.tracks for s in t.segments for p in s.points]
+    lat = np.array([p.latitude for p in pts])
+    lon = np.array([p.longitude for p in pts])
+    for end in (raw_pts[0], raw_pts[-1]):
+        assert privacy.great_circle_m(end.latitude, end.longitude, lat, lon).min() > 50.0
+    entry = record["files"]["gps/track.gpx"]
+    assert entry["points_kept"] == len(pts)
+    assert entry["points_kept"] + entry["points_removed_near_ends"] + entry["points_removed_without_time"] == \
+        entry["points_read"]
+    assert shared.creator == "walkcomfort share" and not shared.waypoints
+
+    # the face is blurred, the frame keeps only its time tags
+    fr = record["frames"]
+    assert fr["frames_with_faces"] == {"camera/IMG_0005.jpg": 1}
+    shared_frame = folder / "camera" / "IMG_0005.jpg"
+    img = np.asarray(Image.open(shared_frame).convert("RGB"))
+    assert len(faces.detect_faces(img)) == 0
+    with Image.open(shared_frame) as im:
+        exif = im.getexif()
+        ifd = exif.get_ifd(0x8769)
+    assert set(ifd) <= {0x9003, 0x9291, 0x9011} and 0x9003 in ifd
+    assert set(exif) <= {0x8769}
+    # frames near the ends are not shared; the record names them; the counts add up
+    assert fr["copied"] + len(fr["removed_near_track_ends"]) + len(fr["removed_position_unknown"]) + \
+        fr["not_copied_untimed_or_unreadable"] == fr["frames_read"]
+    for rel in fr["removed_near_track_ends"]:
+        assert not (folder / rel).exists()
+    # notes are emptied, the rest of the votes kept
+    votes = (folder / "votes.csv").read_text(encoding="utf-8")
+    assert "Ana" not in votes and "neighbour" not in votes
+    assert record["files"]["votes.csv"]["notes_emptied"] == 2
+    # non-frame files of the camera folder are not copied
+    assert not (folder / "camera" / "README.txt").exists() and record["not_copied"]["files"] >= 1
+    # the record lists the digests of what was written
+    assert set(record["outputs"]) == {p for p in _tree_digests(folder) if p != RECORD_NAME}
+    assert (folder / RECORD_NAME).is_file()
+
+
+def test_share_refuses_to_write_inside_the_session_or_over_a_copy(tmp_path, session_with_face):
+    with pytest.raises(InputError, match="inside the session folder"):
+        share_session(session_with_face, session_with_face / "shared", SECRET)
+    folder, _ = share_session(session_with_face, tmp_path / "out", SECRET, radius_m=50.0, blur_faces=False)
+    with pytest.raises(InputError, match="already exists"):
+        share_session(session_with_face, tmp_path / "out", SECRET, radius_m=50.0, blur_faces=False)
+    with pytest.raises(InputError, match="every point"):
+        share_session(session_with_face, tmp_path / "out2", SECRET, radius_m=100_000.0, blur_faces=False)
+    assert not any(p.name.endswith(".partial") for p in (tmp_path / "out2").iterdir())
+
+
+def test_share_command(tmp_path, session_with_face, capsys):
+    secret = tmp_path / "project.secret"
+    secret.write_bytes(SECRET)
+    out = tmp_path / "shared"
+    code = main(["share", str(session_with_face), "-o", str(out), "--secret-file", str(secret),
+                 "--trim-radius", "50", "--no-blur"])
+    assert code == 0
+    text = capsys.readouterr().out
+    assert "track points trimmed" in text and "ethics approval" in text
+    code = main(["share", str(session_with_face), "-o", str(tmp_path / "x")])
+    err = capsys.readouterr().err
+    assert code == 2 and err.count("\n") == 1 and "secret" in err
