@@ -1,0 +1,68 @@
+"""`walkcomfort frames`: cues for a session, onto the ingested timeline, into the model's features."""
+
+from __future__ import annotations
+
+import shutil
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from walkcomfort import columns as C
+from walkcomfort.cli import main
+from walkcomfort.imagery.commands import FRAME_CUES_FILE, FRAME_QUARANTINE_FILE
+
+
+@pytest.fixture
+def session(tmp_path, repo_root):
+    dst = tmp_path / "walk"
+    shutil.copytree(repo_root / "tests" / "fixtures" / "sessions" / "walk_ok", dst)
+    return dst
+
+
+def test_frames_after_ingest_adds_cues_that_reach_the_features(tmp_path, session, capsys):
+    from walkcomfort.model.features import build_features
+    from walkcomfort.session.timeline import read_timeline
+
+    out = tmp_path / "out"
+    assert main(["ingest", str(session), "-o", str(out)]) == 0
+    assert main(["frames", str(session), "-o", str(out), "--workers", "1"]) == 0
+    text = capsys.readouterr().out
+    assert "10 frames = 10 analysed + 0 quarantined" in text and "added frame cues" in text
+    walk = out / "fixture-p01-am"
+    cues = pd.read_parquet(walk / FRAME_CUES_FILE)
+    assert len(cues) == 10 and cues.index.tz is not None
+    assert (walk / FRAME_QUARANTINE_FILE).is_file()
+
+    tl = read_timeline(walk)
+    assert tl.attrs["session"]["walk_id"] == "fixture-p01-am"
+    on_frame = tl[C.FRAME_PATH].notna()
+    assert on_frame.sum() == 10
+    np.testing.assert_allclose(tl.loc[on_frame, C.SKY_FRAC].to_numpy(),
+                               cues.set_index(C.FRAME_PATH).loc[tl.loc[on_frame, C.FRAME_PATH], C.SKY_FRAC].to_numpy())
+    assert tl[C.FRAME_AGE_S].max() <= 15.0
+    feats = build_features(tl)
+    assert feats["sky_frac_1min"].notna().any()
+
+    # a second run reads the cache and refuses to overwrite the columns silently
+    assert main(["frames", str(session), "-o", str(out), "--workers", "1"]) == 2
+    captured = capsys.readouterr()
+    assert "10 from cache, 0 computed" in captured.out and "--replace" in captured.err
+    assert main(["frames", str(session), "-o", str(out), "--workers", "1", "--replace", "--hold", "5"]) == 0
+    assert read_timeline(walk)[C.FRAME_AGE_S].max() <= 5.0
+
+
+def test_frames_with_labels_and_without_timeline(tmp_path, session, capsys):
+    (session / "frame_labels.csv").write_text("frame,sky,vegetation,people\nIMG_0003.jpg,0.1,0.6,4\n"
+                                              "IMG_0099.jpg,0.1,0.1,0\n", encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["frames", str(session), "-o", str(out), "--no-people", "--no-cache",
+                 "--labels", "frame_labels.csv"]) == 0
+    text = capsys.readouterr().out
+    assert "labels: 2 rows = 1 used + 1 quarantined" in text and "no timeline there yet" in text
+    cues = pd.read_parquet(out / "fixture-p01-am" / FRAME_CUES_FILE).set_index(C.FRAME_PATH)
+    assert cues.loc["camera/IMG_0003.jpg", C.GREEN_FRAC] == 0.6
+    assert cues.loc["camera/IMG_0003.jpg", C.PEOPLE_N] == 4
+    q = pd.read_csv(out / "fixture-p01-am" / FRAME_QUARANTINE_FILE)
+    assert q["reason"].str.contains("not in the session").any()
+    assert not (out / ".cache").exists()
