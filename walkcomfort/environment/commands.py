@@ -1,0 +1,137 @@
+"""``walkcomfort thermal``: add sun, shade, sky view, Tmrt and UTCI to ingested timelines."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from walkcomfort.errors import InputError
+
+TIMELINE_FILE = "timeline.parquet"
+ENVIRONMENT_FILE = "environment.json"
+#: Files of a walk folder copied along when the output goes to another folder.
+COMPANIONS = ("qa.json", "quarantine.csv")
+
+
+def find_timelines(paths) -> list[Path]:
+    """``timeline.parquet`` files: given directly, in a walk folder, or in the walk folders of an output folder."""
+    found: list[Path] = []
+    for p in map(Path, paths):
+        if p.is_file() and p.suffix == ".parquet":
+            found.append(p)
+        elif (p / TIMELINE_FILE).is_file():
+            found.append(p / TIMELINE_FILE)
+        elif p.is_dir():
+            subs = sorted(d / TIMELINE_FILE for d in p.iterdir() if (d / TIMELINE_FILE).is_file())
+            if not subs:
+                raise InputError(f"no {TIMELINE_FILE} in this folder or its walk folders", where=p,
+                                 fix="run `walkcomfort ingest SESSION_DIR -o OUT` and give OUT or OUT/<walk_id>")
+            found.extend(subs)
+        else:
+            raise InputError("does not exist", where=p, fix="give an output folder of `walkcomfort ingest`")
+    return found
+
+
+def _read(path: Path):
+    """A timeline with its attrs (session.timeline.read_timeline), plus the raw Parquet metadata."""
+    from walkcomfort import _io
+    from walkcomfort.session.timeline import read_timeline
+
+    return read_timeline(path), _io.read_parquet_metadata(path)
+
+
+def _irradiance_table(path: Path):
+    import pandas as pd
+
+    from walkcomfort import columns as C
+
+    try:
+        tab = pd.read_csv(path)
+    except (OSError, pd.errors.ParserError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read the irradiance table ({exc})", where=path,
+                         fix="give a CSV with columns time, ghi_wm2 [, dni_wm2, dhi_wm2]") from None
+    if "time" not in tab.columns or C.GHI_WM2 not in tab.columns:
+        raise InputError(f"irradiance CSV needs columns 'time' and '{C.GHI_WM2}' (has {list(tab.columns)})",
+                         where=path, fix="rename the columns; times in ISO 8601 with offset")
+    t = pd.to_datetime(tab["time"], errors="coerce", utc=False, format="ISO8601")
+    bad = t.isna()
+    if bad.any():
+        row = int(bad.to_numpy().argmax())
+        raise InputError(f"time {tab['time'].iloc[row]!r} cannot be read", where=f"{path} row {row + 2}",
+                         fix="write ISO 8601 times with a UTC offset, e.g. 2026-07-14T10:00:00+02:00")
+    idx = pd.DatetimeIndex(t)
+    if idx.tz is None:
+        raise InputError("irradiance times have no UTC offset", where=path,
+                         fix="write times with an offset (…+02:00) or Z")
+    tab.index = idx.tz_convert("UTC")
+    return tab.drop(columns=["time"])
+
+
+@click.command()
+@click.argument("timelines", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option("--scene", "scene_path", type=click.Path(path_type=Path), default=None,
+              help="Scene GeoJSON (buildings, trees, canopies) for shade and sky view; none = open ground.")
+@click.option("--out", "-o", "out_dir", type=click.Path(path_type=Path), default=None,
+              help="Output folder (OUT/<walk_id>/timeline.parquet); default: replace each timeline in place.")
+@click.option("--irradiance", "irradiance", default="clearsky", show_default=True,
+              help="'clearsky' or a CSV of measured irradiance (time, ghi_wm2 [, dni_wm2, dhi_wm2]).")
+@click.option("--body-height", "z_m", type=float, default=1.1, show_default=True,
+              help="Height of the point that must see sun and sky [m].")
+@click.option("--sectors", "n_sectors", type=int, default=36, show_default=True,
+              help="Azimuth sectors for the sky view factor.")
+@click.option("--no-globe", is_flag=True, help="Ignore the globe thermometer; Tmrt from fluxes everywhere.")
+def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe):
+    """Add sun, shade, sky view, Tmrt and UTCI to ingested timelines (TIMELINES: walk or output folders).
+
+    Tmrt comes from the globe thermometer (ISO 7726) where it was logged, otherwise from
+    short- and long-wave fluxes. UTCI is an exposure index, not heat-health advice:
+    follow local occupational-health guidance during field work.
+    """
+    import pandas as pd
+
+    from walkcomfort import _io
+    from walkcomfort import columns as C
+    from walkcomfort.environment.pipeline import ENV_COLUMNS, add_environment
+    from walkcomfort.environment.scene import load_scene
+
+    files = find_timelines(timelines)
+    scene = load_scene(scene_path) if scene_path is not None else None
+    irr = "clearsky" if irradiance == "clearsky" else _irradiance_table(Path(irradiance))
+    inputs_extra = [scene_path] if scene_path is not None else []
+    if not isinstance(irr, str):
+        inputs_extra.append(Path(irradiance))
+    for path in files:
+        df, meta = _read(path)
+        walk_id = str(df.attrs["session"].get("walk_id") or path.parent.name)
+        again = [c for c in ENV_COLUMNS if c in df.columns]
+        if again:
+            click.echo(f"{walk_id}: replacing environment columns from an earlier run ({len(again)} columns)")
+        env = add_environment(df, scene=scene, irradiance=irr, use_globe=not no_globe, z_m=z_m,
+                              n_sectors=n_sectors, overwrite=bool(again), warn=False)
+        target_dir = path.parent if out_dir is None else Path(out_dir) / walk_id
+        parameters = {"scene": None if scene_path is None else Path(scene_path).name,
+                      "irradiance": irradiance if isinstance(irr, str) else Path(irradiance).name,
+                      "body_height_m": z_m, "n_sectors": n_sectors, "use_globe": not no_globe}
+        prov = _io.provenance(inputs=[path, *inputs_extra], parameters=parameters)
+        new_meta = dict(meta)
+        new_meta["session"] = env.attrs["session"]
+        new_meta["environment"] = env.attrs["environment"]
+        new_meta["provenance_environment"] = prov
+        data = env.copy()
+        data.attrs = {}
+        # tmrt_source/utci_band hold None where unknown; Parquet keeps them as strings + nulls
+        for col in (C.TMRT_SOURCE, C.UTCI_BAND):
+            data[col] = pd.array(data[col], dtype="string")
+        if out_dir is not None:
+            for name in COMPANIONS:
+                src = path.parent / name
+                if src.is_file():
+                    _io.atomic_write_bytes(target_dir / name, src.read_bytes())
+        _io.write_parquet(target_dir / TIMELINE_FILE, data, new_meta)
+        _io.write_json(target_dir / ENVIRONMENT_FILE, {"walk_id": walk_id, "environment": env.attrs["environment"],
+                                                       "provenance": prov})
+        q = env.attrs["environment"]["qa_counts"]
+        click.echo(f"{walk_id}: {q['rows']} rows; Tmrt from globe {q['tmrt_globe']}, from fluxes {q['tmrt_fluxes']}, "
+                   f"missing {q['tmrt_missing']}; UTCI out of range {q['out_of_range']}, wind clamped to 0.5 m/s "
+                   f"{q['wind_clamped']} -> {target_dir / TIMELINE_FILE}")
