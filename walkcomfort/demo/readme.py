@@ -24,11 +24,8 @@ def readme_text(town, summaries, planted, schemes, physics, seed) -> str:
     scheme_rows = "\n".join(
         f"| `schemes/{sid}.geojson` | {v['label']} | {v['trees_added']} | {v['canopy_m2_added']:.0f} | "
         f"{v['modified']} | {v['removed']} |" for sid, v in schemes.items())
-    interim = sorted(k for k, v in physics.items() if v != "environment")
-    physics_line = ("All physics of truth came from `walkcomfort.environment`." if not interim else
-                    "Physics of truth from `walkcomfort.environment`, except (not landed yet when this folder was "
-                    "generated; the simulator used the documented stand-ins in `walkcomfort/demo/_interim.py`): "
-                    + ", ".join(f"`{k}`" for k in interim) + ".")
+    physics_line = ("Every one of these quantities comes from `walkcomfort.environment`: "
+                    + ", ".join(f"`{v.rsplit('.', 1)[1]}`" for v in physics.values()) + ".")
     from walkcomfort.demo.scenario import DESIGN_DAY as S_DAY
     return f"""# demo_walks — an INVENTED scenario
 

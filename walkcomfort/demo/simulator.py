@@ -26,7 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from walkcomfort.demo import _interim, latent, town as T
+from walkcomfort.demo import latent, town as T
 
 DEFAULT_SEED = 20260714
 DT_S = 1.0
@@ -195,75 +195,65 @@ def walk_kinematics(walk: T.Walk, walker: latent.Walker, rng):
 # --- physics of truth ------------------------------------------------------------------------
 
 def scene_of(town: T.Town):
-    """The town's scene as a :class:`walkcomfort.environment.scene.Scene` (or None if not landed)."""
-    try:
-        from walkcomfort.environment.scene import Scene
-    except ImportError:
-        return None
+    """The town's scene as a :class:`walkcomfort.environment.scene.Scene`."""
+    from walkcomfort.environment.scene import Scene
+
     return Scene.from_geojson(T.scene_geojson(town), source="demo town")
 
 
-def _env_funcs(town: T.Town | None = None):
-    """The environment functions (DEVELOPERS.md contract), stand-ins where not landed yet.
+#: The environment functions the truth comes from (DEVELOPERS.md contract), recorded in provenance.json.
+PHYSICS = {
+    "solar_position": "walkcomfort.environment.sun.solar_position",
+    "clearsky_irradiance": "walkcomfort.environment.sun.clearsky_irradiance",
+    "beam_transmittance": "walkcomfort.environment.shade.beam_transmittance",
+    "sky_view_factor": "walkcomfort.environment.skyview.sky_view_factor",
+    "tmrt_from_fluxes": "walkcomfort.environment.tmrt.tmrt_outdoor",
+    "globe_from_tmrt": "walkcomfort.environment.tmrt.globe_from_tmrt",
+    "utci_from_conditions": "walkcomfort.environment.utci.utci_from_conditions",
+    "wind_at_10m": "walkcomfort.environment.utci.wind_at_10m",
+}
 
-    Shade and sky view take local town metres; they are projected into the scene's frame here.
+
+def _env_funcs(town: T.Town | None = None):
+    """The environment functions bound to the town's scene, taking local town metres.
+
+    Positions are projected to WGS84 and into the scene's frame (UTM of the site), so the
+    shade and sky-view kernels see the walker exactly where the GPX says (without the noise).
     """
-    src = _interim.physics_sources()
+    from walkcomfort.environment.shade import beam_transmittance
+    from walkcomfort.environment.skyview import sky_view_factor
+    from walkcomfort.environment.sun import clearsky_irradiance, solar_position
+    from walkcomfort.environment.tmrt import globe_from_tmrt, tmrt_outdoor
+    from walkcomfort.environment.utci import utci_from_conditions, wind_at_10m
+
     town = town or T.build_town(DEFAULT_SEED)
-    f = {}
-    scene = scene_of(town) if src["beam_transmittance"] == "environment" or src["sky_view_factor"] == "environment" else None
+    scene = scene_of(town)
 
     def to_scene(x, y):
         lon, lat = T.to_lonlat(x, y)
         return scene.project(np.asarray(lon, float), np.asarray(lat, float))
 
-    if src["beam_transmittance"] == "environment":
-        from walkcomfort.environment.shade import beam_transmittance
+    def beam(x, y, el, az):
+        sx, sy = to_scene(x, y)
+        return np.asarray(beam_transmittance(scene, sx, sy, el, az, z_m=BODY_HEIGHT_M, month=7), float)
 
-        def beam(x, y, el, az):
-            sx, sy = to_scene(x, y)
-            return np.asarray(beam_transmittance(scene, sx, sy, el, az, z_m=BODY_HEIGHT_M, month=7), float)
-        f["beam_transmittance"] = beam
-    else:
-        f["beam_transmittance"] = lambda x, y, el, az: _interim.beam_transmittance(town, x, y, el, az, z_m=BODY_HEIGHT_M)
-    if src["sky_view_factor"] == "environment":
-        from walkcomfort.environment.skyview import sky_view_factor
+    def svf(x, y):
+        sx, sy = to_scene(x, y)
+        out = sky_view_factor(scene, sx, sy, z_m=BODY_HEIGHT_M)
+        return out["svf"].to_numpy(float), out["sky_frac_crowns"].to_numpy(float)
 
-        def svf(x, y):
-            sx, sy = to_scene(x, y)
-            out = sky_view_factor(scene, sx, sy, z_m=BODY_HEIGHT_M)
-            return out["svf"].to_numpy(float), out["sky_frac_crowns"].to_numpy(float)
-        f["sky_view_factor"] = svf
-    else:
-        f["sky_view_factor"] = lambda x, y: _interim.sky_view_factor(town, x, y, z_m=BODY_HEIGHT_M)
-    if src["tmrt_from_fluxes"] == "environment":
-        from walkcomfort.environment.tmrt import tmrt_outdoor
-        f["tmrt_from_fluxes"] = lambda *a: np.asarray(tmrt_outdoor(*a), float)
-    else:
-        f["tmrt_from_fluxes"] = lambda el, dni, dhi, beam, svf, ta, rh: _interim.tmrt_from_fluxes(
-            ta, rh, el, dni, dhi, beam, svf)
-    if src["solar_position"] == "environment":
-        from walkcomfort.environment.sun import solar_position
-        f["solar_position"] = lambda times, lat, lon, elev: solar_position(times, lat, lon, elev_m=elev)
-    else:
-        f["solar_position"] = _interim.solar_position
-    if src["clearsky_irradiance"] == "environment":
-        from walkcomfort.environment.sun import clearsky_irradiance
-        f["clearsky_irradiance"] = lambda times, lat, lon, elev: clearsky_irradiance(times, lat, lon, elev_m=elev)
-    else:
-        f["clearsky_irradiance"] = _interim.clearsky_irradiance
-    from walkcomfort.environment.utci import utci_from_conditions, wind_at_10m  # landed first: no stand-in
-    if True:
-        f["utci"] = lambda ta, tr, v10, rh: utci_from_conditions(ta, tr, v10, rh, warn=False)["utci_c"].to_numpy()
-        f["wind10"] = lambda v, z: np.asarray(wind_at_10m(v, z), float)
-    if src["globe_from_tmrt"] == "environment":
-        from walkcomfort.environment.tmrt import globe_from_tmrt
-        f["globe_from_tmrt"] = lambda tr, ta, v: np.asarray(globe_from_tmrt(tr, ta, v, diameter_m=GLOBE_DIAMETER_M,
-                                                                           emissivity=GLOBE_EMISSIVITY), float)
-    else:
-        f["globe_from_tmrt"] = lambda tr, ta, v: _interim.globe_from_tmrt(tr, ta, v, GLOBE_DIAMETER_M, GLOBE_EMISSIVITY)
-    f["sources"] = src
-    return f
+    return {
+        "beam_transmittance": beam,
+        "sky_view_factor": svf,
+        "tmrt_from_fluxes": lambda *a: np.asarray(tmrt_outdoor(*a), float),
+        "solar_position": lambda times, lat, lon, elev: solar_position(times, lat, lon, elev_m=elev),
+        "clearsky_irradiance": lambda times, lat, lon, elev: clearsky_irradiance(times, lat, lon, elev_m=elev),
+        "utci": lambda ta, tr, v10, rh: utci_from_conditions(ta, tr, v10, rh, warn=False)["utci_c"].to_numpy(),
+        "wind10": lambda v, z: np.asarray(wind_at_10m(v, z), float),
+        "globe_from_tmrt": lambda tr, ta, v: np.asarray(globe_from_tmrt(tr, ta, v, diameter_m=GLOBE_DIAMETER_M,
+                                                                       emissivity=GLOBE_EMISSIVITY), float),
+        "sources": dict(PHYSICS),
+    }
 
 
 def environment_truth(town: T.Town, kin: dict, times_utc: pd.DatetimeIndex, day: str, rng, funcs=None):
