@@ -173,3 +173,16 @@ def test_sync_from_a_frame(tmp_path):
     assert tl.qa["clocks"]["cam1"]["offset_s"] == pytest.approx(-5.0)
     assert tl.data.loc["2026-07-14T08:00:35Z", C.FRAME_PATH] == "camera/IMG_0001.jpg"
     assert tl.qa["summary"]["clock_corrections"] == 2
+
+
+def test_lag_error_is_tau_times_rate():
+    # a first-order sensor with τ = 30 s following a ramp of 0.02 K/s trails it by τ·rate = 0.6 K
+    # once settled (from the definition of the first-order lag)
+    from walkcomfort.session.lag import lag_error
+
+    t = pd.date_range("2026-07-14", periods=600, freq="1s", tz="UTC")
+    true = 20 + 0.02 * np.arange(600)
+    read = first_order_response(true, 1.0, 30.0)
+    err = lag_error(t, read, 30.0)
+    assert np.median(err[300:-20]) == pytest.approx(0.6, abs=0.01)
+    assert np.median((true - read)[300:]) == pytest.approx(0.6, abs=0.02)

@@ -166,3 +166,33 @@ def settling_mask(sample_times: pd.DatetimeIndex, step_times: pd.DatetimeIndex, 
     for s0 in starts:
         mask |= (steps >= s0) & (steps < s0 + span)
     return mask
+
+
+def lag_error(sample_times: pd.DatetimeIndex, readings, tau_s: float, smooth_s: float | None = None) -> np.ndarray:
+    """Estimated lag error τ·|dT̃/dt| of each reading [K] (see :func:`unsettled_by_rate`)."""
+    y = np.asarray(readings, dtype=float)
+    if y.size < 3 or tau_s is None or tau_s <= 0:
+        return np.zeros(y.size)
+    t = pd.DatetimeIndex(sample_times).as_unit("ns").asi8.astype(np.float64) / 1e9
+    med = float(np.median(np.diff(t)))
+    span = 0.25 * tau_s if smooth_s is None else smooth_s
+    ys = moving_average(y, max(3, int(round(span / med))) if med > 0 else 3)
+    return np.abs(tau_s * np.gradient(ys, t))
+
+
+def unsettled_by_rate(sample_times: pd.DatetimeIndex, readings, tau_s: float, tol_k: float = 1.0,
+                      smooth_s: float | None = None) -> np.ndarray:
+    """Readings still catching up with a change (e.g. a change of place from shade to sun).
+
+    For a first-order sensor the reading lags the true value by exactly
+    T − T̃ = τ·dT̃/dt (from the definition dT̃/dt = (T − T̃)/τ), so a reading is taken as
+    not settled when τ·|dT̃/dt| exceeds ``tol_k``. The rate is taken on readings
+    smoothed over ``smooth_s`` (default τ/4, at least 3 samples) so that noise alone
+    does not trip it.
+
+    Returns
+    -------
+    ndarray of bool, one per reading.
+    """
+    with np.errstate(invalid="ignore"):
+        return lag_error(sample_times, readings, tau_s, smooth_s) > tol_k

@@ -36,7 +36,7 @@ from walkcomfort.columns import (DIST_M, ELEV_M, FRAME_PATH, HEADING_DEG, HR_BPM
 from walkcomfort.errors import InputError
 from walkcomfort.session import qa as _qa
 from walkcomfort.session.clocks import WARN_DRIFT_PPM, fit_clocks
-from walkcomfort.session.lag import correct_lag, moving_average, settling_mask
+from walkcomfort.session.lag import correct_lag, lag_error, moving_average, settling_mask
 from walkcomfort.session.manifest import SessionSpec, load_manifest
 from walkcomfort.session.readers import read_source
 from walkcomfort.session.readers._common import quarantine_frame
@@ -83,6 +83,8 @@ class Timeline:
         }
         if csv:
             paths["timeline_csv"] = _io.write_csv(folder / "timeline.csv", data)
+        elif (folder / "timeline.csv").is_file():
+            (folder / "timeline.csv").unlink()  # a CSV of an earlier run would no longer match
         return paths
 
 
@@ -212,7 +214,8 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
     _track(out, step_s, elev_smooth_s, track_smooth_s)
     gps_gap = gapflag
     src_extra[gps.name] = {"gps_jumps": int(jumps.sum()), **_gap_extra(g.index, mg, steps, gapflag),
-                           **{k: metas[gps.name].get(k) for k in ("gpx_version", "extensions", "n_segments")
+                           **{k: metas[gps.name].get(k) for k in ("gpx_version", "extensions", "n_segments",
+                                                                    "waypoints_ignored", "routes_ignored")
                               if k in metas[gps.name]}}
 
     # 5. continuous sensors -------------------------------------------------------------------
@@ -239,9 +242,18 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
                         warnings.append(f"{s.name}: no {key} in [sensors]; {col} not lag-corrected")
             taus = [spec.sensors.get(k) for k in ("tau_air_s", "tau_globe_s")]
             settle = np.zeros(len(steps), dtype=bool)
+            lag_info = {}
             for col, tau in zip((T_AIR_C, T_GLOBE_C), taus):
                 if col in df.columns and tau:
-                    settle |= settling_mask(df.index[df[col].notna()], steps, tau, settle_n_tau, mg)
+                    ok = df[col].notna().to_numpy()
+                    settle |= settling_mask(df.index[ok], steps, tau, settle_n_tau, mg)
+                    raw = frames[s.name]          # the readings as logged (before any lag correction)
+                    okr = raw[col].notna().to_numpy()
+                    err = lag_error(raw.index[okr], raw[col].to_numpy(float)[okr], tau)
+                    if err.size:
+                        lag_info[col] = {"tau_s": float(tau), "lag_error_p95_k": round(float(np.percentile(err, 95)), 4),
+                                         "lag_error_over_1k_frac": round(float(np.mean(err > 1.0)), 4)}
+            metas[s.name]["lag"] = lag_info
             if not any(taus):
                 warnings.append(f"{s.name}: no tau_air_s / tau_globe_s in [sensors]; settling not assessed")
             flags[QA_SETTLING] = settle
@@ -252,6 +264,8 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
             out[c] = vals[:, j]
         flags[f"{QA_GAP}_{s.name}"] = gapflag
         src_extra[s.name] = _gap_extra(df.index, mg, steps, gapflag)
+        if "lag" in metas[s.name]:
+            src_extra[s.name]["lag"] = metas[s.name]["lag"]
 
     # 6. events ---------------------------------------------------------------------------------
     for kind, tol, colmap in (("votes", vote_tol, (VOTE_COMFORT, VOTE_TSV, VOTE_NOTE, VOTE_KIND)),

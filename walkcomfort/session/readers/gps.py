@@ -145,4 +145,5 @@ def read_gpx(path, source_spec, session_spec):
     seg_starts = sorted({times[i].isoformat() for i in seg_first[1:] if i < n and not pd.isna(times[i])})
     return df, assemble_metadata("gps", source_spec, meta, q, gpx_version=gpx.version, creator=gpx.creator,
                                  extensions=sorted(ext_seen), n_tracks=len(gpx.tracks), n_segments=n_seg,
-                                 segment_starts=seg_starts, waypoints_ignored=len(gpx.waypoints))
+                                 segment_starts=seg_starts, waypoints_ignored=len(gpx.waypoints),
+                                 routes_ignored=len(gpx.routes))
