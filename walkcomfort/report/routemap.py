@@ -554,8 +554,9 @@ def _walk_payload(w: pd.DataFrame, i: int, default_tz: str, decimals: int, simpl
     session = (w.attrs or {}).get("session") or {}
     tz_name = str(session.get("timezone") or default_tz)
     zone = _zone(tz_name)
-    walk_id = _text(w[C.WALK_ID].dropna().iloc[0]) if C.WALK_ID in w.columns and w[C.WALK_ID].notna().any() \
-        else f"walk {i + 1}"
+    walk_id = _text(session.get("walk_id")) or (
+        _text(w[C.WALK_ID].dropna().iloc[0]) if C.WALK_ID in w.columns and w[C.WALK_ID].notna().any()
+        else f"walk {i + 1}")
     ok = np.isfinite(w[C.LAT].to_numpy(float)) & np.isfinite(w[C.LON].to_numpy(float))
     track = w[ok]
     frame = _frame(track[C.LON].mean(), track[C.LAT].mean())
@@ -824,8 +825,7 @@ def _unique(label: str, seen: set) -> str:
 def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: Iterable = (),
               walks: Iterable = (), timezone: str = "UTC", tiles=None, attribution: str | None = None,
               max_zoom: int | None = None, layers: Iterable[str] = DEFAULT_LAYERS, decimals: int = 5,
-              simplify_m: float = 1.0, error_cell_m: float = 50.0,
-              title: str = "Predicted walking comfort"):
+              simplify_m: float = 1.0, error_cell_m: float = 50.0, title: str | None = None):
     """Build the interactive route map.
 
     Parameters
@@ -854,8 +854,9 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         Simplification tolerance for lines and outlines [m]; 0 keeps every vertex.
     error_cell_m : float
         Grid size of the model-error layer [m].
-    title : str
-        Title shown on the map and in the page title.
+    title : str, optional
+        Title shown on the map and in the page title (default: "Predicted walking
+        comfort", or "Recorded walks" for a map without predictions).
 
     Returns
     -------
@@ -876,6 +877,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     if predictions is None and not walk_frames and scene is None:
         raise InputError("nothing to map: no predictions, walks or scene given", where="route_map",
                          fix="pass a prediction table, recorded walks or a scene")
+    if title is None:
+        title = "Predicted walking comfort" if predictions is not None else "Recorded walks"
     E = _Elements.get()
     fmap = E["ComfortMap"](location=None, tiles=None, zoom_start=16, control_scale=True, prefer_canvas=False)
     fmap.get_root().title = html_lib.escape(title, quote=True)

@@ -1,0 +1,90 @@
+"""``walkcomfort map`` and ``walkcomfort report`` through the CLI entry point."""
+
+from __future__ import annotations
+
+import pandas as pd
+import pytest
+
+import _synth as S
+from walkcomfort import _io
+from walkcomfort.cli import main
+
+
+def _write_walk(folder, note=None):
+    w = S.timeline(note=note)
+    data = w.copy()
+    data.attrs = {}
+    session = dict(w.attrs["session"], walk_id=folder.name, participant="P01")
+    _io.write_parquet(folder / "timeline.parquet", data, {"session": session})
+    _io.write_json(folder / "qa.json", {"summary": {"rows_read": 5, "rows_used": 5, "rows_quarantined": 0,
+                                                    "reconciles": True}})
+    _io.write_csv(folder / "quarantine.csv", pd.DataFrame(columns=["source", "file", "row", "reason", "raw"]),
+                  index=False)
+    return folder
+
+
+@pytest.fixture
+def points(tmp_path):
+    pred = S.predictions()
+    path = _io.write_parquet(tmp_path / "routes" / "points.parquet", pred,
+                             {"attrs": {"session": {"timezone": "Europe/Madrid"}}})
+    return path
+
+
+def test_map_command_writes_offline_html(tmp_path, points, capsys):
+    walks = tmp_path / "ingest"
+    _write_walk(walks / "tw-a")
+    _write_walk(walks / "tw-b")
+    scene = _io.write_json(tmp_path / "scene.geojson", S.scene())
+    scheme = _io.write_json(tmp_path / "trees.geojson", S.scheme())
+    out = tmp_path / "map.html"
+    rc = main(["map", str(points.parent), "--walk", str(walks), "--scene", str(scene), "--scheme", str(scheme),
+               "--offline", "-o", str(out)])
+    assert rc == 0
+    assert f"wrote {out}" in capsys.readouterr().out
+    page = out.read_text()
+    assert "cdn.jsdelivr" not in page
+    assert "More street trees · departing 09:00" in page  # zone from the table's metadata, label from the scheme
+    assert "Votes · tw-a" in page and "Votes · tw-b" in page
+
+
+def test_map_command_errors_are_one_line(tmp_path, points, capsys):
+    rc = main(["map", str(points), "--tiles", "https://t.example/{z}/{x}/{y}.png", "-o", str(tmp_path / "m.html")])
+    assert rc == 2
+    err = capsys.readouterr().err.strip()
+    assert err.startswith("error: --attribution:") and "Fix:" in err and "\n" not in err
+    rc = main(["map", str(tmp_path / "nothing"), "-o", str(tmp_path / "m.html")])
+    assert rc == 2 and "no prediction table" in capsys.readouterr().err
+    rc = main(["map", "-o", str(tmp_path / "m.html")])
+    assert rc == 2 and "nothing to map" in capsys.readouterr().err
+
+
+@pytest.mark.slow
+def test_report_command_for_walks(tmp_path, capsys):
+    walks = tmp_path / "ingest"
+    _write_walk(walks / "tw-a", note="<b>bold?</b>")
+    _write_walk(walks / "tw-b")
+    rc = main(["report", str(walks), "-o", str(tmp_path / "reports")])
+    assert rc == 0
+    out = capsys.readouterr().out
+    assert out.count("wrote ") == 2
+    page = (tmp_path / "reports" / "tw-a" / "session_report.html").read_text()
+    assert "&lt;b&gt;bold?&lt;/b&gt;" in page
+    # default: beside the timeline; one input can be written to a named file
+    assert main(["report", str(walks / "tw-b")]) == 0
+    assert (walks / "tw-b" / "session_report.html").is_file()
+    assert main(["report", str(walks / "tw-b" / "timeline.parquet"), "-o", str(tmp_path / "one.html"),
+                 "--title", "Morning walk"]) == 0
+    assert "<title>Morning walk</title>" in (tmp_path / "one.html").read_text()
+    assert main(["report", str(walks), "-o", str(tmp_path / "x.html")]) == 2
+    assert "names one file" in capsys.readouterr().err
+
+
+def test_report_command_for_a_model_bundle(tmp_path, capsys):
+    bundle = tmp_path / "bundle"
+    _io.write_json(bundle / "manifest.json", {"schema": "walkcomfort-model/1"})
+    assert main(["report", str(bundle)]) == 2
+    assert "re-run 'walkcomfort fit'" in capsys.readouterr().err
+    _io.atomic_write_text(bundle / "report.html", "<!DOCTYPE html><title>model</title>")
+    assert main(["report", str(bundle), "-o", str(tmp_path / "m.html")]) == 0
+    assert (tmp_path / "m.html").read_text().startswith("<!DOCTYPE html><title>model</title>")
