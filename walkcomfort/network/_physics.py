@@ -31,6 +31,7 @@ import pandas as pd
 
 from walkcomfort import columns as C
 from walkcomfort.network.batch import P_COLUMNS, Partition, aggregate_points
+from walkcomfort.network.tiling import SVF_RADIUS_M
 
 
 def _scene(part: Partition):
@@ -124,7 +125,7 @@ def _tile_svf(part: Partition, scene, x, y, z) -> np.ndarray:
     key = h.hexdigest()
     hit = _SVF_CACHE.get(key)
     if hit is None:
-        hit = _skyview.sky_view_factor(scene, x, y, z_m=z)[C.SVF].to_numpy(float)
+        hit = _skyview.sky_view_factor(scene, x, y, z_m=z, radius_m=SVF_RADIUS_M)[C.SVF].to_numpy(float)
         if len(_SVF_CACHE) >= _SVF_CACHE_MAX:
             _SVF_CACHE.pop(next(iter(_SVF_CACHE)))
         _SVF_CACHE[key] = hit

@@ -15,11 +15,13 @@ tile can never shade it (from the geometry of a shadow; common practice in
 shadow casting). Each obstacle is kept for a tile when its footprint (a tree
 crown's disc or outline) lies within its *own* reach of the tile's points'
 bounding box, so a tall building outside the tile is kept and a low wall at the
-same distance is not. The same rule bounds the sky view: an obstacle dropped by
-it appears lower than ``e_min`` above the horizon from every point of the tile,
-so it could block at most ``sin²(e_min)`` of the sky view factor even if it
-ringed the whole horizon (0.0076 at 5°; from the definition SVF = cos² of a
-uniform horizon elevation).
+same distance is not.
+
+The sky view factor looks at every obstacle within its search radius
+(``environment.skyview``, :data:`SVF_RADIUS_M`), whatever its height; so an
+obstacle is also kept when it lies within that radius. With both rules the
+tile's scene gives the same shade and the same sky view at the tile's points as
+the whole scene, exactly (checked in the tests).
 
 Sun elevations below ``e_min`` are not used for shade: the batch flags them
 (``qa_low_sun``) and treats the direct beam as blocked there (see
@@ -39,6 +41,8 @@ from walkcomfort.errors import InputError
 
 #: Height of a standing walker's body centre used for shade [m] (the environment's default z).
 DEFAULT_Z_M = 1.1
+#: Search radius of the sky view factor [m]; passed to ``environment.skyview.sky_view_factor``.
+SVF_RADIUS_M = 200.0
 
 
 def shadow_reach_m(height_m, min_sun_elev_deg: float, z_m: float = DEFAULT_Z_M):
@@ -118,7 +122,8 @@ def tile_ids(network, tile_size_m: float) -> pd.Series:
 
 
 def make_tiles(network, obstacles: pd.DataFrame, tile_size_m: float = 250.0,
-               min_sun_elev_deg: float = 5.0, z_m: float = DEFAULT_Z_M) -> list[Tile]:
+               min_sun_elev_deg: float = 5.0, z_m: float = DEFAULT_Z_M,
+               svf_radius_m: float = SVF_RADIUS_M) -> list[Tile]:
     """Cut ``network`` into tiles and attach to each the obstacles that can shade it.
 
     Parameters
@@ -132,6 +137,8 @@ def make_tiles(network, obstacles: pd.DataFrame, tile_size_m: float = 250.0,
         Lowest sun elevation the batch uses for shade [°].
     z_m : float
         Height of the sample points [m].
+    svf_radius_m : float
+        Sky-view search radius [m]: obstacles this close are kept whatever their height.
 
     Returns
     -------
@@ -146,7 +153,8 @@ def make_tiles(network, obstacles: pd.DataFrame, tile_size_m: float = 250.0,
     if have:
         geoms = obstacles["geometry"].to_numpy()
         tree = STRtree(geoms)
-        reach = shadow_reach_m(obstacles["height_m"].to_numpy(), min_sun_elev_deg, z_m)
+        reach = np.maximum(shadow_reach_m(obstacles["height_m"].to_numpy(), min_sun_elev_deg, z_m),
+                           float(svf_radius_m))
         max_reach = float(np.max(reach)) if len(reach) else 0.0
     tiles = []
     for t, seg_ids in tid.groupby(tid, sort=True):
