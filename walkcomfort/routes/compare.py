@@ -175,6 +175,7 @@ def cost_effectiveness(comparison: pd.DataFrame, inventories: dict[str, dict]) -
                      "trees_added": inv.get("trees_added", 0), "trees_removed": inv.get("trees_removed", 0),
                      "crown_m2_added": inv.get("crown_m2_added", 0.0),
                      "canopy_m2_added": inv.get("canopy_m2_added", 0.0), "shade_m2_added": shade_m2,
+                     "modified_n": inv.get("modified_n", 0), "removed_n": inv.get("removed_n", 0),
                      "gain_comfortable_min": gain,
                      "heat_dose_avoided_cmin": float(-g["delta_heat_dose_cmin"].mean()),
                      "delta_mean_utci_c": float(g["delta_mean_utci_c"].mean()),
@@ -259,4 +260,5 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
 
 def scheme_inventory_empty() -> dict:
     return {"trees_added": 0, "trees_removed": 0, "crown_m2_added": 0.0, "canopy_m2_added": 0.0,
-            "buildings_changed": 0, "edits_n": 0, "shade_m2_added": 0.0}
+            "buildings_changed": 0, "edits_n": 0, "added_n": 0, "modified_n": 0, "removed_n": 0,
+            "shade_m2_added": 0.0}

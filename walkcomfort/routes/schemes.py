@@ -276,7 +276,8 @@ def scheme_inventory(scene, scheme: Scheme) -> dict:
         ``trees_added``, ``trees_removed`` (counts), ``crown_m2_added`` (net crown plan
         area of trees: π r² for point trees, polygon area otherwise) [m²],
         ``canopy_m2_added`` (net canopy plan area) [m²], ``shade_m2_added`` (their sum)
-        [m²], ``buildings_changed`` (added + removed + modified), ``edits_n``.
+        [m²], ``buildings_changed`` (added + removed + modified), ``edits_n`` and its split
+        ``added_n, modified_n, removed_n``.
     """
     from pyproj import Transformer
 
@@ -299,7 +300,10 @@ def scheme_inventory(scene, scheme: Scheme) -> dict:
         return _area_m2(g, tr)
 
     out = {"trees_added": 0, "trees_removed": 0, "crown_m2_added": 0.0, "canopy_m2_added": 0.0,
-           "buildings_changed": 0, "edits_n": len(scheme.edits)}
+           "buildings_changed": 0, "edits_n": len(scheme.edits),
+           "added_n": sum(1 for e in scheme.edits if e["properties"]["edit"] == "add"),
+           "modified_n": sum(1 for e in scheme.edits if e["properties"]["edit"] == "modify"),
+           "removed_n": sum(1 for e in scheme.edits if e["properties"]["edit"] == "remove")}
     for feat in scheme.edits:
         props = feat.get("properties") or {}
         edit = props["edit"]

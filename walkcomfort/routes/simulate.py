@@ -4,7 +4,8 @@ Positions and times come from the walking-speed model (:mod:`.timing`), weather
 from a :class:`~walkcomfort.routes.weather.WeatherSource`, and the thermal
 environment (sun, shade, sky view, Tmrt from fluxes, UTCI) from the very same
 function that serves recorded walks, :func:`walkcomfort.environment.pipeline.add_environment`,
-so the model sees the same columns either way.
+so the model sees the same columns either way
+(:func:`~walkcomfort.environment.pipeline.add_planned_environment`).
 
 Many departures are simulated in one batch (one ``walk_id`` per departure) so the
 environment stage is called once per scene, not once per departure.
@@ -104,16 +105,15 @@ def simulate_timeline(route: Route, departures, weather: WeatherSource,
 def add_simulated_environment(timeline: pd.DataFrame, scene=None, **env_kw) -> pd.DataFrame:
     """Sun, shade, sky view, Tmrt (from fluxes) and UTCI for a simulated timeline.
 
-    Calls :func:`walkcomfort.environment.pipeline.add_environment` — the code path of
-    recorded walks — with the timeline's own open-sky irradiance.
+    Calls :func:`walkcomfort.environment.pipeline.add_planned_environment` — the code
+    path of recorded walks with the globe switched off — with the timeline's own
+    open-sky irradiance (from the weather source).
     """
-    from walkcomfort.environment.pipeline import add_environment
+    from walkcomfort.environment.pipeline import add_planned_environment
 
-    irr = timeline[[C.GHI_WM2, C.DNI_WM2, C.DHI_WM2]]
-    base = timeline.drop(columns=[C.GHI_WM2, C.DNI_WM2, C.DHI_WM2])
-    base.attrs = dict(timeline.attrs)
-    out = add_environment(base, scene=scene, irradiance=irr, **env_kw)
-    out.attrs = dict(timeline.attrs)
+    env_kw.setdefault("warn", False)  # out-of-range rows are flagged per row (qa_utci_out_of_range)
+    out = add_planned_environment(timeline, scene=scene, **env_kw)
+    out.attrs = {**timeline.attrs, **{k: v for k, v in out.attrs.items() if k == "environment"}}
     return out
 
 

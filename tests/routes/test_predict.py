@@ -1,0 +1,166 @@
+"""Simulated walks through the environment and the predictor; summaries and comparison."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from walkcomfort import columns as C
+from walkcomfort.errors import InputError
+from walkcomfort.routes.compare import compare_schemes, summarise
+from walkcomfort.routes.geometry import load_route
+from walkcomfort.routes.predict import PHYSICS_RULE, POINT_COLUMNS, Predictor, predict_route
+from walkcomfort.routes.schemes import Scheme, scheme_from_geojson
+from walkcomfort.routes.timing import parse_departures
+from walkcomfort.routes.weather import StatedConditions, WeatherFile
+
+LAT, LON = 40.40, -3.70          # an invented street in a warm mid-latitude town
+TZ = "Europe/Madrid"
+STREET_M = 120.0
+
+
+def _street_lon(d_m):
+    from pyproj import Geod
+
+    return Geod(ellps="WGS84").fwd(LON, LAT, 90.0, d_m)[0]
+
+
+@pytest.fixture
+def street(tmp_path):
+    """A 120 m east-west street, flat, as a GeoJSON route."""
+    p = tmp_path / "street.geojson"
+    p.write_text(json.dumps({"type": "Feature", "properties": {"route_id": "street"},
+                             "geometry": {"type": "LineString",
+                                          "coordinates": [[LON, LAT, 650.0], [_street_lon(STREET_M), LAT, 650.0]]}}))
+    return p
+
+
+@pytest.fixture
+def scene():
+    """One building well away from the street, so the base street is in full sun."""
+    from walkcomfort.environment.scene import Scene
+
+    d = 0.0002
+    box = [[LON, LAT + 0.001], [LON + d, LAT + 0.001], [LON + d, LAT + 0.001 + d], [LON, LAT + 0.001 + d],
+           [LON, LAT + 0.001]]
+    feats = [{"type": "Feature", "geometry": {"type": "Polygon", "coordinates": [box]},
+              "properties": {"id": "b1", "kind": "building", "height_m": 10}}]
+    return Scene.from_geojson({"type": "FeatureCollection", "walkcomfort": {"site": {"lat": LAT, "lon": LON}},
+                               "features": feats})
+
+
+def tree_row_scheme(spacing_m=7.0):
+    feats = []
+    for i, d in enumerate(np.arange(0.0, STREET_M + 1e-9, spacing_m)):
+        feats.append({"type": "Feature", "geometry": {"type": "Point", "coordinates": [_street_lon(d), LAT]},
+                      "properties": {"edit": "add", "id": f"row-{i}", "kind": "tree", "height_m": 9.0,
+                                     "crown_base_m": 3.0, "crown_radius_m": 4.0, "transmissivity": 0.1}})
+    return scheme_from_geojson({"type": "FeatureCollection",
+                                "walkcomfort": {"scheme": "tree-row", "label": "street trees"}, "features": feats})
+
+
+HOT = StatedConditions(t_air_c=33.0, rh_pct=30.0, wind_ms=1.5, wind_height_m=10.0)
+
+
+def test_point_table_has_the_contract_columns(street, scene):
+    r = load_route(street, crs=scene.crs)
+    deps = parse_departures("2026-07-15T16:00", timezone=TZ)
+    pts = predict_route(r, deps, HOT, scene=scene)
+    assert list(pts.columns[:len(POINT_COLUMNS)]) == list(POINT_COLUMNS)
+    assert str(pts.index.tz) == "UTC" and pts.index.name == "time"
+    p = pts[["p_comfortable", "p_neutral", "p_uncomfortable"]].sum(axis=1)
+    assert np.allclose(p, 1.0)
+    assert (pts["predictor"] == PHYSICS_RULE).all()
+    assert pts["reasons"].str.contains("UTCI-band rule").all()
+    assert (pts["scheme"] == "base").all() and (pts["route_id"] == "street").all()
+
+
+def test_tree_row_gains_shade_and_lowers_utci(street, scene):
+    r = load_route(street, crs=scene.crs)
+    deps = parse_departures("2026-07-15T17:00", timezone=TZ)  # summer afternoon, sun to the south-west
+    res = compare_schemes(r, [tree_row_scheme()], deps, HOT, scene=scene)
+    s = res.summary.set_index("scheme")
+    assert s.loc["base", "shade_share"] < 0.1
+    assert s.loc["tree-row", "shade_share"] > 0.5
+    assert s.loc["tree-row", "mean_utci_c"] < s.loc["base", "mean_utci_c"] - 2.0
+    c = res.comparison.iloc[0]
+    assert c["delta_mean_utci_c"] < -2.0 and c["delta_shade_share"] > 0.5
+    cost = res.cost.iloc[0]
+    assert cost["trees_added"] == len(tree_row_scheme().edits)
+    assert cost["gain_min_per_tree"] == pytest.approx(cost["gain_comfortable_min"] / cost["trees_added"])
+
+
+def test_empty_scheme_is_identical_to_base(street, scene):
+    r = load_route(street, crs=scene.crs)
+    deps = parse_departures("2026-07-15T17:00", timezone=TZ)
+    empty = scheme_from_geojson({"type": "FeatureCollection", "walkcomfort": {"scheme": "nothing"}, "features": []})
+    res = compare_schemes(r, [empty], deps, HOT, scene=scene)
+    a = res.points[res.points["scheme"] == "base"].drop(columns="scheme")
+    b = res.points[res.points["scheme"] == "nothing"].drop(columns="scheme")
+    pd.testing.assert_frame_equal(a, b, check_exact=True)
+    assert (res.comparison.filter(like="delta_") == 0).all().all()
+
+
+def test_sweep_gives_one_row_per_departure_and_minutes_add_up(street, scene):
+    r = load_route(street, crs=scene.crs)
+    deps = parse_departures("2026-07-15T08:00..2026-07-15T20:00/2h", timezone=TZ)
+    res = compare_schemes(r, [tree_row_scheme()], deps, HOT, scene=scene)
+    s = res.summary
+    assert len(s) == 2 * len(deps)
+    assert sorted(s[s["scheme"] == "base"]["departure"]) == list(deps)
+    walk = r.length_m / 1.3 / 60  # the UTM length (scale factor ~0.9996) is what is walked
+    assert np.allclose(s["walk_min"], walk)
+    exp = s[["exp_min_comfortable", "exp_min_neutral", "exp_min_uncomfortable"]].sum(axis=1)
+    arg = s[["argmax_min_comfortable", "argmax_min_neutral", "argmax_min_uncomfortable"]].sum(axis=1)
+    assert np.allclose(exp, s["walk_min"]) and np.allclose(arg, s["walk_min"])
+    best = res.best.set_index("scheme")
+    assert best.loc["base", "departures_n"] == len(deps)
+    b = s[s["scheme"] == "base"]
+    assert best.loc["base", "exp_share_comfortable"] == pytest.approx(b["exp_share_comfortable"].max())
+
+
+def test_stops_are_on_the_timeline(tmp_path, scene):
+    p = tmp_path / "r.geojson"
+    p.write_text(json.dumps({"type": "Feature", "properties": {"stops": [{"dist_m": 60, "wait_s": 45,
+                                                                         "label": "crossing"}]},
+                             "geometry": {"type": "LineString", "coordinates": [[LON, LAT], [_street_lon(STREET_M), LAT]]}}))
+    r = load_route(p, crs=scene.crs)
+    pts = predict_route(r, parse_departures("2026-07-15T17:00", timezone=TZ), HOT, scene=scene)
+    s = summarise(pts)
+    assert s["walk_min"].iloc[0] == pytest.approx((r.length_m / 1.3 + 45) / 60)
+    # the stop sits on a route point (60 m = 12 x 5 m): that point is the arrival, then one row every 5 s
+    assert (pts["stop"] == "crossing").sum() == 9
+
+
+def test_scheme_without_scene_is_refused(street):
+    r = load_route(street)
+    with pytest.raises(InputError, match="no scene"):
+        predict_route(r, parse_departures("2026-07-15T17:00", timezone=TZ), HOT, scheme=tree_row_scheme())
+
+
+@pytest.mark.slow
+def test_model_bundle_predictions(street, scene, tmp_path):
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.bundle import save_bundle
+    from walkcomfort.model.classifier import ComfortClassifier
+    from walkcomfort.model.features import build_features
+
+    camp = synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900)
+    labelled = camp[camp[C.VOTE_COMFORT].notna()]
+    X = build_features(camp).loc[labelled.index]
+    model = ComfortClassifier(n_estimators=30).fit(X, labelled[C.VOTE_COMFORT])
+    save_bundle(model, tmp_path / "bundle")
+    pred = Predictor.from_bundle(tmp_path / "bundle")
+    assert pred.label.startswith("model:sha256:")
+    r = load_route(street, crs=scene.crs)
+    res = compare_schemes(r, [tree_row_scheme()], parse_departures("2026-07-15T17:00", timezone=TZ), HOT,
+                          scene=scene, predictor=pred)
+    pts = res.points
+    assert (pts["predictor"] == pred.label).all()
+    assert np.allclose(pts[["p_comfortable", "p_neutral", "p_uncomfortable"]].sum(axis=1), 1.0)
+    assert (pts["reasons"].str.len() > 0).mean() > 0.9
+    exp = res.summary[["exp_min_comfortable", "exp_min_neutral", "exp_min_uncomfortable"]].sum(axis=1)
+    assert np.allclose(exp, res.summary["walk_min"])
