@@ -104,7 +104,7 @@ def ray_pairs(obs: Obstacles, x, y, dx, dy, length):
     return ray[keep], ob[keep], enter[keep], exit_[keep]
 
 
-def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool = True):
+def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool = True, may_start_inside=None):
     """Crossings of segment A→B with the edges of polygon obstacle ``ob``, per pair.
 
     Vectorised over pairs through the obstacles' edge CSR (exterior and hole rings),
@@ -118,6 +118,9 @@ def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool =
         Number of edges the segment crosses.
     t_min, t_max : ndarray
         Smallest and largest crossing parameter along A→B (0…1; NaN without crossings).
+
+    ``may_start_inside`` (bool per pair, optional) skips the crossing-number test where
+    the caller knows A lies outside (e.g. on the obstacle's enclosing circle).
     """
     k = ob.size
     inside = np.zeros(k, dtype=bool)
@@ -150,12 +153,20 @@ def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool =
             tt = (qx * sy - qy * sx) / den
             uu = (qx * ry - qy * rx) / den
             cross = (den != 0) & (tt >= 0) & (tt <= 1) & (uu >= 0) & (uu <= 1)
-            straddle = (e1y > pay) != (e2y > pay)
-            xint = e1x + (pay - e1y) * sx / sy
-            toggle = straddle & (pax < xint)
         m = hi - lo
         n_cross[sl] = np.bincount(rep, weights=cross, minlength=m).astype(np.int64)
-        inside[sl] = np.bincount(rep, weights=toggle, minlength=m).astype(np.int64) % 2 == 1
+        if may_start_inside is None:
+            sub = slice(None)
+        else:
+            sub = np.flatnonzero(np.asarray(may_start_inside[sl])[rep])
+        if may_start_inside is None or sub.size:
+            py_, px_ = pay[sub], pax[sub]
+            y1, y2, x1 = e1y[sub], e2y[sub], e1x[sub]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                straddle = (y1 > py_) != (y2 > py_)
+                xint = x1 + (py_ - y1) * sx[sub] / sy[sub]
+                toggle = straddle & (px_ < xint)
+            inside[sl] = np.bincount(rep[sub], weights=toggle, minlength=m).astype(np.int64) % 2 == 1
         if want_t and cross.any():
             tmin = np.full(m, np.inf)
             tmax = np.full(m, -np.inf)
@@ -299,13 +310,16 @@ def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol) -> np.ndarray:
         b_s = np.minimum(s1, t + h)
         keep = (d2 < r2) & (b_s > a_s)
         ray, ob, a_s, b_s, rdx, rdy = ray[keep], ob[keep], a_s[keep], b_s[keep], rdx[keep], rdy[keep]
+        starts_in = a_s > (t - h)[keep]  # the segment starts inside the enclosing circle
         hit = obs.is_circle[ob].copy()
         poly = ~hit
         if poly.any():
             rp = ray[poly]
-            hit[poly] = segment_polygon_hits(obs, ob[poly], px[rp] + a_s[poly] * rdx[poly],
-                                             py[rp] + a_s[poly] * rdy[poly], px[rp] + b_s[poly] * rdx[poly],
-                                             py[rp] + b_s[poly] * rdy[poly])
+            inside, n_cross, _, _ = segment_polygon_crossings(
+                obs, ob[poly], px[rp] + a_s[poly] * rdx[poly], py[rp] + a_s[poly] * rdy[poly],
+                px[rp] + b_s[poly] * rdx[poly], py[rp] + b_s[poly] * rdy[poly], want_t=False,
+                may_start_inside=starts_in[poly])
+            hit[poly] = inside | (n_cross > 0)
         ray, ob = ray[hit], ob[hit]
         if ray.size == 0:
             continue
