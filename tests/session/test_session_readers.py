@@ -146,7 +146,7 @@ def test_point_without_time_is_quarantined_not_invented():
     df, meta = _gps(WALK_OK)
     q = meta["quarantine"]
     assert list(q["reason"]) == ["no_time"] and list(q["row"]) == [121]
-    assert "time=" in q["raw"].iloc[0]
+    assert q["raw"].iloc[0].startswith("trk 1 seg 1 pt 121: <trkpt") and "<time>" not in q["raw"].iloc[0]
     # its neighbours are there, nothing was placed at its time
     assert pd.Timestamp("2026-07-14T08:02:00Z") not in df.index
     assert pd.Timestamp("2026-07-14T08:01:59Z") in df.index
@@ -250,3 +250,19 @@ def test_votes_json(tmp_path):
     assert list(df[C.VOTE_TSV]) == [-1.0, 3.0]
     assert df[C.VOTE_NOTE].iloc[1] == "<b>hot</b>"   # kept as typed; escaping is the report's job
     assert list(meta["quarantine"]["reason"]) == ["bad_comfort"]
+
+
+def test_gpx_unreadable_time_keeps_its_text(tmp_path):
+    d = tmp_path / "s"
+    shutil.copytree(SESSIONS / "broken" / "gpx10_ok", d)
+    (d / "track.gpx").write_text(
+        '<?xml version="1.0"?>\n<gpx version="1.1" creator="t" xmlns="http://www.topografix.com/GPX/1/1">'
+        '<trk><trkseg><trkpt lat="40.0" lon="-3.0"><time>2026-07-14T08:00:00Z</time></trkpt>\n'
+        '<trkpt lat="40.00001" lon="-3.0"><time>half past ten</time></trkpt>\n'
+        '<trkpt lat="40.00002" lon="-3.0"/>\n'
+        '<trkpt lat="40.00003" lon="-3.0"><time>2026-07-14T08:00:03Z</time></trkpt></trkseg></trk></gpx>\n')
+    df, meta = _gps(d)
+    q = meta["quarantine"]
+    assert list(q["reason"]) == ["bad_time", "no_time"] and list(q["row"]) == [2, 3]
+    assert "half past ten" in q["raw"].iloc[0]
+    assert len(df) == 2

@@ -10,6 +10,8 @@ bare ``<hr>`` are the same thing.
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pandas as pd
 
@@ -52,6 +54,10 @@ def read_gps(path, source_spec, session_spec):
     return read_gpx(path, source_spec, session_spec)
 
 
+_TRKPT = re.compile(r"<(?:[\w.-]+:)?trkpt\b[^>]*?/>|<(?:[\w.-]+:)?trkpt\b.*?</(?:[\w.-]+:)?trkpt\s*>", re.S)
+_TIME_TEXT = re.compile(r"<(?:[\w.-]+:)?time\b[^>]*>(.*?)</", re.S)
+
+
 def _local(tag: str) -> str:
     return str(tag).rsplit("}", 1)[-1].rsplit(":", 1)[-1].lower()
 
@@ -75,6 +81,11 @@ def read_gpx(path, source_spec, session_spec):
         raise InputError(f"not a readable GPX file ({msg})", where=source_spec.display,
                          fix="the file may be truncated or not GPX: export the track again from the device") from None
     q = Quarantine(source_spec.name, source_spec.path)
+    # the raw XML of every track point, in document order, so a quarantined point keeps its text
+    blocks = [" ".join(b.split()) for b in _TRKPT.findall(text)]
+    n_points = sum(len(seg.points) for trk in gpx.tracks for seg in trk.segments)
+    if len(blocks) != n_points:
+        blocks = None
     lat, lon, ele, t, rows, raws = [], [], [], [], [], []
     ext: dict[str, list] = {}
     ext_seen: set[str] = set()
@@ -88,10 +99,12 @@ def read_gpx(path, source_spec, session_spec):
             first_in_seg = True
             for pi, p in enumerate(seg.points, start=1):
                 k += 1
-                raw = (f"trk {ti} seg {si} pt {pi}: lat={p.latitude} lon={p.longitude} "
-                       f"ele={p.elevation} time={p.time.isoformat() if p.time else ''}")
+                raw = f"trk {ti} seg {si} pt {pi}: " + (blocks[k - 1] if blocks else
+                                                         f"lat={p.latitude} lon={p.longitude} ele={p.elevation}")
                 if p.time is None:
-                    q.add(k, "no_time", raw)
+                    # gpxpy gives None both for a missing and an unreadable <time>
+                    m = _TIME_TEXT.search(blocks[k - 1]) if blocks else None
+                    q.add(k, "bad_time" if (m and m.group(1).strip()) else "no_time", raw)
                     continue
                 if p.time.tzinfo is None or p.time.utcoffset() is None:
                     n_naive += 1
