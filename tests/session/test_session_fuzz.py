@@ -15,8 +15,11 @@ from walkcomfort.errors import InputError
 from walkcomfort.session.manifest import load_manifest
 from walkcomfort.session.readers import read_light, read_noise, read_votes, read_weather
 
+# a few seconds each on a loaded machine: marked slow (they still run in CI)
+pytestmark = pytest.mark.slow
+
 SESSIONS = Path(__file__).resolve().parents[1] / "fixtures" / "sessions"
-FUZZ = settings(max_examples=120, deadline=None, derandomize=True,
+FUZZ = settings(max_examples=80, deadline=None, derandomize=True,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 
 
