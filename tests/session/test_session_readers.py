@@ -266,3 +266,21 @@ def test_gpx_unreadable_time_keeps_its_text(tmp_path):
     assert list(q["reason"]) == ["bad_time", "no_time"] and list(q["row"]) == [2, 3]
     assert "half past ten" in q["raw"].iloc[0]
     assert len(df) == 2
+
+
+def test_date_and_time_in_separate_columns_with_decimal_comma(tmp_path):
+    d = tmp_path / "s"
+    shutil.copytree(SESSIONS / "broken" / "gpx10_ok", d)
+    (d / "weather.csv").write_text("Date;Time;T;Wind\n14/07/2026;10:00:00;30,5;3,6\n14/07/2026;10:00:02;30,7;7,2\n")
+    text = (d / "session.toml").read_text().replace(
+        '[source.units]\nt_air = "degC"\nwind = "m/s"',
+        'delimiter = ";"\ndecimal = ","\ntime_format = "%d/%m/%Y %H:%M:%S"\n[source.columns]\n'
+        'time = ["Date", "Time"]\nt_air = "T"\nwind = "Wind"\n[source.units]\nt_air = "degC"\nwind = "km/h"')
+    (d / "session.toml").write_text(text)
+    spec = load_manifest(d)
+    src = spec.sources_of("weather")[0]
+    assert src.time_columns == ("Date", "Time")
+    df, meta = read_weather(src.abs_path, src, spec)
+    assert list(df.index) == [pd.Timestamp("2026-07-14T08:00:00Z"), pd.Timestamp("2026-07-14T08:00:02Z")]
+    assert list(df[C.T_AIR_C]) == [30.5, 30.7]
+    assert list(df[C.WIND_MS]) == pytest.approx([1.0, 2.0])   # 3.6 and 7.2 km/h

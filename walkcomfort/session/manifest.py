@@ -119,6 +119,7 @@ class SourceSpec:
     time_zone: str                  # "local", "UTC" or an IANA name (for naive times)
     columns: dict[str, str] = field(default_factory=dict)
     units: dict[str, str] = field(default_factory=dict)
+    time_columns: tuple[str, ...] = ("time",)   # raw columns joined with a space to form the time text
     time_format: str | None = None  # strftime pattern, "ISO8601" (default) or "epoch_s"
     delimiter: str | None = None    # sniffed from the header line when not given
     decimal: str = "."
@@ -359,7 +360,17 @@ def _sources(data: dict, folder: Path, m: str, tz) -> list[SourceSpec]:
         time_zone = _string(s, "time_zone", m, w) or tz_default
         if time_zone not in ("local", "UTC"):
             _zone(time_zone, f"{m} {w} time_zone")
-        columns = _str_table(s, "columns", m, w)
+        raw_cols = s.get("columns", {})
+        tcols = None
+        if isinstance(raw_cols, dict) and isinstance(raw_cols.get("time"), list):
+            # a logger writing date and time of day in separate columns: time = ["Date", "Time"]
+            tcols = raw_cols["time"]
+            if not (1 <= len(tcols) <= 3) or not all(isinstance(x, str) and x for x in tcols):
+                raise InputError(f"columns.time = {tcols!r} must be a column name or a list of 1-3 names",
+                                 where=f"{m} {w} columns.time", fix='write time = "DateTime" or time = ["Date", "Time"]')
+            raw_cols = {k: v for k, v in raw_cols.items() if k != "time"}
+        columns = _str_table({"columns": raw_cols}, "columns", m, w)
+        time_columns = tuple(tcols) if tcols else (columns.get("time", "time"),)
         bad = [k for k in columns if k not in FIELDS[kind]]
         if bad:
             raise InputError(f"columns.{bad[0]} is not a field of a {kind} source; fields: {', '.join(FIELDS[kind])}",
@@ -401,6 +412,7 @@ def _sources(data: dict, folder: Path, m: str, tz) -> list[SourceSpec]:
                              where=f"{m} {w} comfort_labels", fix="map each raw label to one of the three classes")
         out.append(SourceSpec(index=i, name=name, kind=kind, path=rel, abs_path=abs_path, device=device,
                               format=fmt, time_zone=time_zone, columns=columns, units=units,
+                              time_columns=time_columns,
                               time_format=_string(s, "time_format", m, w), delimiter=delim, decimal=decimal,
                               na_values=tuple(na), time_from=time_from, filename_pattern=pattern,
                               max_gap_s=max_gap, comfort_labels=labels, manifest=m))

@@ -150,6 +150,17 @@ def column(table: RawTable, name: str) -> pd.Series:
     return pd.Series([r[j].strip() for r in table.rows], dtype=object)
 
 
+def time_text(table: RawTable, spec) -> pd.Series:
+    """The time text of each row: the time column, or the declared columns joined by a space."""
+    parts = [column(table, c) for c in spec.time_columns]
+    if len(parts) == 1:
+        return parts[0]
+    out = parts[0].astype(str)
+    for p in parts[1:]:
+        out = out + " " + p.astype(str)
+    return out.str.strip()
+
+
 def missing_mask(s: pd.Series, na_values=()) -> np.ndarray:
     markers = list(set(MISSING) | {v.lower() for v in na_values})
     return s.astype(str).str.lower().isin(markers).to_numpy(dtype=bool)
@@ -332,8 +343,7 @@ def read_sensor_csv(spec, session, fields: list[tuple[str, str, bool]], kind: st
 
     path = Path(path) if path is not None else spec.abs_path
     q = Quarantine(spec.name, spec.path)
-    time_col = spec.column("time")
-    required = [time_col] + [spec.column(f) for f, _, req in fields if req]
+    required = list(spec.time_columns) + [spec.column(f) for f, _, req in fields if req]
     optional = [spec.column(f) for f, _, req in fields if not req]
     for f in spec.units:
         if f not in [x[0] for x in fields]:
@@ -353,7 +363,7 @@ def read_sensor_csv(spec, session, fields: list[tuple[str, str, bool]], kind: st
     for f, out, raw in present:
         factors[f] = spec.units.get(f)
         to_si(np.zeros(1), f, factors[f], spec.where)
-    times, reason = parse_times(column(table, time_col), spec, session, where=spec.display, lines=table.lines)
+    times, reason = parse_times(time_text(table, spec), spec, session, where=spec.display, lines=table.lines)
     values: dict[str, np.ndarray] = {}
     for f, out, raw in present:
         v, bad = to_number(column(table, raw), spec.decimal, spec.na_values)

@@ -18,7 +18,7 @@ import pandas as pd
 from walkcomfort.columns import COMFORT_CLASSES, PARTICIPANT, VOTE_COMFORT, VOTE_KIND, VOTE_NOTE, VOTE_TSV
 from walkcomfort.errors import InputError
 from walkcomfort.session.readers._common import (Quarantine, assemble_metadata, column, finish, missing_mask,
-                                                 parse_times, read_delimited, read_text, to_number)
+                                                 parse_times, read_delimited, read_text, time_text, to_number)
 
 VOTE_KINDS = ("prompted", "spontaneous")
 
@@ -46,18 +46,23 @@ def read_votes(path, source_spec, session_spec):
         recs = _json_records(path, spec)
         n = len(recs)
         cols = {f: pd.Series([_text(r.get(spec.column(f))) for r in recs], dtype=object) for f in fields}
+        cols["time"] = pd.Series([" ".join(_text(r.get(c)) for c in spec.time_columns).strip() for r in recs],
+                                 dtype=object)
         present = {f for f in fields if any(spec.column(f) in r for r in recs)}
+        if any(all(c in r for c in spec.time_columns) for r in recs):
+            present.add("time")
         rows = np.arange(1, n + 1, dtype=np.int64)
         raws = [json.dumps(r, ensure_ascii=False, sort_keys=True) for r in recs]
         encoding = "utf-8"
         if n and "time" not in present:
-            raise InputError(f"no vote has the field '{spec.column('time')}'", where=spec.display,
+            raise InputError(f"no vote has the field(s) {', '.join(spec.time_columns)}", where=spec.display,
                              fix="give each vote a time, or map the field in [source.columns]")
     else:
-        table = read_delimited(path, spec, [spec.column("time")], [spec.column(f) for f in fields[1:]], q)
-        present = {f for f in fields if spec.column(f) in table.header}
+        table = read_delimited(path, spec, list(spec.time_columns), [spec.column(f) for f in fields[1:]], q)
+        present = {f for f in fields[1:] if spec.column(f) in table.header} | {"time"}
         cols = {f: (column(table, spec.column(f)) if f in present else pd.Series([""] * len(table.rows), dtype=object))
-                for f in fields}
+                for f in fields[1:]}
+        cols["time"] = time_text(table, spec)
         rows, raws, encoding = table.lines, table.raws, table.encoding
         n = len(rows)
     for f in spec.columns:
