@@ -126,3 +126,15 @@ def scheme(name="trees", label="More street trees") -> dict:
         {"type": "Feature", "properties": {"edit": "modify", "target": "t1", "transmissivity": 0.1},
          "geometry": None},
     ]}
+
+
+def summaries(points: pd.DataFrame) -> pd.DataFrame:
+    """Route summaries shaped like walkcomfort.routes.compare.summarise (the fields the map shows)."""
+    rows = []
+    for (route, scheme, dep), g in points.groupby(["route_id", "scheme", "departure"], sort=True):
+        rows.append({"route_id": route, "scheme": scheme, "departure": dep,
+                     "walk_min": (g.index.max() - g.index.min()).total_seconds() / 60, "length_m": g[C.DIST_M].max(),
+                     **{f"exp_share_{c}": g[f"p_{c}"].mean() for c in C.COMFORT_CLASSES},
+                     "shade_share": float((g[C.SHADE_FRAC] >= 0.5).mean()), "mean_utci_c": g[C.UTCI_C].mean(),
+                     "peak_utci_c": g[C.UTCI_C].max(), "heat_dose_cmin": 42.0})
+    return pd.DataFrame(rows)

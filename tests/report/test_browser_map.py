@@ -38,7 +38,7 @@ def _toggle(page, label_text):
 
 def _wait_drawn(page, selector):
     # horizontal SVG lines have a zero-height box, so wait on the DOM, not on "visible"
-    page.wait_for_function(f"document.querySelectorAll({selector!r}).length > 0", timeout=10_000)
+    page.wait_for_function(f"() => document.querySelectorAll({selector!r}).length > 0", timeout=10_000)
 
 
 def _click_path(page, locator):
@@ -57,8 +57,9 @@ def _clean(browser):
 
 @pytest.fixture
 def map_page(tmp_path):
-    fmap = R.route_map(S.predictions(), scene=S.scene(), schemes=[S.scheme()],
-                       walks=[S.timeline(note=S.XSS_NOTE)], timezone="Europe/Madrid")
+    pred = S.predictions()
+    fmap = R.route_map(pred, scene=S.scene(), schemes=[S.scheme()], walks=[S.timeline(note=S.XSS_NOTE)],
+                       summaries=S.summaries(pred), timezone="Europe/Madrid")
     R.write_map(fmap, tmp_path / "map.html")
     return "map.html"
 
@@ -90,11 +91,11 @@ def test_layers_exist_toggle_and_legend_follows(browser, served, map_page, artif
     page.screenshot(path=str(artifacts_dir / "routemap_utci_on.png"))
     # ... and off again
     _toggle(page, "UTCI band · baseline · departing 09:00")
-    page.wait_for_function("document.querySelectorAll('path.wc-seg-utci').length === 0")
+    page.wait_for_function("() => document.querySelectorAll('path.wc-seg-utci').length === 0")
     assert not page.locator('.wc-sec[data-kind="utci"]').is_visible()
     # switching the comfort layer off removes its segments
     _toggle(page, "baseline · departing 09:00")
-    page.wait_for_function("document.querySelectorAll('path.wc-seg-comfort').length === 0")
+    page.wait_for_function("() => document.querySelectorAll('path.wc-seg-comfort').length === 0")
     _toggle(page, "More street trees · departing 12:00")
     _wait_drawn(page, "path.wc-seg-comfort")
     _toggle(page, "Model errors (50 m cells)")
@@ -112,8 +113,9 @@ def test_route_popup_shows_the_point(browser, served, map_page, artifacts_dir):
     popup.wait_for(timeout=5_000)
     text = popup.inner_text()
     for word in ("Local time", "(Europe/Madrid)", "Predicted", "p(comfortable)", "UTCI", "Tmrt", "Shade",
-                 "Top reasons"):
+                 "Top reasons", "Whole walk", "Heat dose", "42\u00a0°C·min"):
         assert word in text, (word, text)
+    page.wait_for_function("() => getComputedStyle(document.querySelector('.leaflet-popup')).opacity === '1'")
     page.screenshot(path=str(artifacts_dir / "routemap_popup.png"))
     _clean(browser)
 
@@ -125,7 +127,7 @@ def test_vote_note_with_script_payload_runs_nothing(browser, served, map_page, a
     found = False
     for i in range(votes.count()):
         page.evaluate("walkcomfortMap.closePopup()")
-        page.wait_for_function("!document.querySelector('.leaflet-popup')")
+        page.wait_for_function("() => !document.querySelector('.leaflet-popup')")
         _click_path(page, votes.nth(i))
         popup = page.locator(".leaflet-popup-content .wc-popup")
         popup.wait_for(timeout=5_000)
@@ -206,7 +208,7 @@ def test_offline_map_with_local_tile_folder(browser, tmp_path, artifacts_dir):
     page = browser.new_page()
     page.goto(out.as_uri())
     page.wait_for_selector(READY, timeout=15_000)
-    page.wait_for_function("Array.from(document.querySelectorAll('img.leaflet-tile')).some(i => i.complete && i.naturalWidth > 0)",
+    page.wait_for_function("() => Array.from(document.querySelectorAll('img.leaflet-tile')).some(i => i.complete && i.naturalWidth > 0)",
                            timeout=10_000)
     assert "Invented survey tiles" in page.locator(".leaflet-control-attribution").inner_text()
     loaded = page.evaluate("Array.from(document.querySelectorAll('img.leaflet-tile-loaded')).length")

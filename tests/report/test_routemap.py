@@ -285,3 +285,21 @@ def test_not_a_walkcomfort_map(tmp_path):
 
     with pytest.raises(InputError, match="route_map"):
         R.write_map(folium.Map(), tmp_path / "x.html")
+
+
+def test_route_summaries_reach_the_popups():
+    pred = S.predictions()
+    summ = S.summaries(pred)
+    fmap = R.route_map(pred, summaries=summ, layers=("comfort",))
+    data = _payloads(fmap)
+    assert len(data) == 4
+    for d in data:
+        (s,) = d["summ"]
+        assert s["heat_dose_cmin"] == 42.0 and 0 < s["exp_share_comfortable"] < 1
+    first = summ.iloc[0]
+    assert data[0]["summ"][0]["peak_utci_c"] == pytest.approx(first["peak_utci_c"], abs=1e-3)
+    with pytest.raises(InputError, match="summaries lack"):
+        R.route_map(pred, summaries=summ.drop(columns=["scheme"]))
+    # no summary for a walk: the popup simply has none
+    (d0,) = _payloads(R.route_map(pred, summaries=summ.iloc[1:2], layers=("comfort",)))[:1]
+    assert d0["summ"] == [None]

@@ -11,6 +11,7 @@ import click
 from walkcomfort.errors import InputError
 
 POINTS_FILE = "points.parquet"
+SUMMARY_FILE = "summary.parquet"  # route summaries beside the points (walkcomfort.routes.outputs)
 TIMELINE_FILE = "timeline.parquet"
 BUNDLE_MANIFEST = "manifest.json"
 SESSION_REPORT_FILE = "session_report.html"
@@ -121,7 +122,8 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, offline, tiles,
          layers, decimals, simplify_m, error_cell_m, budget_mb, title):
     """Write the HTML route map from prediction tables (POINTS) and/or recorded walks.
 
-    POINTS are points.parquet files (or their folders) from 'walkcomfort route' / 'compare'.
+    POINTS are points.parquet files (or their folders) from 'walkcomfort route' / 'compare';
+    a summary.parquet beside them adds whole-walk figures to the popups.
     """
     import pandas as pd
 
@@ -130,16 +132,20 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, offline, tiles,
     if not points and not walk_paths and scene_path is None:
         raise InputError("nothing to map", where="walkcomfort map",
                          fix="give points.parquet, --walk folders or a --scene")
-    tables, attrs = [], {}
+    tables, summaries, attrs = [], [], {}
     for p in points:
         df, meta = read_points(p)
         tables.append(df)
         attrs = attrs or meta
+        summary = (Path(p) if Path(p).is_dir() else Path(p).parent) / SUMMARY_FILE
+        if summary.is_file():
+            summaries.append(pd.read_parquet(summary))
     predictions = pd.concat(tables) if tables else None
     zone = timezone or ((attrs.get("session") or {}).get("timezone") if isinstance(attrs.get("session"), dict)
                         else None) or "UTC"
     schemes = list(scheme_paths)
     fmap = route_map(predictions, scene=scene_path, schemes=schemes, walks=find_walks(walk_paths),
+                     summaries=pd.concat(summaries, ignore_index=True) if summaries else None,
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,
                      simplify_m=simplify_m, error_cell_m=error_cell_m, title=title)

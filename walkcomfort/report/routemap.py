@@ -443,6 +443,29 @@ def _route_payload(group: pd.DataFrame, label: str, zone, tz_name: str, decimals
     }
 
 
+SUMMARY_FIELDS = ("walk_min", "length_m", "exp_share_comfortable", "exp_share_neutral", "exp_share_uncomfortable",
+                  "shade_share", "mean_utci_c", "peak_utci_c", "heat_dose_cmin")
+
+
+def _summary_lookup(summaries: pd.DataFrame | None):
+    """(route_id, scheme, departure ns) -> the popup's summary dict, or None."""
+    if summaries is None or len(summaries) == 0:
+        return lambda route, scheme, dep: None
+    need = [ROUTE_ID, SCHEME, DEPARTURE]
+    missing = [c for c in need if c not in summaries.columns]
+    if missing:
+        raise InputError(f"the route summaries lack column(s) {', '.join(missing)}", where="route summaries",
+                         fix="pass the summary table of walkcomfort.routes (summary.parquet)")
+    deps = pd.to_datetime(summaries[DEPARTURE], utc=True).dt.tz_convert(None).to_numpy("datetime64[ns]")
+    table = {}
+    for i, (r, sch, dep) in enumerate(zip(summaries[ROUTE_ID].astype(str), summaries[SCHEME].astype(str),
+                                          deps.astype("int64"))):
+        row = summaries.iloc[i]
+        table[(r, sch, int(dep))] = {k: (_num([row[k]], 3)[0] if k in summaries.columns else None)
+                                     for k in SUMMARY_FIELDS}
+    return lambda route, scheme, dep: table.get((str(route), str(scheme), int(dep)))
+
+
 def _ring(coords, decimals: int) -> list:
     return [[round(float(c[1]), decimals), round(float(c[0]), decimals)] for c in coords]
 
@@ -823,7 +846,8 @@ def _unique(label: str, seen: set) -> str:
 
 
 def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: Iterable = (),
-              walks: Iterable = (), timezone: str = "UTC", tiles=None, attribution: str | None = None,
+              walks: Iterable = (), summaries: pd.DataFrame | None = None, timezone: str = "UTC",
+              tiles=None, attribution: str | None = None,
               max_zoom: int | None = None, layers: Iterable[str] = DEFAULT_LAYERS, decimals: int = 5,
               simplify_m: float = 1.0, error_cell_m: float = 50.0, title: str | None = None):
     """Build the interactive route map.
@@ -841,6 +865,9 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         ``walkcomfort.scheme`` name. Their ``label`` names the layers.
     walks : iterable of DataFrame or path
         Recorded timelines (with votes and, for the error layer, predictions).
+    summaries : DataFrame, optional
+        Route summaries (one row per ``route_id, scheme, departure``, as from
+        :func:`walkcomfort.routes.compare.summarise`); shown in the route popups.
     timezone : str
         IANA zone for the times shown in route popups (walk popups use each walk's own
         zone from its session attributes when present).
@@ -908,6 +935,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
             return _text((doc[0].get("walkcomfort") or {}).get("label")) or name
         return name
 
+    summary_of = _summary_lookup(summaries)
     first = True
     shown_schemes: list[str] = []
     if predictions is not None:
@@ -927,6 +955,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
                 dep_label = pd.Timestamp(int(dep), tz="UTC").tz_convert(zone).strftime(fmt)
                 label = f"{label_of(scheme_name)} · departing {dep_label}"
                 data = _route_payload(group, label, zone, str(timezone), int(decimals), float(simplify_m))
+                data["summ"] = [summary_of(r, scheme_name, int(dep)) for r in data["routes"]]
                 predictors.update(data["predictors"])
                 lat_all += [v for v in data["lat"] if v is not None]
                 lon_all += [v for v in data["lon"] if v is not None]
@@ -1125,6 +1154,7 @@ _RUNTIME_CSS = """
 .wc-caution{font-size:10.5px;color:#444;margin-top:5px;border-top:1px solid #ccc;padding-top:4px}
 .wc-popup{font:12px/1.35 system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;min-width:190px}
 .wc-popup .wc-title{font-weight:600;margin-bottom:3px}
+.wc-popup .wc-sub{font-weight:600;margin-top:4px}
 .wc-popup table{border-collapse:collapse}
 .wc-popup th{text-align:left;font-weight:500;padding:1px 8px 1px 0;color:#444;vertical-align:top}
 .wc-popup td{padding:1px 0}
@@ -1188,6 +1218,7 @@ var WC = (function () {
     box.appendChild(el("div", "wc-title", d.label));
     if (d.routes.length > 1 || d.routes[0]) { row(t, "Route", d.routes[d.route[i]]); }
     row(t, "Local time", d.t[i] + " (" + d.tz + ")");
+    var s = d.summ ? d.summ[d.route[i]] : null;
     if (d.dist[i] !== null) { row(t, "Distance", num(d.dist[i], 0, "m")); }
     row(t, "Predicted", className(d.cls[i]));
     for (k = 0; k < api.cfg.comfort.length; k++) {
@@ -1205,6 +1236,17 @@ var WC = (function () {
       parts = d.reasons[r].split("; ");
       for (k = 0; k < parts.length; k++) { ul.appendChild(el("li", null, parts[k])); }
       box.appendChild(ul);
+    }
+    if (s) {
+      var st = el("table");
+      box.appendChild(el("div", "wc-sub", "Whole walk:"));
+      if (s.walk_min !== null) { row(st, "Duration", num(s.walk_min, 0, "min") + (s.length_m !== null ? ", " + num(s.length_m, 0, "m") : "")); }
+      row(st, "Expected time", pct(s.exp_share_comfortable) + " comfortable, " + pct(s.exp_share_neutral) + " neutral, " +
+          pct(s.exp_share_uncomfortable) + " uncomfortable");
+      if (s.shade_share !== null) { row(st, "In shade", pct(s.shade_share)); }
+      if (s.peak_utci_c !== null) { row(st, "UTCI mean / peak", num(s.mean_utci_c, 1) + " / " + num(s.peak_utci_c, 1, "\u00b0C")); }
+      if (s.heat_dose_cmin !== null) { row(st, "Heat dose", num(s.heat_dose_cmin, 0, "\u00b0C\u00b7min")); }
+      box.appendChild(st);
     }
     return box;
   }
