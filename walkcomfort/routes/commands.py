@@ -131,10 +131,11 @@ def _write(result, out_dir, prov, timezone):
     return write_outputs(result, out_dir, prov, timezone=timezone)
 
 
-def _report(result, written, out_dir):
+def _report(result, written, out_dir, timezone=None):
     s = result.summary
     for _, r in s.iterrows():
-        click.echo(f"{r['scheme']:>14} {r['departure'].strftime('%Y-%m-%d %H:%M')}Z  walk {r['walk_min']:.1f} min  "
+        dep = r["departure"].tz_convert(timezone) if timezone else r["departure"]
+        click.echo(f"{r['scheme']:>14} {dep.strftime('%Y-%m-%d %H:%M %Z')}  walk {r['walk_min']:.1f} min  "
                    f"comfortable {r['exp_min_comfortable']:.1f} min (expected)  shade {r['shade_share']:.0%}  "
                    f"mean UTCI {r['mean_utci_c']:.1f} °C")
     click.echo(f"wrote {len(written)} files to {out_dir}")
@@ -149,7 +150,7 @@ def route(route_path, scheme_path, **kw):
     """Predict comfort along one planned route for one scheme and one or many departures."""
     result, written = run_from_files(route_path, [scheme_path] if scheme_path else [], include_base=False,
                                      echo=lambda s: click.echo(s, err=True), **kw)
-    _report(result, written, kw["out_dir"])
+    _report(result, written, kw["out_dir"], kw.get("timezone"))
 
 
 @click.command()
@@ -161,4 +162,4 @@ def compare(route_path, scheme_paths, **kw):
     """Compare shade schemes side by side along a planned route (with the base scene)."""
     result, written = run_from_files(route_path, list(scheme_paths), include_base=True,
                                      echo=lambda s: click.echo(s, err=True), **kw)
-    _report(result, written, kw["out_dir"])
+    _report(result, written, kw["out_dir"], kw.get("timezone"))

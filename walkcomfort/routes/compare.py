@@ -65,9 +65,14 @@ def summarise(points: pd.DataFrame) -> pd.DataFrame:
         raise InputError(f"the per-point table lacks columns {missing}", fix="give a table from predict_route")
     df = points
     dt = df[STEP_S].to_numpy(float)
-    w = pd.DataFrame({k: df[k].to_numpy() for k in KEYS})
+    # one integer code per walk (route, scheme, departure): grouping on codes is much
+    # faster than on tz-aware timestamps held as objects
+    codes = [pd.factorize(df[k], sort=True) for k in KEYS]
+    sizes = [len(u) for _, u in codes]
+    code = np.ravel_multi_index(tuple(c for c, _ in codes), sizes) if len(df) else np.zeros(0, int)
+    w = pd.DataFrame({"code": code})
     w["dt"] = dt
-    w["t"] = df.index
+    w["t"] = df.index.as_unit("ns").asi8
     for c in C.COMFORT_CLASSES:
         w[f"e_{c}"] = df[PROBA[c]].to_numpy(float) * dt
         w[f"a_{c}"] = (df[COMFORT_CLASS].to_numpy() == c) * dt
@@ -82,9 +87,11 @@ def summarise(points: pd.DataFrame) -> pd.DataFrame:
     w["tmrt_dt"] = (df[C.TMRT_C].to_numpy(float) * dt) if C.TMRT_C in df.columns else np.nan
     w["dist"] = df[C.DIST_M].to_numpy(float) if C.DIST_M in df.columns else np.nan
     w["pred"] = df[PREDICTOR].to_numpy() if PREDICTOR in df.columns else ""
-    g = w.groupby(KEYS, sort=True, dropna=False)
-    out = pd.DataFrame({"arrival": g["t"].max(), "walk_min": g["dt"].sum() / 60.0, "length_m": g["dist"].max(),
-                        "predictor": g["pred"].first()})
+    g = w.groupby("code", sort=True)
+    out = pd.DataFrame({"arrival": pd.DatetimeIndex(g["t"].max().to_numpy().astype("datetime64[ns]")
+                                                    ).tz_localize("UTC"),
+                        "walk_min": (g["dt"].sum() / 60.0).to_numpy(), "length_m": g["dist"].max().to_numpy(),
+                        "predictor": g["pred"].first().to_numpy()}, index=g["dt"].sum().index)
     total = g["dt"].sum()
     for c in C.COMFORT_CLASSES:
         out[f"exp_min_{c}"] = g[f"e_{c}"].sum() / 60.0
@@ -102,7 +109,9 @@ def summarise(points: pd.DataFrame) -> pd.DataFrame:
     out["mean_tmrt_c"] = g["tmrt_dt"].sum() / total
     out["heat_dose_cmin"] = g["dose"].sum()
     out["points_n"] = g["dt"].size()
-    return out.reset_index()
+    idx = np.unravel_index(out.index.to_numpy(), sizes)
+    keys = pd.DataFrame({k: u.take(i) for k, (_, u), i in zip(KEYS, codes, idx)})
+    return pd.concat([keys, out.reset_index(drop=True)], axis=1)
 
 
 def compare_to_base(summary: pd.DataFrame, base: str = BASE) -> pd.DataFrame:

@@ -168,6 +168,19 @@ def summary_html(markdown: str) -> str:
             f"<style>{style}</style></head><body>\n" + "\n".join(body) + "\n</body></html>\n")
 
 
+def _telling_departure(result: Comparison):
+    """The departure where the schemes differ most from the base (mean UTCI), else the best base one."""
+    c = result.comparison
+    if len(c) and np.isfinite(c["delta_mean_utci_c"]).any():
+        score = c.groupby(DEPARTURE)["delta_mean_utci_c"].apply(lambda v: float(np.nanmax(np.abs(v))))
+        if score.max() > 0:
+            return score.idxmax()
+    if len(result.best):
+        base = result.best[result.best["scheme"] == "base"]
+        return (base if len(base) else result.best)[DEPARTURE].iloc[0]
+    return None
+
+
 def write_outputs(result: Comparison, out_dir, provenance: dict, timezone: str | None = None,
                   plot_departure=None) -> dict[str, Path]:
     """Write every output of a comparison (or of a single-scheme route run) into ``out_dir``.
@@ -196,9 +209,8 @@ def write_outputs(result: Comparison, out_dir, provenance: dict, timezone: str |
     md = summary_markdown(result, timezone=timezone)
     written["summary.md"] = _io.atomic_write_text(out / "summary.md", md)
     written["summary.html"] = _io.atomic_write_text(out / "summary.html", summary_html(md))
-    if plot_departure is None and len(result.best):
-        base = result.best[result.best["scheme"] == "base"]
-        plot_departure = (base if len(base) else result.best)[DEPARTURE].iloc[0]
+    if plot_departure is None:
+        plot_departure = _telling_departure(result)
     fig = plot_comfort_along_route(pts, departure=plot_departure, timezone=timezone)
     save_figure(fig, out / "comfort_along_route.png")
     written["comfort_along_route.png"] = out / "comfort_along_route.png"

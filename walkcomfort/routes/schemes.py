@@ -176,12 +176,12 @@ def load_scheme(path: str | os.PathLike) -> Scheme:
 
 
 def _scene_geojson(scene) -> dict:
-    return copy.deepcopy(scene.to_geojson())
+    return scene.to_geojson()  # already a deep copy (Scene.to_geojson)
 
 
 def validate_scheme(scene, scheme: Scheme) -> None:
     """Check a scheme against a scene: targets exist, added ids are new."""
-    ids = {(f.get("properties") or {}).get("id") for f in _scene_geojson(scene).get("features", [])}
+    ids = set(scene.ids)
     for i, feat in enumerate(scheme.edits):
         props = feat.get("properties") or {}
         loc = _where(scheme.source or scheme.name, i)
@@ -220,6 +220,7 @@ def apply_scheme(scene, scheme: Scheme):
     pos = {(f.get("properties") or {}).get("id"): k for k, f in enumerate(feats)}
     removed = set()
     added = []
+    checks: list = []
     n_add = 0
     for i, feat in enumerate(scheme.edits):
         props = dict(feat.get("properties") or {})
@@ -233,29 +234,40 @@ def apply_scheme(scene, scheme: Scheme):
             new["properties"].update({kk: v for kk, v in props.items() if kk != "id"})
             if feat.get("geometry") is not None:
                 new["geometry"] = copy.deepcopy(feat["geometry"])
-            _check_feature(new, gj, loc)
+            checks.append((new, loc))
             feats[k] = new
         else:
             n_add += 1
             props.setdefault("id", f"{scheme.name}-{n_add}")
             new = {"type": "Feature", "geometry": copy.deepcopy(feat["geometry"]), "properties": props}
-            _check_feature(new, gj, loc)
+            checks.append((new, loc))
             added.append(new)
+    _check_features(checks, gj)
     gj["features"] = [f for k, f in enumerate(feats) if k not in removed] + added
-    return Scene.from_geojson(gj)
+    return Scene.from_geojson(gj, source=f"scene + scheme {scheme.name}")
 
 
-def _check_feature(feat: dict, gj: dict, loc: str) -> None:
-    """Validate one edited feature through the scene's own rules, naming the scheme feature."""
+def _check_features(checks: list, gj: dict) -> None:
+    """Validate the edited features through the scene's own rules, naming the scheme feature.
+
+    All at once first (fast); only when that fails, one by one to find the culprit.
+    """
     from walkcomfort.environment.scene import Scene
 
-    one = {k: v for k, v in gj.items() if k != "features"}
-    one["features"] = [feat]
+    if not checks:
+        return
+    head = {k: v for k, v in gj.items() if k != "features"}
     try:
-        Scene.from_geojson(one)
-    except InputError as exc:
-        raise InputError(f"the edited feature is not a valid scene feature ({exc.what})", where=loc,
-                         fix=exc.fix or "give the properties the scene format asks for") from None
+        Scene.from_geojson({**head, "features": [f for f, _ in checks]})
+        return
+    except InputError:
+        pass
+    for feat, loc in checks:
+        try:
+            Scene.from_geojson({**head, "features": [feat]})
+        except InputError as exc:
+            raise InputError(f"the edited feature is not a valid scene feature ({exc.what})", where=loc,
+                             fix=exc.fix or "give the properties the scene format asks for") from None
 
 
 # --------------------------------------------------------------------------- inventory
