@@ -71,3 +71,17 @@ def test_crowns_only_measure_ignores_buildings():
                                                 "crown_radius_m": 3.0, "transmissivity": 0.2})], LAT, LON)
     out = sky_view_factor(sc, [X0], [Y0], z_m=1.1)
     assert out[C.SVF].iloc[0] < out[C.SKY_VIEW_CROWN_FRAC].iloc[0] < 1.0
+
+
+def test_pruned_horizon_search_equals_testing_every_obstacle():
+    # From the definition: the tallest-bound-first pruning may only skip obstacles that
+    # cannot change the result, so it must equal the exhaustive computation.
+    from walkcomfort.environment.synthetic import random_scene
+
+    sc, (x0, y0) = random_scene(60, 40, 250, seed=8, n_crowns=15, n_canopies=15)
+    rng = np.random.default_rng(9)
+    x, y = x0 + rng.uniform(-120, 120, 150), y0 + rng.uniform(-120, 120, 150)
+    a = sky_view_factor(sc, x, y, z_m=1.1)
+    b = sky_view_factor(sc, x, y, z_m=1.1, _prune=False)
+    np.testing.assert_allclose(a.to_numpy(), b.to_numpy(), atol=1e-12)
+    assert (a[C.SVF] < 1).mean() > 0.5

@@ -44,8 +44,9 @@ ENV_COLUMNS = (C.SUN_ELEV_DEG, C.SUN_ZENITH_DEG, C.SUN_AZIM_DEG, C.GHI_WM2, C.DN
 
 #: Default height of the point that must see the sun and the sky [m] (centre of a standing body).
 BODY_HEIGHT_M = 1.1
-#: Positions closer than this share one sky-view computation [m] (SVF changes with place, not time).
-SVF_GRID_M = 0.25
+#: Positions are snapped to this grid for the sky view [m]: SVF changes slowly with place (and not
+#: with time), and GPS positions are uncertain by several metres anyway.
+SVF_GRID_M = 2.0
 
 
 def _col(df: pd.DataFrame, name: str) -> np.ndarray:

@@ -57,38 +57,104 @@ def _union_sin2(ray, lo, hi, n_rays):
     return np.bincount(ray, weights=seg, minlength=n_rays)
 
 
-def _bands(obs: Obstacles, px, py, pz, dx, dy, radius):
-    """Elevation bands hidden by each (ray, obstacle) pair."""
+def _polygon_interval(obs, ob, px, py, dx, dy, radius):
+    """First entry and last exit distance of rays in polygon obstacles (NaN where missed)."""
+    ax, ay = px, py
+    inside, n_cross, t_min, t_max = segment_polygon_crossings(obs, ob, ax, ay, ax + dx * radius, ay + dy * radius)
+    met = inside | (n_cross > 0)
+    ends_inside = inside ^ (n_cross % 2 == 1)
+    s_in = np.where(inside, 0.0, t_min * radius)
+    s_out = np.where(ends_inside | (n_cross == 0), radius, t_max * radius)
+    return np.where(met, s_in, np.nan), np.where(met, s_out, np.nan)
+
+
+def _band_angles(obs, ob, z, s_in, s_out):
+    hi = np.arctan2(obs.z_top[ob] - z, s_in)  # s_in = 0 under the obstacle -> pi/2
+    zb = obs.z_bottom[ob]
+    lo = np.where(zb > z, np.arctan2(zb - z, np.maximum(s_out, 1e-9)), 0.0)
+    return np.clip(lo, 0.0, np.pi / 2), np.clip(hi, 0.0, np.pi / 2)
+
+
+#: Rounds of the "tallest first" search for the building horizon before testing all the rest.
+_MAX_ROUNDS = 6
+
+
+def _bands(obs: Obstacles, px, py, pz, dx, dy, radius, prune: bool = True):
+    """Elevation bands hidden along each ray: one per crown/canopy met, one per ray for buildings.
+
+    Buildings stand on the ground, so the bands they hide all start at the horizon and
+    only the highest matters. Its search is pruned: a building's band cannot reach above
+    ``atan2(z_t - z, d)`` with ``d`` the distance at which the ray enters its enclosing
+    circle, so candidates are tested tallest-bound first and those whose bound is below
+    the best exact value found are skipped (exact; ``prune=False`` tests all, for checks).
+    """
     length = np.full(px.size, float(radius))
     ray, ob, enter, exit_ = ray_pairs(obs, px, py, dx, dy, length)
     keep = obs.z_top[ob] > pz[ray]
     ray, ob, enter, exit_ = ray[keep], ob[keep], enter[keep], exit_[keep]
     s_in = np.maximum(enter, 0.0)
     s_out = np.minimum(exit_, radius)
-    poly = ~obs.is_circle[ob]
-    if poly.any():
-        rp = ray[poly]
-        ax, ay = px[rp], py[rp]
-        inside, n_cross, t_min, t_max = segment_polygon_crossings(obs, ob[poly], ax, ay, ax + dx[rp] * radius,
-                                                                  ay + dy[rp] * radius)
-        met = inside | (n_cross > 0)
-        ends_inside = inside ^ (n_cross % 2 == 1)
-        p_in = np.where(inside, 0.0, t_min * radius)
-        p_out = np.where(ends_inside | (n_cross == 0), radius, t_max * radius)
-        s_in[poly] = np.where(met, p_in, np.nan)
-        s_out[poly] = np.where(met, p_out, np.nan)
-    ok = np.isfinite(s_in) & np.isfinite(s_out)
-    ray, ob, s_in, s_out = ray[ok], ob[ok], s_in[ok], s_out[ok]
-    z = pz[ray]
-    hi = np.arctan2(obs.z_top[ob] - z, s_in)  # s_in = 0 under the obstacle -> pi/2
-    zb = obs.z_bottom[ob]
-    lo = np.where(zb > z, np.arctan2(zb - z, np.maximum(s_out, 1e-9)), 0.0)
-    lo = np.clip(lo, 0.0, np.pi / 2)
-    hi = np.clip(hi, 0.0, np.pi / 2)
-    return ray, ob, lo, hi
+    # buildings (opaque, from the ground); crowns always keep their own bands for sky_frac_crowns
+    grounded = (obs.kind[ob] == KIND_CODE["building"]) & (obs.z_bottom[ob] <= pz[ray]) & ~obs.is_circle[ob]
+    out_ray, out_ob, out_lo, out_hi = [], [], [], []
+    # crowns, canopies and point trees: every band counts
+    other = ~grounded
+    if other.any():
+        r, o, si, so = ray[other], ob[other], s_in[other], s_out[other]
+        poly = ~obs.is_circle[o]
+        if poly.any():
+            si = si.copy()
+            so = so.copy()
+            si[poly], so[poly] = _polygon_interval(obs, o[poly], px[r[poly]], py[r[poly]], dx[r[poly]],
+                                                   dy[r[poly]], radius)
+        ok = np.isfinite(si) & np.isfinite(so)
+        r, o, si, so = r[ok], o[ok], si[ok], so[ok]
+        lo, hi = _band_angles(obs, o, pz[r], si, so)
+        out_ray.append(r), out_ob.append(o), out_lo.append(lo), out_hi.append(hi)
+    # grounded polygons (buildings): the highest band per ray
+    if grounded.any():
+        r, o, d = ray[grounded], ob[grounded], s_in[grounded]
+        bound = np.arctan2(obs.z_top[o] - pz[r], d)
+        best = np.full(px.size, -1.0)
+        best_ob = np.full(px.size, -1, dtype=np.int64)
+        order = np.lexsort((-bound, r))
+        r, o, bound = r[order], o[order], bound[order]
+        rounds = 0
+        while r.size:
+            rounds += 1
+            if prune and rounds <= _MAX_ROUNDS:
+                first = np.ones(r.size, dtype=bool)
+                first[1:] = r[1:] != r[:-1]
+            else:
+                first = np.ones(r.size, dtype=bool)
+            tr, to = r[first], o[first]
+            si, so = _polygon_interval(obs, to, px[tr], py[tr], dx[tr], dy[tr], radius)
+            met = np.isfinite(si)
+            _, hi = _band_angles(obs, to[met], pz[tr[met]], si[met], so[met])
+            # keep the highest per ray
+            cand = np.full(px.size, -1.0)
+            np.maximum.at(cand, tr[met], hi)
+            better = cand > best
+            best = np.where(better, cand, best)
+            if better.any():
+                rr = tr[met]
+                winner = hi >= cand[rr] - 1e-15
+                best_ob[rr[winner]] = to[met][winner]
+            rest = ~first
+            r, o, bound = r[rest], o[rest], bound[rest]
+            keep = bound > best[r]
+            r, o, bound = r[keep], o[keep], bound[keep]
+        has = best >= 0
+        out_ray.append(np.flatnonzero(has)), out_ob.append(best_ob[has])
+        out_lo.append(np.zeros(int(has.sum()))), out_hi.append(best[has])
+    if not out_ray:
+        e = np.empty(0)
+        return np.empty(0, np.int64), np.empty(0, np.int64), e, e
+    return (np.concatenate(out_ray), np.concatenate(out_ob), np.concatenate(out_lo), np.concatenate(out_hi))
 
 
-def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: float = 200.0) -> pd.DataFrame:
+def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: float = 200.0,
+                    _prune: bool = True) -> pd.DataFrame:
     """Sky view factor and crown-free sky fraction at points.
 
     Parameters
@@ -140,7 +206,7 @@ def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: flo
         p = pts[c0:c0 + per_chunk]
         px, py, pz = np.repeat(x[p], S), np.repeat(y[p], S), np.repeat(z[p], S)
         dx, dy = np.tile(sdx, p.size), np.tile(sdy, p.size)
-        ray, ob, lo, hi = _bands(obs, px, py, pz, dx, dy, radius_m)
+        ray, ob, lo, hi = _bands(obs, px, py, pz, dx, dy, radius_m, prune=_prune)
         blocked = _union_sin2(ray, lo, hi, px.size).reshape(p.size, S)
         cr = is_crown[ob]
         blocked_c = _union_sin2(ray[cr], lo[cr], hi[cr], px.size).reshape(p.size, S)
