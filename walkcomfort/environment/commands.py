@@ -12,6 +12,8 @@ TIMELINE_FILE = "timeline.parquet"
 ENVIRONMENT_FILE = "environment.json"
 #: Files of a walk folder copied along when the output goes to another folder.
 COMPANIONS = ("qa.json", "quarantine.csv")
+#: Lower edge of "very strong heat stress" on the UTCI assessment scale [°C] (Bröde et al. 2012).
+HEAT_CAUTION_UTCI_C = 38.0
 
 
 def find_timelines(paths) -> list[Path]:
@@ -135,3 +137,8 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
         click.echo(f"{walk_id}: {q['rows']} rows; Tmrt from globe {q['tmrt_globe']}, from fluxes {q['tmrt_fluxes']}, "
                    f"missing {q['tmrt_missing']}; UTCI out of range {q['out_of_range']}, wind clamped to 0.5 m/s "
                    f"{q['wind_clamped']} -> {target_dir / TIMELINE_FILE}")
+        hot = int((pd.to_numeric(env[C.UTCI_C], errors="coerce") > HEAT_CAUTION_UTCI_C).sum())
+        if hot:
+            click.echo(f"  caution: {hot} rows at very strong or extreme heat stress (UTCI > "
+                       f"{HEAT_CAUTION_UTCI_C:g} °C). On field walks follow local occupational-health guidance "
+                       "(rest, water, shade, stopping rules); these figures are not medical advice.")
