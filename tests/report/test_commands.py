@@ -64,15 +64,13 @@ def test_report_command_for_walks(tmp_path, capsys):
     walks = tmp_path / "ingest"
     _write_walk(walks / "tw-a", note="<b>bold?</b>")
     _write_walk(walks / "tw-b")
-    rc = main(["report", str(walks), "-o", str(tmp_path / "reports")])
-    assert rc == 0
-    out = capsys.readouterr().out
-    assert out.count("wrote ") == 2
-    page = (tmp_path / "reports" / "tw-a" / "session_report.html").read_text()
+    # a folder of walk folders: one report beside each timeline
+    assert main(["report", str(walks)]) == 0
+    assert capsys.readouterr().out.count("wrote ") == 2
+    page = (walks / "tw-a" / "session_report.html").read_text()
     assert "&lt;b&gt;bold?&lt;/b&gt;" in page
-    # default: beside the timeline; one input can be written to a named file
-    assert main(["report", str(walks / "tw-b")]) == 0
     assert (walks / "tw-b" / "session_report.html").is_file()
+    # one input can go to a named file, with a title
     assert main(["report", str(walks / "tw-b" / "timeline.parquet"), "-o", str(tmp_path / "one.html"),
                  "--title", "Morning walk"]) == 0
     assert "<title>Morning walk</title>" in (tmp_path / "one.html").read_text()
