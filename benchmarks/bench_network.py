@@ -78,8 +78,10 @@ def build_job(n_segments: int, hours: int, tile_size_m: float):
     source = StatedConditions(t_air_c=33.0, rh_pct=35.0, wind_ms=2.0)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
     weather.attrs = {}
+    t0 = time.perf_counter()
     job = plan_job(net, times, {"base": base, name: trees}, weather, tile_size_m=tile_size_m, time_chunk=hours,
                    site=site, context={"wind_height_m": 10.0})
+    job.parameters["_plan_s"] = time.perf_counter() - t0
     return net, job, {"base": base, name: trees}
 
 
@@ -107,21 +109,23 @@ def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--segments", type=int, default=2000)
     ap.add_argument("--hours", type=int, default=14)
-    ap.add_argument("--tile-size", type=float, default=250.0)
-    ap.add_argument("--naive-sample", type=int, default=40)
+    ap.add_argument("--tile-size", type=float, default=400.0)
+    ap.add_argument("--naive-sample", type=int, default=20)
     ap.add_argument("--skip-dask", action="store_true")
     args = ap.parse_args(argv)
 
     t0 = time.perf_counter()
     net, job, scenes = build_job(args.segments, args.hours, args.tile_size)
-    plan_s = time.perf_counter() - t0
+    plan_s = job.parameters.pop("_plan_s", float("nan"))
+    setup_s = time.perf_counter() - t0
     n_obst = {k: len(v["features"]) for k, v in scenes.items()}
     per_tile = np.mean([len(p.scene["features"]) for p in job.partitions])
     print(f"size: {net.n_segments} segments ({len(net.points)} points) x {len(job.partitions[0].times)} hours x "
           f"{len(job.schemes)} schemes = {job.expected_rows} rows; obstacles {n_obst}; "
           f"{len(job.partitions)} partitions, {per_tile:.0f} obstacles per tile on average; "
           f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
-    print(f"plan (read, cut, tile, subset scenes): {plan_s:.2f} s")
+    print(f"setup (synthetic town, scheme applied, weather): {setup_s - plan_s:.2f} s; "
+          f"plan (tiles, obstacle buffers, scene subsets, partitions): {plan_s:.2f} s; tile {args.tile_size:g} m")
 
     naive = naive_rate(job, scenes, args.naive_sample)
     print(f"naive baseline (one segment x hour at a time, whole scene): {naive:.1f} rows/s "

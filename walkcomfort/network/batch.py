@@ -33,7 +33,8 @@ import pandas as pd
 
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
-from walkcomfort.network.tiling import DEFAULT_Z_M, Tile, make_tiles, obstacle_table, subset_scene
+from walkcomfort.network.tiling import (DEFAULT_Z_M, Tile, feature_positions, make_tiles, obstacle_table,
+                                       subset_scene)
 
 #: The scheme name of the scene as it is (no edits).
 BASE = "base"
@@ -226,9 +227,12 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
         scheme_digests[scheme] = _json_digest(scene)
         tiles: list[Tile] = make_tiles(network, obstacle_table(scene, network.crs), tile_size_m,
                                        min_sun_elev_deg, z_m)
+        positions = feature_positions(scene)
+        by_segment = all_points.groupby(C.SEGMENT_ID, sort=False).indices
         for tile in tiles:
-            pts = all_points.loc[all_points[C.SEGMENT_ID].isin(tile.segment_ids)].reset_index(drop=True)
-            tscene = subset_scene(scene, tile.obstacle_ids)
+            rows = np.concatenate([by_segment[s] for s in tile.segment_ids])
+            pts = all_points.iloc[np.sort(rows)].reset_index(drop=True)
+            tscene = subset_scene(scene, tile.obstacle_ids, positions)
             for k, chunk in enumerate(chunks):
                 w = None if weather is None else weather.loc[chunk]
                 parts.append(Partition(f"{scheme}/{tile.tile_id}/c{k:04d}", scheme, tile.tile_id, k, chunk,

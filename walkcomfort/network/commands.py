@@ -69,8 +69,15 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
         kw["wind_height_m"] = logger_wind_height
     source = open_weather(weather_path, _conditions(conditions), **kw)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
+    predictor = "physics-rule"
+    if model:
+        # load once here: a bad bundle is one clear error now, not a failure in every partition
+        from walkcomfort.routes.predict import Predictor
+
+        predictor = Predictor.from_bundle(model).label
     context = {"wind_height_m": float(weather.attrs.get("wind_height_m", getattr(source, "wind_height_m", 10.0))),
-               "weather": getattr(source, "label", "weather"), "model": str(model) if model else None}
+               "weather": getattr(source, "label", "weather"), "model": str(model) if model else None,
+               "predictor": predictor}
     weather = weather.copy()
     weather.attrs = {}
     job = plan_job(network, times, scenes, weather, tile_size_m=tile_size_m, time_chunk=time_chunk,

@@ -82,20 +82,28 @@ def obstacle_table(scene_geojson: dict | None, crs) -> pd.DataFrame:
     import shapely
     from pyproj import Transformer
     from shapely.geometry import shape
-    from shapely.ops import transform
 
-    rows = []
-    if not scene_geojson:
+    feats = (scene_geojson or {}).get("features") or []
+    if not feats:
         return pd.DataFrame(columns=["id", "kind", "height_m", "geometry"])
     fwd = Transformer.from_crs("EPSG:4326", crs, always_xy=True)
-    for i, feat in enumerate(scene_geojson.get("features") or []):
-        props = feat.get("properties") or {}
-        geom = shapely.make_valid(transform(fwd.transform, shape(feat["geometry"])))
-        if geom.geom_type == "Point":
-            geom = geom.buffer(float(props.get("crown_radius_m") or 0.0), 32)
-        rows.append({"id": str(props.get("id", i)), "kind": props.get("kind"),
-                     "height_m": float(props.get("height_m") or 0.0), "geometry": geom})
-    return pd.DataFrame(rows, columns=["id", "kind", "height_m", "geometry"])
+    props = [f.get("properties") or {} for f in feats]
+    geoms = np.array([shape(f["geometry"]) for f in feats], dtype=object)
+
+    def project(xy):
+        x, y = fwd.transform(xy[:, 0], xy[:, 1])
+        return np.column_stack([x, y])
+
+    # one projection call for every vertex of the scene (a city has tens of thousands of features)
+    geoms = shapely.make_valid(shapely.transform(geoms, project))
+    point = shapely.get_type_id(geoms) == 0
+    if point.any():
+        radius = np.array([float(p.get("crown_radius_m") or 0.0) for p in props])
+        geoms[point] = shapely.buffer(geoms[point], radius[point], quad_segs=8)
+    return pd.DataFrame({"id": [str(p.get("id", i)) for i, p in enumerate(props)],
+                         "kind": [p.get("kind") for p in props],
+                         "height_m": [float(p.get("height_m") or 0.0) for p in props],
+                         "geometry": geoms}, columns=["id", "kind", "height_m", "geometry"])
 
 
 @dataclass
@@ -157,9 +165,12 @@ def make_tiles(network, obstacles: pd.DataFrame, tile_size_m: float = 250.0,
                            float(svf_radius_m))
         max_reach = float(np.max(reach)) if len(reach) else 0.0
     tiles = []
+    ext = pts.groupby(C.TILE_ID, sort=True).agg(x0=(C.X_M, "min"), y0=(C.Y_M, "min"), x1=(C.X_M, "max"),
+                                                y1=(C.Y_M, "max"))
+    ids = obstacles["id"].to_numpy() if have else None
     for t, seg_ids in tid.groupby(tid, sort=True):
-        p = pts.loc[pts[C.TILE_ID] == t]
-        bounds = (float(p[C.X_M].min()), float(p[C.Y_M].min()), float(p[C.X_M].max()), float(p[C.Y_M].max()))
+        e = ext.loc[t]
+        bounds = (float(e["x0"]), float(e["y0"]), float(e["x1"]), float(e["y1"]))
         keep: list[str] = []
         if have:
             area = box(*bounds)
@@ -168,17 +179,26 @@ def make_tiles(network, obstacles: pd.DataFrame, tile_size_m: float = 250.0,
                 dist = area.distance(geoms[cand])
                 # 1 m of slack: a footprint exactly at its reach must not be lost to rounding
                 ok = cand[dist <= reach[cand] + 1.0]
-                keep = [obstacles["id"].iat[i] for i in ok]
+                keep = [str(v) for v in ids[ok]]
         tiles.append(Tile(str(t), list(seg_ids.index), bounds, keep))
     return tiles
 
 
-def subset_scene(scene_geojson: dict | None, obstacle_ids) -> dict | None:
-    """A copy of the scene GeoJSON holding only the features in ``obstacle_ids`` (scene order kept)."""
+def feature_positions(scene_geojson: dict | None) -> dict[str, int]:
+    """``{feature id: position}`` of a scene GeoJSON (for repeated :func:`subset_scene` calls)."""
+    feats = (scene_geojson or {}).get("features") or []
+    return {str((f.get("properties") or {}).get("id", i)): i for i, f in enumerate(feats)}
+
+
+def subset_scene(scene_geojson: dict | None, obstacle_ids, positions: dict[str, int] | None = None) -> dict | None:
+    """A copy of the scene GeoJSON holding only the features in ``obstacle_ids`` (scene order kept).
+
+    ``positions`` (from :func:`feature_positions`) saves a scan of the whole scene per call.
+    """
     if scene_geojson is None:
         return None
-    want = set(obstacle_ids)
+    pos = positions if positions is not None else feature_positions(scene_geojson)
+    feats = scene_geojson.get("features") or []
     out = {k: v for k, v in scene_geojson.items() if k != "features"}
-    out["features"] = [f for i, f in enumerate(scene_geojson.get("features") or [])
-                       if str((f.get("properties") or {}).get("id", i)) in want]
+    out["features"] = [feats[i] for i in sorted(pos[o] for o in set(obstacle_ids))]
     return out
