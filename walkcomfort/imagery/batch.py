@@ -41,7 +41,7 @@ from walkcomfort import columns as C
 from walkcomfort._io import file_digest, to_json_text, write_json
 from walkcomfort._progress import track
 from walkcomfort.errors import InputError
-from walkcomfort.imagery.cues import CueParams, frame_cues, sky_mask
+from walkcomfort.imagery.cues import CueParams, frame_cues
 from walkcomfort.imagery.people import PeopleParams, count_people
 from walkcomfort.imagery.quality import QualityParams, quality_flags
 
@@ -120,9 +120,8 @@ def load_frame(path: str | os.PathLike, max_width: int | None = None) -> np.ndar
 def analyse_image(rgb: np.ndarray, params: AnalysisParams | None = None) -> dict:
     """All cues and quality flags of one decoded frame (see the module notes)."""
     p = params or AnalysisParams()
-    out = frame_cues(rgb, p.cues)
-    sky = sky_mask(rgb, p.cues)
-    out.update(quality_flags(rgb, p.quality, sky=sky, sky_frac=out[C.SKY_FRAC]))
+    out, masks = frame_cues(rgb, p.cues, return_masks=True)
+    out.update(quality_flags(rgb, p.quality, sky=masks["sky"], sky_frac=out[C.SKY_FRAC], gray=masks["gray"]))
     out[C.PEOPLE_N] = count_people(rgb, p.people) if p.detect_people else None
     return out
 

@@ -415,7 +415,7 @@ def sky_fraction(rgb, params: CueParams | None = None) -> float:
     return float(sky_mask(rgb, params).mean())
 
 
-def frame_cues(rgb, params: CueParams | None = None) -> dict:
+def frame_cues(rgb, params: CueParams | None = None, return_masks: bool = False):
     """All scene cues of one frame in one pass.
 
     Parameters
@@ -423,6 +423,8 @@ def frame_cues(rgb, params: CueParams | None = None) -> dict:
     rgb : array_like, shape (H, W, 3)
         RGB frame, 8-bit.
     params : CueParams, optional
+    return_masks : bool
+        Also return the masks and the luma (for the quality checks, without recomputing).
 
     Returns
     -------
@@ -430,6 +432,8 @@ def frame_cues(rgb, params: CueParams | None = None) -> dict:
         ``sky_frac`` [-], ``green_frac`` [-], ``brightness_frac`` [-] (glossary names
         from :mod:`walkcomfort.columns`), and ``green_px``, ``total_px`` (counts, for
         :func:`green_view_index`).
+    masks : dict, only with ``return_masks``
+        ``sky`` and ``green`` (bool, H×W) and ``gray`` (uint8 luma, H×W).
     """
     p = params or CueParams()
     img = check_rgb(rgb)
@@ -437,15 +441,25 @@ def frame_cues(rgb, params: CueParams | None = None) -> dict:
     rows = max(1, int(round(p.sky_upper_field * img.shape[0])))
     tex = texture_map(gray[:rows])
     sky = sky_mask(img, p, _gray=gray, _texture=tex)
-    exg, total = _exg_u8(img)
-    t = _resolve_exg_threshold(exg, total, p.exg_threshold, p.exg_otsu_floor)
-    green = (exg > t) & (total >= MIN_CHROMA_SUM)
+    if isinstance(p.exg_threshold, str):
+        exg, total = _exg_u8(img)
+        t = _resolve_exg_threshold(exg, total, p.exg_threshold, p.exg_otsu_floor)
+        green = (exg > t) & (total >= MIN_CHROMA_SUM)
+    else:
+        # ExG > t  <=>  2G - R - B > t·(R+G+B) where the sum is positive: integers, no division
+        i = img.astype(np.int16)
+        num = 2 * i[..., 1] - i[..., 0] - i[..., 2]
+        total = i[..., 0] + i[..., 1] + i[..., 2]
+        green = (num > float(p.exg_threshold) * total) & (total >= MIN_CHROMA_SUM)
     n = img.shape[0] * img.shape[1]
     green_px = int(np.count_nonzero(green))
-    return {
+    out = {
         C.SKY_FRAC: float(np.count_nonzero(sky) / n),
         C.GREEN_FRAC: float(green_px / n),
         C.BRIGHTNESS_FRAC: float(gray.mean() / 255.0),
         "green_px": green_px,
         "total_px": int(n),
     }
+    if return_masks:
+        return out, {"sky": sky, "green": green, "gray": gray}
+    return out

@@ -81,8 +81,8 @@ class QualityParams:
         return asdict(self)
 
 
-def _gray_at_width(rgb: np.ndarray, width: int) -> np.ndarray:
-    gray = cv2.cvtColor(rgb, cv2.COLOR_RGB2GRAY)
+def _gray_at_width(rgb: np.ndarray, width: int, gray=None) -> np.ndarray:
+    gray = cv2.cvtColor(rgb, cv2.COLOR_RGB2GRAY) if gray is None else gray
     h, w = gray.shape
     # only ever reduce: enlarging a small frame would smooth it and fake a blur
     if w > width:
@@ -117,11 +117,11 @@ def local_std(gray_u8: np.ndarray, box: int = 15) -> np.ndarray:
     """Standard deviation of the grey level in a ``box``×``box`` window [grey levels]."""
     g = gray_u8.astype(np.float32)
     mean = cv2.blur(g, (box, box))
-    mean_sq = cv2.blur(g * g, (box, box))
-    return np.sqrt(np.maximum(mean_sq - mean * mean, 0.0))
+    mean_sq = cv2.sqrBoxFilter(g, cv2.CV_32F, (box, box))
+    return cv2.sqrt(np.maximum(mean_sq - mean * mean, 0.0))
 
 
-def quality_measures(rgb, params: QualityParams | None = None, sky=None) -> dict:
+def quality_measures(rgb, params: QualityParams | None = None, sky=None, gray=None) -> dict:
     """The raw measures behind the flags.
 
     Parameters
@@ -132,6 +132,8 @@ def quality_measures(rgb, params: QualityParams | None = None, sky=None) -> dict
     sky : numpy.ndarray of bool, shape (H, W), optional
         Sky mask of the frame (from :func:`walkcomfort.imagery.cues.sky_mask`); sky is
         not counted as featureless obstruction.
+    gray : numpy.ndarray, uint8, shape (H, W), optional
+        The frame's BT.601 luma when already computed.
 
     Returns
     -------
@@ -141,21 +143,22 @@ def quality_measures(rgb, params: QualityParams | None = None, sky=None) -> dict
     """
     p = params or QualityParams()
     img = check_rgb(rgb)
-    gray = _gray_at_width(img, p.width)
+    gray = _gray_at_width(img, p.width, gray)
     n = gray.size
     std = local_std(gray)
     featureless = std < p.obstructed_max_std
     # a dusk or deep-blue sky is featureless but not an obstruction: blue-dominant pixels
     # in the upper field are left out whatever their brightness
-    small = cv2.resize(img, gray.shape[::-1], interpolation=cv2.INTER_AREA)
+    small = img if img.shape[:2] == gray.shape else cv2.resize(img, gray.shape[::-1], interpolation=cv2.INTER_AREA)
     upper = int(round(SKY_UPPER_FIELD * small.shape[0]))
     skylike = np.zeros(gray.shape, dtype=bool)
     skylike[:upper] = (small[:upper, :, 2].astype(np.int16) - small[:upper, :, 0]) >= SKY_BLUE_MARGIN
     featureless &= ~skylike
     if sky is not None:
-        sky_small = cv2.resize(np.asarray(sky, dtype=np.uint8), gray.shape[::-1],
-                               interpolation=cv2.INTER_NEAREST).astype(bool)
-        featureless &= ~sky_small
+        sky = np.asarray(sky, dtype=bool)
+        if sky.shape != gray.shape:
+            sky = cv2.resize(sky.astype(np.uint8), gray.shape[::-1], interpolation=cv2.INTER_NEAREST).astype(bool)
+        featureless &= ~sky
     return {
         C.FRAME_LAPVAR: laplacian_variance(gray),
         "clipped_frac": float(np.count_nonzero(gray >= 250) / n),
@@ -182,7 +185,8 @@ def flags_from_measures(measures: dict, sky_frac: float = 0.0, params: QualityPa
     }
 
 
-def quality_flags(rgb, params: QualityParams | None = None, sky=None, sky_frac: float | None = None) -> dict:
+def quality_flags(rgb, params: QualityParams | None = None, sky=None, sky_frac: float | None = None,
+                  gray=None) -> dict:
     """Quality flags of one frame.
 
     Parameters
@@ -201,7 +205,7 @@ def quality_flags(rgb, params: QualityParams | None = None, sky=None, sky_frac: 
         ``qa_frame_blur``, ``qa_frame_overexposed``, ``qa_frame_underexposed``,
         ``qa_frame_obstructed``, ``frame_ok`` (bools) and ``frame_lapvar`` [grey levels²].
     """
-    m = quality_measures(rgb, params, sky=sky)
+    m = quality_measures(rgb, params, sky=sky, gray=gray)
     if sky_frac is None:
         sky_frac = float(np.mean(sky)) if sky is not None else 0.0
     out = flags_from_measures(m, sky_frac, params)
