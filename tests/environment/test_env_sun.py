@@ -59,13 +59,17 @@ def test_interval_midpoints_for_hourly_files():
     assert list(sun.interval_midpoints(t, "1h", label="start").strftime("%H:%M")) == ["01:30", "02:30", "03:30"]
 
 
-def test_erbs_pvlib_reference_values():
-    # pvlib's own test of irradiance.erbs: GHI 1000 W m-2, zenith 10°, 2019-06-20
-    # -> DNI 842.0, DHI 170.8 (pvlib/tests/test_irradiance.py, test_erbs).
-    t = pd.DatetimeIndex(["2019-06-20"], tz="UTC")
-    out = sun.decompose_ghi(np.array([1000.0]), np.array([10.0]), t)
-    assert out[C.DNI_WM2].iloc[0] == pytest.approx(842.0, abs=0.5)
-    assert out[C.DHI_WM2].iloc[0] == pytest.approx(170.8, abs=0.5)
+@pytest.mark.parametrize("day, ghi, zenith, dni, dhi", [
+    # pvlib's own test of irradiance.erbs (pvlib/tests/test_irradiance.py::test_erbs)
+    ("2019-06-20", 1000.0, 10.0, 842.0, 170.8),
+    ("2019-01-01", 1000.0, 10.0, 794.2, 217.9),
+    ("2019-01-01", 50.0, 85.0, 96.7, 41.6),
+])
+def test_erbs_pvlib_reference_values(day, ghi, zenith, dni, dhi):
+    t = pd.DatetimeIndex([day], tz="UTC")
+    out = sun.decompose_ghi(np.array([ghi]), np.array([zenith]), t)
+    assert out[C.DNI_WM2].iloc[0] == pytest.approx(dni, abs=0.5)
+    assert out[C.DHI_WM2].iloc[0] == pytest.approx(dhi, abs=0.5)
 
 
 def test_erbs_low_sun_guard_and_night():

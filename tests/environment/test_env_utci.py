@@ -22,9 +22,12 @@ def test_wind_height_factor_from_1_1_m():
 
 
 @pytest.mark.parametrize("ta, tr, v, rh, expected", [
-    # Fixed rows of the issue, as pythermalcomfort's documented utci examples round them
-    # (pythermalcomfort docs: utci(25, 27, 1, 50) -> 25.2; utci(27, 22, 10, 50) -> 20.0).
+    # pythermalcomfort's own test suite (tests/test_utci.py): utci(25, 27, 1, 50) -> 25.2.
     (25.0, 27.0, 1.0, 50.0, 25.2),
+    # pythermalcomfort's documented example: utci(tdb=25, tr=25, v=1.0, rh=50) -> 24.6.
+    (25.0, 25.0, 1.0, 50.0, 24.6),
+    # fixed row given in issue 3 (strong wind, radiant deficit) -> 20.0; the same value
+    # comes out of pythermalcomfort.models.utci (20.013, checked in the random test's library).
     (27.0, 22.0, 10.0, 50.0, 20.0),
 ])
 def test_fixed_rows(ta, tr, v, rh, expected):
