@@ -42,3 +42,11 @@ def line_factory(tmp_path):
         return write_line(tmp_path / name, coords, props, extra_features)
 
     return make
+
+
+@pytest.fixture(scope="session")
+def gso_file():
+    """The Greensboro TMY3 file read once (WeatherFile objects are not changed by use)."""
+    from walkcomfort.routes.weather import WeatherFile
+
+    return WeatherFile(pvlib_data() / "723170TYA.CSV")

@@ -13,7 +13,6 @@ from walkcomfort.routes.compare import summarise
 from walkcomfort.routes.geometry import load_route
 from walkcomfort.routes.predict import predict_route
 from walkcomfort.routes.timing import parse_departures
-from walkcomfort.routes.weather import WeatherFile
 
 LAT, LON = 36.08, -79.94  # a few km from the Greensboro station (36.1, -79.95)
 TZ = "America/New_York"
@@ -27,13 +26,9 @@ def route(tmp_path):
     return load_route(p)
 
 
-@pytest.fixture(scope="module")
-def gso_weather():
-    import os
-
-    import pvlib
-
-    return WeatherFile(os.path.join(os.path.dirname(pvlib.__file__), "data", "723170TYA.CSV"))
+@pytest.fixture
+def gso_weather(gso_file):
+    return gso_file
 
 
 def test_sun_up_at_the_expected_hours_and_night_has_no_direct_sun(route, gso_weather):

@@ -24,11 +24,11 @@ def test_tmy3_reads_on_the_hour_ending_convention(greensboro_tmy3):
     assert len(meta["quarantine"]) == 0
 
 
-def test_temperature_at_the_hour_is_the_files_value(greensboro_tmy3):
+def test_temperature_at_the_hour_is_the_files_value(greensboro_tmy3, gso_file):
     from pvlib.iotools import read_tmy3
 
     raw, _ = read_tmy3(str(greensboro_tmy3), coerce_year=2001, map_variables=True)
-    w = WeatherFile(greensboro_tmy3)
+    w = gso_file
     t = pd.DatetimeIndex(["2026-07-09T15:00-05:00", "2026-07-09T15:30-05:00"])
     c = w.conditions(t, *GSO)
     at15 = float(raw.loc["2001-07-09 15:00", "temp_air"])
@@ -37,8 +37,8 @@ def test_temperature_at_the_hour_is_the_files_value(greensboro_tmy3):
     assert c[C.T_AIR_C].iloc[1] == pytest.approx((at15 + at16) / 2)
 
 
-def test_irradiance_keeps_the_hourly_energy_and_the_night_dark(greensboro_tmy3):
-    w = WeatherFile(greensboro_tmy3)
+def test_irradiance_keeps_the_hourly_energy_and_the_night_dark(greensboro_tmy3, gso_file):
+    w = gso_file
     day = pd.date_range("2026-07-09T00:00-05:00", periods=24 * 12, freq="5min")
     c = w.conditions(day, *GSO)
     # hourly means of our 5-min values against the file's hour-ending values (TMY3 convention)
@@ -101,8 +101,8 @@ def test_tmy2_units_are_converted(miami_tmy2):
     assert data.index[0] == raw.index[0].tz_convert("UTC").replace(year=2001) + pd.Timedelta(hours=1)
 
 
-def test_walk_far_from_the_station_is_refused(greensboro_tmy3):
-    w = WeatherFile(greensboro_tmy3)
+def test_walk_far_from_the_station_is_refused(greensboro_tmy3, gso_file):
+    w = gso_file
     t = pd.DatetimeIndex(["2026-07-09T15:00Z"])
     with pytest.raises(InputError, match="km from the weather station"):
         w.conditions(t, 40.4, -3.7)
@@ -116,16 +116,16 @@ def test_leap_day_and_out_of_period(greensboro_tmy3):
         WeatherFile(greensboro_tmy3, typical=False).conditions(pd.DatetimeIndex(["2026-07-09T12:00Z"]), *GSO)
 
 
-def test_new_year_walk_wraps(greensboro_tmy3):
+def test_new_year_walk_wraps(greensboro_tmy3, gso_file):
     t = pd.date_range("2026-12-31T23:50-05:00", periods=5, freq="5min")
-    c = WeatherFile(greensboro_tmy3).conditions(t, *GSO)
+    c = gso_file.conditions(t, *GSO)
     assert c[C.T_AIR_C].notna().all()
 
 
-def test_design_day_rules(greensboro_tmy3):
+def test_design_day_rules(greensboro_tmy3, gso_file):
     from pvlib.iotools import read_tmy3
 
-    w = WeatherFile(greensboro_tmy3)
+    w = gso_file
     raw, _ = read_tmy3(str(greensboro_tmy3), coerce_year=2001, map_variables=True)
     # independent daily maxima: each hour-ending value belongs to the day its hour starts in
     start = raw.index.tz_localize(None) - pd.Timedelta(hours=1)
