@@ -99,3 +99,16 @@ def test_clearsky_records_turbidity_and_is_zero_at_night():
     # a given turbidity is used as is
     cs2 = sun.clearsky_irradiance(t, 40.4168, -3.7038, elev_m=650, linke_turbidity=2.0)
     assert cs2[C.DNI_WM2].max() > cs[C.DNI_WM2].max()
+
+
+def test_extraterrestrial_irradiance_perihelion_aphelion():
+    # From the definition: solar constant 1366.1 W m-2 (pvlib default) x inverse-square
+    # Earth-Sun distance; perihelion (~3 Jan) +3.3 %, aphelion (~4 Jul) -3.3 % (from memory).
+    t = pd.DatetimeIndex(["2026-01-03 12:00", "2026-07-04 12:00"], tz="UTC")
+    e0 = sun.extraterrestrial_irradiance(t)
+    assert e0.iloc[0] == pytest.approx(1366.1 * 1.0334, abs=4.0)
+    assert e0.iloc[1] == pytest.approx(1366.1 * 0.9666, abs=4.0)
+    with pytest.raises(InputError, match="label"):
+        sun.interval_midpoints(t, "1h", label="middle")
+    with pytest.raises(InputError, match="naive"):
+        sun.interval_midpoints(t.tz_localize(None))
