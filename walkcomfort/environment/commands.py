@@ -137,6 +137,10 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
         click.echo(f"{walk_id}: {q['rows']} rows; Tmrt from globe {q['tmrt_globe']}, from fluxes {q['tmrt_fluxes']}, "
                    f"missing {q['tmrt_missing']}; UTCI out of range {q['out_of_range']}, wind clamped to 0.5 m/s "
                    f"{q['wind_clamped']} -> {target_dir / TIMELINE_FILE}")
+        gap = (env.attrs["environment"].get("globe") or {}).get("globe_minus_fluxes_k")
+        if gap:
+            click.echo(f"  globe minus flux model: median {gap['median']:+.1f} K (IQR {gap['q25']:+.1f} … "
+                       f"{gap['q75']:+.1f} K) over {gap['rows']} rows")
         hot = int((pd.to_numeric(env[C.UTCI_C], errors="coerce") > HEAT_CAUTION_UTCI_C).sum())
         if hot:
             click.echo(f"  caution: {hot} rows at very strong or extreme heat stress (UTCI > "

@@ -274,6 +274,15 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         n_globe = int(use.sum())
         env_meta["globe"] = {"diameter_m": float(d), "emissivity": float(eps),
                              "height_m": None if gh is None else float(gh), "rows": n_globe}
+        # a plausibility figure for the field team: the globe against the flux model on the
+        # same rows (large systematic gaps point at a lagging globe, a wrong diameter in the
+        # manifest, or a scene that does not match the street)
+        both = use & np.isfinite(tmrt_flux)
+        if both.any():
+            diff = tm_g[both] - tmrt_flux[both]
+            q1, q2, q3 = (float(v) for v in np.percentile(diff, [25, 50, 75]))
+            env_meta["globe"]["globe_minus_fluxes_k"] = {"q25": round(q1, 3), "median": round(q2, 3),
+                                                        "q75": round(q3, 3), "rows": int(both.sum())}
 
     # --- UTCI ---------------------------------------------------------------------------------------
     wind10 = (np.asarray(_utci.wind_at_10m(wind, float(wind_h), z0_m=z0_m), dtype=float) if has_wind
