@@ -199,3 +199,33 @@ def test_share_command(tmp_path, session_with_face, capsys):
     code = main(["share", str(session_with_face), "-o", str(tmp_path / "x")])
     err = capsys.readouterr().err
     assert code == 2 and err.count("\n") == 1 and "secret" in err
+
+
+def test_share_csv_track_and_a_sync_frame_near_the_start(tmp_path, make_template_session):
+    # a session from the field-protocol templates with a CSV track; its start sync photo
+    # (IMG_0001, the GPS clock) lies within the trimming radius, so it is not shared and its
+    # sync event must be re-written as a clock reading — the camera's clock fit is unchanged
+    from walkcomfort.session.timeline import build_timeline
+
+    raw = make_template_session(tmp_path / "raw", gps_csv=True)
+    folder, record = share_session(raw, tmp_path / "shared", SECRET, radius_m=200.0, blur_faces=False)
+    assert "camera/IMG_0001.jpg" in record["frames"]["removed_near_track_ends"]
+    assert record["manifest"]["sync_frames_rewritten_as_times"] == 1
+    manifest = tomllib.loads((folder / "session.toml").read_text(encoding="utf-8"))
+    cam = [ev for ev in manifest["sync"] if ev["device"] == "cam1"][0]
+    assert "frame" not in cam and "device_time" in cam
+    text = (folder / "gps" / "track.csv").read_text(encoding="utf-8")
+    assert "serial" not in text and text.startswith("time,lat,lon,elev\n")
+    entry = record["files"]["gps/track.csv"]
+    assert entry["comment_or_preamble_lines_removed"] == 1
+    before, after = build_timeline(raw), build_timeline(folder)
+    assert after.qa["clocks"]["cam1"]["offset_s"] == pytest.approx(before.qa["clocks"]["cam1"]["offset_s"])
+    assert len(after.quarantine) == 0 or set(after.quarantine["reason"]) <= {"outside_track_span",
+                                                                            "outside_walk_window"}
+    # trimmed: the shared track starts and ends more than 200 m from the raw ends
+    lat0, lon0 = before.data["lat"].iloc[0], before.data["lon"].iloc[0]
+    lat1, lon1 = before.data["lat"].iloc[-1], before.data["lon"].iloc[-1]
+    d = np.minimum(privacy.great_circle_m(lat0, lon0, after.data["lat"], after.data["lon"]),
+                   privacy.great_circle_m(lat1, lon1, after.data["lat"], after.data["lon"]))
+    assert d.min() > 200.0
+    assert entry["points_kept"] + entry["points_removed_near_ends"] == entry["points_read"]
