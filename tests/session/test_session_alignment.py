@@ -110,3 +110,19 @@ def test_gps_jump_flagged_on_the_timeline():
     assert tl.data.loc["2026-07-14T08:00:25Z", C.QA_GPS_JUMP]
     # the jump did not reach the track: speed stays at walking pace
     assert tl.data[C.SPEED_MS].max() < 3.0
+
+
+def test_new_gpx_segment_restarts_settling(tmp_path):
+    d = tmp_path / "w"
+    shutil.copytree(WALK_OK, d)
+    p = d / "gps" / "track.gpx"
+    text = p.read_text()
+    # split the track into two segments at 08:06:00
+    cut = text.index('<trkpt', text.index("<time>2026-07-14T08:05:59Z</time>"))
+    p.write_text(text[:cut] + "</trkseg><trkseg>\n" + text[cut:])
+    tl = build_timeline(d)
+    s = tl.data[C.QA_SETTLING]
+    # τ_globe = 60 s: 3τ = 180 s flagged from the logger's first reading kept (10 s before the
+    # walk, the max gap) and from the new segment
+    assert s.iloc[:170].all() and not s.iloc[170:360].any()
+    assert s.loc["2026-07-14T08:06:00Z":"2026-07-14T08:08:59Z"].all() and not s.loc["2026-07-14T08:09:00Z":].any()

@@ -218,6 +218,11 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
                                                                     "waypoints_ignored", "routes_ignored")
                               if k in metas[gps.name]}}
 
+    # a new GPX segment means the logger was paused (often indoors or in a vehicle): a change of
+    # place after which lagged sensors settle again
+    seg = metas[gps.name].get("segment_starts") or []
+    restarts = list(fits[gps.device].to_true(pd.DatetimeIndex(seg))) if seg else []
+
     # 5. continuous sensors -------------------------------------------------------------------
     flags: dict[str, np.ndarray] = {}
     lag_done = False
@@ -246,7 +251,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
             for col, tau in zip((T_AIR_C, T_GLOBE_C), taus):
                 if col in df.columns and tau:
                     ok = df[col].notna().to_numpy()
-                    settle |= settling_mask(df.index[ok], steps, tau, settle_n_tau, mg)
+                    settle |= settling_mask(df.index[ok], steps, tau, settle_n_tau, mg, restarts=restarts)
                     raw = frames[s.name]          # the readings as logged (before any lag correction)
                     okr = raw[col].notna().to_numpy()
                     err = lag_error(raw.index[okr], raw[col].to_numpy(float)[okr], tau)
