@@ -83,3 +83,33 @@ def test_errors_are_one_line_with_exit_2(files, tmp_path, capsys):
                  "-o", str(tmp_path / "y")])
     assert code == 2
     assert "lack" in capsys.readouterr().err
+
+
+@pytest.mark.slow
+def test_route_with_a_model_bundle_and_walker(files, tmp_path):
+    from walkcomfort import columns as C
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.bundle import save_bundle
+    from walkcomfort.model.classifier import ComfortClassifier
+    from walkcomfort.model.features import build_features
+
+    camp = synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900)
+    lab = camp[camp[C.VOTE_COMFORT].notna()]
+    save_bundle(ComfortClassifier(n_estimators=30).fit(build_features(camp).loc[lab.index], lab[C.VOTE_COMFORT]),
+                tmp_path / "bundle")
+    route, scene, scheme = files
+    out = tmp_path / "out"
+    assert main(["route", str(route), "--scene", str(scene), "--scheme", str(scheme), "--model", str(tmp_path / "bundle"),
+                 "--walker", "clo=0.5,acclimatised=1,age_band=25-34", "--depart", "2026-07-15T17:00+02:00",
+                 "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5", "-o", str(out)]) == 0
+    pts = pd.read_parquet(out / "points.parquet")
+    assert pts["predictor"].str.startswith("model:sha256:").all()
+    assert set(pts["scheme"]) == {"tree-row"}
+    assert (pts["reasons"].str.len() > 0).mean() > 0.9
+    md = (out / "summary.md").read_text()
+    assert "comfort model" in md and "physics-only" not in md
+    prov = json.loads((out / "provenance.json").read_text())
+    assert prov["parameters"]["walker"] == {"clo": 0.5, "acclimatised": True, "age_band": "25-34"}
+    assert any(k.endswith("manifest.json") for k in prov["inputs"])
+    assert main(["route", str(route), "--walker", "shoe=42", "--depart", "2026-07-15T17:00+02:00",
+                 "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5", "-o", str(out)]) == 2

@@ -164,3 +164,18 @@ def test_model_bundle_predictions(street, scene, tmp_path):
     assert (pts["reasons"].str.len() > 0).mean() > 0.9
     exp = res.summary[["exp_min_comfortable", "exp_min_neutral", "exp_min_uncomfortable"]].sum(axis=1)
     assert np.allclose(exp, res.summary["walk_min"])
+
+
+def test_departures_sharing_instants_stay_apart(tmp_path, scene):
+    # two departures 5 s apart with a wait: rows of both walks fall on the same instants
+    p = tmp_path / "r.geojson"
+    p.write_text(json.dumps({"type": "Feature", "properties": {"stops": [{"dist_m": 30, "wait_s": 60, "label": "x"}]},
+                             "geometry": {"type": "LineString", "coordinates": [[LON, LAT], [_street_lon(STREET_M), LAT]]}}))
+    r = load_route(p, crs=scene.crs)
+    d0 = pd.Timestamp("2026-07-15T15:00Z")
+    pts = predict_route(r, pd.DatetimeIndex([d0, d0 + pd.Timedelta("5s")]), HOT, scene=scene)
+    assert pts.index.has_duplicates
+    s = summarise(pts)
+    assert len(s) == 2 and np.allclose(s["walk_min"], (r.length_m / 1.3 + 60) / 60)
+    with pytest.raises(InputError, match="given twice"):
+        predict_route(r, pd.DatetimeIndex([d0, d0]), HOT, scene=scene)

@@ -42,6 +42,8 @@ def _common(f):
                      help="Refuse a weather file whose station is farther from the route [km]."),
         click.option("--logger-wind-height", type=float, default=None,
                      help="Wind sensor height of a logger series [m] (if the file does not say)."),
+        click.option("--walker", default=None,
+                     help="Walker attributes the model may use: 'clo=0.5,acclimatised=1,age_band=25-34'."),
         click.option("--no-reasons", is_flag=True, help="Skip per-point explanations (faster)."),
     ]
     for o in reversed(opts):
@@ -52,7 +54,7 @@ def _common(f):
 def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_path=None, timezone=None,
                    weather_path=None, conditions=None, design_day=None, season=None, model_path=None,
                    spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
-                   logger_wind_height=None, no_reasons=False, include_base=True, echo=None):
+                   logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None):
     """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
 
     Returns
@@ -105,9 +107,10 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         echo(f"note: {n}")
     if not predictor.is_model:
         echo("note: no model bundle given: classes come from the physics-only UTCI-band rule")
+    walker_attrs = parse_walker(walker)
     result = compare_schemes(route, schemes, deps, weather, scene=scene, predictor=predictor,
                              include_base=include_base, flat_speed_ms=flat_speed_ms, timezone=timezone,
-                             explain=not no_reasons)
+                             walker=walker_attrs, explain=not no_reasons)
     if chosen is not None:
         result.notices.append(f"design day {chosen.date} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
     written = {}
@@ -117,12 +120,37 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
             inputs += sorted(p for p in Path(model_path).iterdir() if p.is_file())
         params = {"departures": [d.isoformat() for d in deps], "timezone": timezone, "conditions": conditions,
                   "design_day": chosen.as_dict() if chosen else None, "season": season, "spacing_m": spacing_m,
-                  "flat_speed_ms": flat_speed_ms, "route_id": route.route_id,
+                  "flat_speed_ms": flat_speed_ms, "route_id": route.route_id, "walker": walker_attrs,
                   "schemes": [s.name for s in schemes], "predictor": predictor.label,
                   "weather": weather.describe(), "elevation_source": route.elevation_source}
         prov = _io.provenance(inputs, params)
         written = _write(result, out_dir, prov, timezone)
     return result, written
+
+
+def parse_walker(text: str | None) -> dict | None:
+    """``"clo=0.5,acclimatised=1,age_band=25-34"`` -> walker attributes for the model features."""
+    if not text:
+        return None
+    out: dict = {}
+    for item in text.split(","):
+        key, sep, value = item.partition("=")
+        key, value = key.strip(), value.strip()
+        if not sep or key not in ("clo", "acclimatised", "age_band"):
+            raise InputError(f"walker attribute {item.strip()!r} is not one of clo=, acclimatised=, age_band=",
+                             fix="write e.g. --walker 'clo=0.5,acclimatised=1,age_band=25-34'")
+        if key == "clo":
+            try:
+                out[key] = float(value)
+            except ValueError:
+                raise InputError(f"clo {value!r} is not a number", fix="give clothing insulation in clo, e.g. 0.5") from None
+        elif key == "acclimatised":
+            if value.lower() not in ("1", "0", "true", "false", "yes", "no"):
+                raise InputError(f"acclimatised {value!r} is not yes/no", fix="write acclimatised=1 or 0")
+            out[key] = value.lower() in ("1", "true", "yes")
+        else:
+            out[key] = value
+    return out
 
 
 def _write(result, out_dir, prov, timezone):

@@ -75,6 +75,9 @@ def simulate_timeline(route: Route, departures, weather: WeatherSource,
     if deps.tz is None:
         raise InputError("departure times have no time zone", fix="give tz-aware departures (UTC or with offset)")
     deps = deps.tz_convert("UTC")
+    if deps.has_duplicates:
+        raise InputError(f"departure {deps[deps.duplicated()][0].isoformat()} is given twice",
+                         fix="give each departure once")
     sched = walk_schedule(route.points, route.stops, flat_speed_ms=flat_speed_ms, stop_step_s=stop_step_s)
     n = len(sched)
     offs = pd.to_timedelta(sched["t_s"].to_numpy(), unit="s")
