@@ -117,7 +117,11 @@ def test_combine_campaign(tl):
     d2 = tl.data.copy()
     d2.attrs = {"session": dict(tl.data.attrs["session"], walk_id="other", clo=0.7)}
     d2[C.WALK_ID] = "other"
+    d2 = d2.drop(columns=[C.LAEQ_DB, "qa_gap_noise"])          # a walk without a sound level meter
     camp = combine_campaign([tl, d2])
+    other = camp[C.WALK_ID] == "other"
+    assert camp.loc[other, "qa_gap_noise"].all() and camp.loc[other, C.LAEQ_DB].isna().all()
+    assert camp["qa_gap_noise"].dtype == bool and not camp.loc[~other, C.QA_GPS_JUMP].any()
     assert len(camp) == 2 * len(tl.data)
     assert set(camp[C.WALK_ID]) == {"fixture-p01-am", "other"}
     assert camp.loc[camp[C.WALK_ID] == "other", C.CLO].eq(0.7).all()

@@ -605,7 +605,7 @@ def combine_campaign(timelines) -> pd.DataFrame:
     -------
     DataFrame
         Index ``time`` (UTC, repeated across walks); the timeline columns (union,
-        NaN where a walk lacks a source) plus the participant attributes
+        NaN where a walk lacks a source, whose ``qa_gap_<source>`` is then True) plus the participant attributes
         ``age_band, clo, acclimatised, activity``; sorted by ``walk_id`` then time.
         ``.attrs["sessions"]`` maps each walk id to its session attributes.
     """
@@ -635,9 +635,10 @@ def combine_campaign(timelines) -> pd.DataFrame:
     if not parts:
         raise InputError("no timelines to combine", fix="give at least one timeline")
     out = pd.concat(parts, axis=0, sort=False)
-    flagcols = [c for c in out.columns if c.startswith("qa_")]
-    for c in flagcols:
-        out[c] = out[c].fillna(False).astype(bool)
+    for c in [c for c in out.columns if c.startswith("qa_")]:
+        # a walk without that source has no data there: its gap flag is set, other flags are not
+        fill = c.startswith(QA_GAP + "_")
+        out[c] = out[c].astype(object).where(out[c].notna(), fill).astype(bool)
     out = out.sort_values([WALK_ID], kind="stable")
     out.attrs["sessions"] = sessions
     return out
