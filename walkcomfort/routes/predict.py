@@ -177,6 +177,10 @@ def predict_route(route: Route, departures, weather: WeatherSource, scene=None, 
     for c in pred.columns:
         table[c] = pred[c].to_numpy()
     table[SCHEME] = scheme.name
+    if scene is not None and route.crs != scene.crs.to_string():
+        # the environment placed the points through the scene's frame; report them there too
+        x, y = scene.project(table[C.LON].to_numpy(float), table[C.LAT].to_numpy(float))
+        table[C.X_M], table[C.Y_M] = np.asarray(x, float), np.asarray(y, float)
     cols = [c for c in POINT_COLUMNS if c in table.columns] + [c for c in EXTRA_COLUMNS if c in table.columns]
     missing = [c for c in POINT_COLUMNS if c not in table.columns]
     if missing:
