@@ -183,3 +183,25 @@ def test_open_weather_tells_tmy3_from_logger(greensboro_tmy3):
     assert isinstance(open_weather(greensboro_tmy3), WeatherFile)
     with pytest.raises(InputError):
         open_weather()
+
+
+def test_missing_markers_are_quarantined_not_dropped(greensboro_tmy3, tmp_path):
+    from walkcomfort.errors import DataQualityWarning
+
+    lines = greensboro_tmy3.read_text().splitlines()
+    cols = lines[1].split(",")
+    k = cols.index("Dry-bulb (C)")
+    row = lines[4500].split(",")
+    row[k] = "9999"  # an out-of-range marker in one hour
+    lines[4500] = ",".join(row)
+    bad = tmp_path / "broken.csv"
+    bad.write_text("\n".join(lines) + "\n")
+    with pytest.warns(DataQualityWarning, match="1 weather values"):
+        data, meta = read_weather_file(bad)
+    q = meta["quarantine"]
+    assert len(q) == 1 and q["row"].iloc[0] == 4500 - 2 and "t_air_c" in q["reason"].iloc[0]
+    assert len(data) == 8760 and data[C.T_AIR_C].isna().sum() == 1
+    truncated = tmp_path / "cut.csv"
+    truncated.write_text("\n".join(greensboro_tmy3.read_text().splitlines()[:1]) + "\n")
+    with pytest.raises(InputError):
+        read_weather_file(truncated)
