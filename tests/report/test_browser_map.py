@@ -87,6 +87,9 @@ def test_layers_exist_toggle_and_legend_follows(browser, served, map_page, artif
     _wait_drawn(page, "path.wc-seg-utci")
     assert page.locator("path.wc-seg-utci").count() >= 2
     assert page.locator('.wc-sec[data-kind="utci"]').is_visible()
+    # the legend lists only the UTCI bands that occur on the map
+    n_bands = S.predictions()["utci_band"].nunique()
+    assert page.locator('.wc-sec[data-kind="utci"] .wc-key').count() == n_bands
     _expand_layers(page)
     page.screenshot(path=str(artifacts_dir / "routemap_utci_on.png"))
     # ... and off again

@@ -75,11 +75,12 @@ SCENE_COLOURS: dict[str, str] = {
 }
 # edits of a shade scheme are told apart by the outline, not by colour alone
 EDIT_STYLES: dict[str, dict] = {
-    "existing": {"dashArray": None, "weight": 1, "outline": "#4a4a4a"},
-    "add": {"dashArray": "6 4", "weight": 3, "outline": "#111111"},
-    "modify": {"dashArray": "2 4", "weight": 3, "outline": "#111111"},
-    "remove": {"dashArray": "1 5", "weight": 2, "outline": "#8a8a8a"},
+    "existing": {"dashArray": None, "weight": 1, "outline": "#4a4a4a", "fillOpacity": 0.45},
+    "add": {"dashArray": None, "weight": 2.5, "outline": "#000000", "fillOpacity": 0.9},
+    "modify": {"dashArray": "3 3", "weight": 2.5, "outline": "#000000", "fillOpacity": 0.7},
+    "remove": {"dashArray": "1 4", "weight": 1.5, "outline": "#8a8a8a", "fillOpacity": 0.06},
 }
+EDIT_LEGEND = "bold outline: added · dashed: changed · faint dotted: removed"
 
 
 def _hex_to_rgb(colour: str) -> tuple[int, int, int]:

@@ -708,6 +708,7 @@ def _legend_config() -> dict:
                    for v in (0.0, 0.25, 0.5, 0.75, 1.0)],
         "scene": {k: v for k, v in P.SCENE_COLOURS.items()},
         "edits": P.EDIT_STYLES,
+        "edit_legend": P.EDIT_LEGEND,
         "missing": P.MISSING_COLOUR,
         "halo": P.HALO_COLOUR,
         "tsv": {str(k): v for k, v in C.TSV_SCALE.items()},
@@ -836,6 +837,15 @@ class _Elements:
         return cls._cache
 
 
+def _base_label(name: str) -> str:
+    """The routes stage's label for its unedited scene, or the name itself."""
+    try:
+        from walkcomfort.routes.schemes import BASE, Scheme
+    except ImportError:  # pragma: no cover - routes stage not installed
+        return name
+    return Scheme.base().label if name == BASE else name
+
+
 def _unique(label: str, seen: set) -> str:
     out, k = label, 2
     while out in seen:
@@ -918,6 +928,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     lat_all: list = []
     lon_all: list = []
     predictors: set = set()
+    bands_used: set = set()
     scheme_docs: dict[str, tuple[dict, str]] = {}
     for s in schemes or ():
         doc, where = _load_geojson(s, "scheme")
@@ -933,7 +944,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         doc = scheme_docs.get(name)
         if doc is not None:
             return _text((doc[0].get("walkcomfort") or {}).get("label")) or name
-        return name
+        return _base_label(name)
 
     summary_of = _summary_lookup(summaries)
     first = True
@@ -957,6 +968,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
                 data = _route_payload(group, label, zone, str(timezone), int(decimals), float(simplify_m))
                 data["summ"] = [summary_of(r, scheme_name, int(dep)) for r in data["routes"]]
                 predictors.update(data["predictors"])
+                bands_used.update(b for b in data["band"] if b >= 0)
                 lat_all += [v for v in data["lat"] if v is not None]
                 lon_all += [v for v in data["lon"] if v is not None]
                 payload = E["Payload"](data)
@@ -1015,7 +1027,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         bounds = [[min(lat_all), min(lon_all)], [max(lat_all), max(lon_all)]]
     else:
         bounds = None
-    info = {"title": title, "predictors": sorted(predictors), "tiles": source is not None}
+    info = {"title": title, "predictors": sorted(predictors), "tiles": source is not None,
+            "bands": sorted(bands_used)}
     fmap.add_child(E["Finish"](bounds, info), name="walkcomfort_finish")
     fmap._walkcomfort = True
     return fmap
@@ -1304,8 +1317,8 @@ var WC = (function () {
     d.features.forEach(function (f) {
       var edit = api.cfg.edits[f.e] || api.cfg.edits.existing, colour = api.cfg.scene[f.k] || api.cfg.missing;
       var style = {color: edit.outline, weight: edit.weight, dashArray: edit.dashArray, fillColor: colour,
-                   fillOpacity: f.e === "remove" ? 0.06 : (f.k === "building" ? 0.55 : 0.45),
-                   opacity: f.e === "remove" ? 0.7 : 1, className: "wc-scene wc-scene-" + f.e};
+                   fillOpacity: edit.fillOpacity, opacity: f.e === "remove" ? 0.7 : 1,
+                   className: "wc-scene wc-scene-" + f.e};
       var shape = f.g === "c" ? L.circle(f.c, Object.assign({radius: f.rad}, style)) : L.polygon(f.c, style);
       shape.bindPopup(scenePopup(f));
       shape.addTo(group);
@@ -1398,18 +1411,19 @@ var WC = (function () {
     return s;
   }
 
-  function buildLegend() {
+  function buildLegend(info) {
     var box = el("div", "wc-box wc-legend"), c = api.cfg;
+    var bands = c.utci.filter(function (x, i) { return !info.bands || info.bands.indexOf(i) >= 0; });
     box.appendChild(el("h3", null, "Legend"));
     box.appendChild(section("comfort", "Predicted comfort", c.comfort.map(function (x) { return key(x.colour, x.label); })));
-    box.appendChild(section("utci", "UTCI assessment scale", c.utci.map(function (x) {
+    box.appendChild(section("utci", "UTCI assessment scale (bands on the map)", bands.map(function (x) {
       return key(x.colour, x.label + " (" + x.range + ")"); })));
     box.appendChild(section("shade", "Direct-sun shade", c.shade.map(function (x) { return key(x.colour, x.label); })));
     box.appendChild(section("votes", "Comfort votes", c.comfort.map(function (x) {
       return key(x.colour, x.label, true); }).concat([el("div", null, "fill = vote, ring = model's class")])));
     box.appendChild(section("errors", "Where the model errs", c.errors.map(function (x) { return key(x.colour, x.label); })));
     box.appendChild(section("scene", "Scene", [key(c.scene.building, "building"), key(c.scene.tree, "tree crown"),
-      key(c.scene.canopy, "canopy"), el("div", null, "dashed outline: added \u00b7 dotted: changed \u00b7 faint: removed")]));
+      key(c.scene.canopy, "canopy"), el("div", null, c.edit_legend)]));
     box.appendChild(el("div", "wc-caution", c.caution));
     return box;
   }
@@ -1443,8 +1457,8 @@ var WC = (function () {
 
   api.finish = function (bounds, info) {
     var map = api.map, Legend, Title;
-    Legend = L.Control.extend({options: {position: "bottomright"}, onAdd: function () {
-      var box = buildLegend();
+    Legend = L.Control.extend({options: {position: "bottomleft"}, onAdd: function () {
+      var box = buildLegend(info);
       L.DomEvent.disableClickPropagation(box);
       L.DomEvent.disableScrollPropagation(box);
       api.legend = box;
@@ -1462,7 +1476,12 @@ var WC = (function () {
     new Legend().addTo(map);
     map.on("layeradd layerremove", refreshLegend);
     refreshLegend();
-    if (bounds) { map.fitBounds(bounds, {padding: [24, 24], maxZoom: 18}); }
+    if (bounds) {
+      // keep the data clear of the legend on the left, where the map is wide enough for both
+      var lw = api.legend ? api.legend.offsetWidth : 0, mw = map.getSize().x;
+      var left = lw && mw > 2.2 * lw ? lw + 24 : 24;
+      map.fitBounds(bounds, {paddingTopLeft: [left, 24], paddingBottomRight: [24, 24], maxZoom: 18});
+    }
     else { map.setView([0, 0], 2); }
     map.attributionControl.setPrefix("Leaflet");
     document.documentElement.setAttribute("data-walkcomfort-ready", "1");
