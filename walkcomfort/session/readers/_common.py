@@ -22,7 +22,8 @@ from walkcomfort.errors import InputError, where as _where
 
 QUARANTINE_COLUMNS = ("source", "file", "row", "reason", "raw")
 MISSING = ("", "na", "n/a", "nan", "null", "none", "-", "--", "---")
-_TZ_SUFFIX = re.compile(r"(?:[zZ]|[+-]\d\d(?::?\d\d)?)$")
+# a UTC offset after a time of day ("10:00:00Z", "10:00+02:00", "T100000-0500"); a date alone is not one
+_TZ_SUFFIX = re.compile(r"(?:\d\d:\d\d(?::\d\d(?:[.,]\d+)?)?|T\d{4,6}(?:[.,]\d+)?)\s*(?:[zZ]|[+-]\d\d(?::?\d\d)?)$")
 _CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f]")  # control bytes (tab allowed): not logger text
 
 
