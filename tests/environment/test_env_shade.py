@@ -134,3 +134,34 @@ def test_grid_equals_rowwise():
     np.testing.assert_array_equal(np.isnan(g), np.isnan(rows))
     np.testing.assert_allclose(g[:, :5], rows[:, :5])
     assert (g[:, 0] == 0).all() and np.isnan(g[:, 5]).all()
+
+
+def test_beer_lambert_path_length_option():
+    # From the definition of crown_model="path_length": tau^(l / l_mean), l the 3-D path in
+    # the crown and l_mean = 4V/S (Cauchy). Crown: cylinder r = 3 m, 3..8 m, 10 m south;
+    # sun due south at 30°: in the disc for s in [7, 13], in the height band for
+    # s in [3.29, 11.95] -> horizontal chord 4.95 m, 3-D 4.95/cos 30°; l_mean = 2rH/(r+H) = 3.75 m.
+    tan30 = np.tan(np.radians(30))
+    s_top = (8.0 - 1.1) / tan30
+    l3d = (s_top - 7.0) / np.cos(np.radians(30))
+    expected = 0.2 ** (l3d / 3.75)
+    sc = _tree_scene()
+    south = 180.0 - FRAME.grid_convergence_deg  # grid south (the trees sit on the local grid)
+    got = shade.beam_transmittance(sc, [X0], [Y0], [30.0], [south], crown_model="path_length")[0]
+    assert got == pytest.approx(expected, rel=1e-9)
+    # a ray grazing the crown's side (2.9 m east) passes much more light than tau
+    half = np.sqrt(3.0 ** 2 - 2.9 ** 2)
+    graze = 0.2 ** ((2 * half / np.cos(np.radians(30))) / 3.75)
+    got2 = shade.beam_transmittance(sc, [X0 + 2.9], [Y0], [30.0], [south], crown_model="path_length")[0]
+    assert got2 == pytest.approx(graze, rel=1e-6) and got2 > 0.4
+    # the square crown 6 m x 6 m has the same mean chord 4AH/(2A + PH) = 3.75 m and chord
+    square = scene_from_local([(_rect(-3, -13, 3, -7), {"id": "sq", "kind": "tree", "height_m": 8.0,
+                                                         "crown_base_m": 3.0, "transmissivity": 0.2})], LAT, LON)
+    got3 = shade.beam_transmittance(square, [X0], [Y0], [30.0], [south], crown_model="path_length")[0]
+    assert got3 == pytest.approx(expected, rel=1e-9)
+    # default unchanged; unknown model refused
+    assert shade.beam_transmittance(sc, [X0], [Y0], [30.0], [180.0])[0] == pytest.approx(0.2)
+    from walkcomfort.errors import InputError
+
+    with pytest.raises(InputError, match="crown_model"):
+        shade.beam_transmittance(sc, [X0], [Y0], [30.0], [180.0], crown_model="fog")

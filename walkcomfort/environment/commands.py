@@ -83,7 +83,9 @@ def _irradiance_table(path: Path):
 @click.option("--sectors", "n_sectors", type=int, default=36, show_default=True,
               help="Azimuth sectors for the sky view factor.")
 @click.option("--no-globe", is_flag=True, help="Ignore the globe thermometer; Tmrt from fluxes everywhere.")
-def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe):
+@click.option("--crown-model", type=click.Choice(["per_crossing", "path_length"]), default="per_crossing",
+              show_default=True, help="Crowns pass their transmissivity once per crossing, or by path length.")
+def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe, crown_model):
     """Add sun, shade, sky view, Tmrt and UTCI to ingested timelines (TIMELINES: walk or output folders).
 
     Tmrt comes from the globe thermometer (ISO 7726) where it was logged, otherwise from
@@ -110,11 +112,12 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
         if again:
             click.echo(f"{walk_id}: replacing environment columns from an earlier run ({len(again)} columns)")
         env = add_environment(df, scene=scene, irradiance=irr, use_globe=not no_globe, z_m=z_m,
-                              n_sectors=n_sectors, overwrite=bool(again), warn=False)
+                              n_sectors=n_sectors, overwrite=bool(again), crown_model=crown_model, warn=False)
         target_dir = path.parent if out_dir is None else Path(out_dir) / walk_id
         parameters = {"scene": None if scene_path is None else Path(scene_path).name,
                       "irradiance": irradiance if isinstance(irr, str) else Path(irradiance).name,
-                      "body_height_m": z_m, "n_sectors": n_sectors, "use_globe": not no_globe}
+                      "body_height_m": z_m, "n_sectors": n_sectors, "use_globe": not no_globe,
+                      "crown_model": crown_model}
         prov = _io.provenance(inputs=[path, *inputs_extra], parameters=parameters)
         new_meta = dict(meta)
         new_meta["session"] = env.attrs["session"]

@@ -121,7 +121,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
                     globe_diameter_m: float | None = None, globe_emissivity: float | None = None,
                     globe_height_m: float | None = None, z_m: float = BODY_HEIGHT_M, n_sectors: int = 36,
                     svf_radius_m: float = 200.0, z0_m: float = _utci.Z0_UTCI_M, overwrite: bool = False,
-                    flux_options: dict | None = None, warn: bool = True) -> pd.DataFrame:
+                    flux_options: dict | None = None, crown_model: str = "per_crossing",
+                    warn: bool = True) -> pd.DataFrame:
     """Sun, irradiance, shade, sky view, Tmrt and UTCI for every row of a timeline.
 
     Parameters
@@ -159,6 +160,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
     flux_options : dict, optional
         Keyword arguments for :func:`walkcomfort.environment.tmrt.outdoor_fluxes`
         (albedo, emissivities, surface temperature excess).
+    crown_model : {"per_crossing", "path_length"}
+        How crowns attenuate the beam (see :func:`walkcomfort.environment.shade.beam_transmittance`).
     warn : bool, default True
         Warn (ValidityRangeWarning) when rows fall outside the UTCI validity range.
 
@@ -236,7 +239,7 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
     month = _local_month(idx, (df.attrs.get("session") or {}).get("timezone"))
     zz = np.full(n, float(z_m))
     if scene is not None:
-        trans = _shade.beam_transmittance(scene, x, y, s_elev, s_az, z_m=zz, month=month)
+        trans = _shade.beam_transmittance(scene, x, y, s_elev, s_az, z_m=zz, month=month, crown_model=crown_model)
         svf, crowns = _sky_view(scene, x, y, zz, n_sectors, svf_radius_m)
     else:  # open ground
         ok = np.isfinite(s_elev)
@@ -306,7 +309,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         "scene": None if scene is None else {"features": len(scene), "source": scene.source,
                                              "site": dict(scene.site), "crs": scene.crs.to_string()},
         "assumptions": "open ground (no shade, svf 1)" if scene is None else "flat ground, scene obstacles",
-        "z_m": float(z_m), "n_sectors": int(n_sectors), "svf_radius_m": float(svf_radius_m),
+        "z_m": float(z_m), "n_sectors": int(n_sectors), "crown_model": crown_model,
+        "svf_radius_m": float(svf_radius_m),
         "wind_height_m": None if wind_h is None else float(wind_h), "z0_m": float(z0_m),
         "flux_options": fo,
         "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": n_globe,

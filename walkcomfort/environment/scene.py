@@ -23,9 +23,10 @@ Optional top-level ``"walkcomfort": {"site": {"lat": .., "lon": .., "elev_m": ..
 fixes the site (and so the local UTM frame); otherwise the centre of the features'
 bounding box is used. The ground is taken as flat.
 
-Each crossing of a crown multiplies the beam by that crown's transmissivity, whatever
-the path length inside it (a documented simplification of Beer–Lambert attenuation;
-measured crown transmissivities are whole-crown values).
+By default each crossing of a crown multiplies the beam by that crown's transmissivity,
+whatever the path length inside it (measured crown transmissivities are whole-crown
+values). :func:`walkcomfort.environment.shade.beam_transmittance` can instead apply
+Beer–Lambert attenuation along the path (``crown_model="path_length"``).
 """
 
 from __future__ import annotations
@@ -81,6 +82,7 @@ class Obstacles:
     footprints: np.ndarray  # shapely geometries (circles as polygons) for the STRtree
     tree: shapely.STRtree
     grid_convergence_deg: float = 0.0  # add to a true azimuth to get the local-grid direction
+    mean_chord_m: np.ndarray | None = None  # [m] mean chord 4V/S of each solid (Cauchy), for Beer–Lambert
 
     @property
     def n(self) -> int:
@@ -127,8 +129,9 @@ class Scene:
                 raise InputError(f"not valid JSON ({exc.msg})", where=f"{source}:{exc.lineno}",
                                  fix="check the file is GeoJSON") from None
         if not isinstance(obj, dict) or obj.get("type") != "FeatureCollection":
-            raise InputError(f"expected a GeoJSON FeatureCollection, got type {obj.get('type') if isinstance(obj, dict) else type(obj).__name__!r}",
-                             where=source, fix="wrap the features in {\"type\": \"FeatureCollection\", \"features\": [...]}")
+            got = obj.get("type") if isinstance(obj, dict) else type(obj).__name__
+            raise InputError(f"expected a GeoJSON FeatureCollection, got type {got!r}", where=source,
+                             fix='wrap the features in {"type": "FeatureCollection", "features": [...]}')
         feats = obj.get("features")
         if not isinstance(feats, list):
             raise InputError("FeatureCollection has no 'features' list", where=source,
@@ -339,7 +342,7 @@ def _prepare(scene) -> Obstacles:
     if nf == 0:
         return Obstacles(np.empty(0, np.int8), np.empty(0, np.int64), e, e, e, np.empty((0, 12)), np.empty(0, bool),
                          e, e, e, np.zeros(1, np.int64), e, e, e, e, np.empty(0, object), shapely.STRtree([]),
-                         _convergence(scene))
+                         _convergence(scene), e)
     geoms = np.empty(nf, dtype=object)
     geoms[:] = geoms_in
     # one pyproj call for every coordinate of the scene
@@ -388,6 +391,13 @@ def _prepare(scene) -> Obstacles:
     # circles first, then polygon parts
     feat_idx = np.concatenate([pt, part_feat]).astype(np.int64)
     n = feat_idx.size
+    # mean chord length of each solid, 4V/S (Cauchy's formula for convex bodies)
+    depth = zt[feat_idx] - zb[feat_idx]
+    rc = radius[pt]
+    chord_c = 2 * rc * depth[:pt.size] / (rc + depth[:pt.size])
+    area, perim = shapely.area(parts), shapely.length(parts)
+    dp = depth[pt.size:]
+    chord_p = 4 * area * dp / (2 * area + perim * dp)
     counts = np.concatenate([np.zeros(pt.size, np.int64), counts_poly.astype(np.int64)])
     fps = np.empty(n, dtype=object)
     fps[:pt.size] = pfoot
@@ -400,6 +410,7 @@ def _prepare(scene) -> Obstacles:
         edge_ptr=np.concatenate([[0], np.cumsum(counts)]).astype(np.int64),
         ex1=e1[:, 0].copy(), ey1=e1[:, 1].copy(), ex2=e2[:, 0].copy(), ey2=e2[:, 1].copy(),
         footprints=fps, tree=shapely.STRtree(fps), grid_convergence_deg=_convergence(scene),
+        mean_chord_m=np.concatenate([chord_c, chord_p]),
     )
 
 

@@ -35,7 +35,7 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
-from walkcomfort.environment.scene import Obstacles, Scene
+from walkcomfort.environment.scene import KIND_CODE, Obstacles, Scene
 
 _CHUNK_ROWS = 100_000   # rays per batch (bounds memory)
 _CHUNK_EDGES = 4_000_000
@@ -254,7 +254,7 @@ def _group_candidates(obs: Obstacles, px, py, pz, tan_g, theta, sub):
     return order[pos], ob[pair_rect]
 
 
-def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol) -> np.ndarray:
+def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol, crown_model: str = "per_crossing") -> np.ndarray:
     m = x.size
     out = np.full(m, np.nan)
     ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(z) & np.isfinite(elev) & np.isfinite(azim)
@@ -311,23 +311,44 @@ def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol) -> np.ndarray:
         keep = (d2 < r2) & (b_s > a_s)
         ray, ob, a_s, b_s, rdx, rdy = ray[keep], ob[keep], a_s[keep], b_s[keep], rdx[keep], rdy[keep]
         starts_in = a_s > (t - h)[keep]  # the segment starts inside the enclosing circle
+        path = crown_model == "path_length"
         hit = obs.is_circle[ob].copy()
+        chord = b_s - a_s  # horizontal length inside the solid (exact for circles)
         poly = ~hit
         if poly.any():
             rp = ray[poly]
-            inside, n_cross, _, _ = segment_polygon_crossings(
+            inside, n_cross, t_lo, t_hi = segment_polygon_crossings(
                 obs, ob[poly], px[rp] + a_s[poly] * rdx[poly], py[rp] + a_s[poly] * rdy[poly],
-                px[rp] + b_s[poly] * rdx[poly], py[rp] + b_s[poly] * rdy[poly], want_t=False,
-                may_start_inside=starts_in[poly])
+                px[rp] + b_s[poly] * rdx[poly], py[rp] + b_s[poly] * rdy[poly], want_t=path,
+                may_start_inside=None if path else starts_in[poly])
             hit[poly] = inside | (n_cross > 0)
-        ray, ob = ray[hit], ob[hit]
+            if path:  # first entry to last exit (convex along the ray)
+                t_in = np.where(inside, 0.0, t_lo)
+                t_out = np.where(inside ^ (n_cross % 2 == 1), 1.0, t_hi)
+                chord[poly] = np.nan_to_num(t_out - t_in) * chord[poly]
+        ray, ob, chord = ray[hit], ob[hit], chord[hit]
         if ray.size == 0:
             continue
         tau = tau_tab[ob, mcol[r][ray]]
+        if path:
+            # Beer–Lambert: tau^(l / l_mean), l the 3-D path in the crown, l_mean its mean chord
+            crown = obs.kind[ob] == KIND_CODE["tree"]
+            l3d = chord * np.sqrt(1.0 + tan_g[ray] ** 2)
+            expo = np.where(crown, l3d / obs.mean_chord_m[ob], 1.0)
+            tau = np.where(tau > 0, np.power(np.where(tau > 0, tau, 1.0), expo), 0.0)
         opaque = np.bincount(ray, weights=(tau <= 0), minlength=r.size) > 0
         logsum = np.bincount(ray, weights=np.log(np.where(tau > 0, tau, 1.0)), minlength=r.size)
         out[r] = np.where(opaque, 0.0, np.exp(logsum))
     return out
+
+
+def _crown_model(name: str) -> str:
+    if name not in ("per_crossing", "path_length"):
+        from walkcomfort.errors import InputError
+
+        raise InputError(f"crown_model {name!r} is not one of 'per_crossing', 'path_length'",
+                         where="beam_transmittance", fix="use crown_model='per_crossing' (default) or 'path_length'")
+    return name
 
 
 def _obstacles(scene) -> Obstacles | None:
@@ -340,7 +361,8 @@ def _obstacles(scene) -> Obstacles | None:
     raise TypeError(f"scene must be a Scene, got {type(scene).__name__}")
 
 
-def beam_transmittance(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, month=None) -> np.ndarray:
+def beam_transmittance(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, month=None,
+                       crown_model: str = "per_crossing") -> np.ndarray:
     """Direct-beam transmittance for rows that each have their own point and sun (timelines).
 
     Parameters
@@ -356,6 +378,14 @@ def beam_transmittance(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, mon
     month : int or array-like, optional
         Month 1…12 per row (or one for all) for trees' ``transmissivity_by_month``;
         ``None`` uses each crown's ``transmissivity``.
+    crown_model : {"per_crossing", "path_length"}
+        ``"per_crossing"``: a crown passes its transmissivity :math:`\tau` once per
+        crossing. ``"path_length"``: Beer–Lambert along the path,
+        :math:`\tau^{\ell/\bar\ell}` with :math:`\ell` the 3-D path length in the crown
+        and :math:`\bar\ell = 4V/S` its mean chord (Cauchy's formula), i.e. an extinction
+        coefficient :math:`-\ln\tau/\bar\ell`, so that a typical chord passes
+        :math:`\tau`; a ray grazing the crown's edge passes more light, one along its
+        longest axis less. Canopies always pass their transmissivity once.
 
     Returns
     -------
@@ -370,10 +400,11 @@ def beam_transmittance(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, mon
     obs = _obstacles(scene)
     if obs is None:
         obs = _EMPTY
-    return _beam_kernel(obs, x, y, z, e, a, _month_col(month, n))
+    return _beam_kernel(obs, x, y, z, e, a, _month_col(month, n), _crown_model(crown_model))
 
 
-def beam_transmittance_grid(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, month=None) -> np.ndarray:
+def beam_transmittance_grid(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, month=None,
+                            crown_model: str = "per_crossing") -> np.ndarray:
     """Direct-beam transmittance for every point at every time (planned routes, maps).
 
     Parameters
@@ -388,6 +419,8 @@ def beam_transmittance_grid(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1
         Height of each point [m].
     month : int or array-like (T,), optional
         Month per time (see :func:`beam_transmittance`).
+    crown_model : {"per_crossing", "path_length"}
+        See :func:`beam_transmittance`.
 
     Returns
     -------
@@ -410,7 +443,7 @@ def beam_transmittance_grid(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1
     if day.size:
         ii = np.repeat(np.arange(n), day.size)
         jj = np.tile(day, n)
-        res = _beam_kernel(obs, x[ii], y[ii], z[ii], e[jj], a[jj], mcol[jj])
+        res = _beam_kernel(obs, x[ii], y[ii], z[ii], e[jj], a[jj], mcol[jj], _crown_model(crown_model))
         out[ii, jj] = res
     return out
 
