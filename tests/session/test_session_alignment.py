@@ -126,3 +126,27 @@ def test_new_gpx_segment_restarts_settling(tmp_path):
     # walk, the max gap) and from the new segment
     assert s.iloc[:170].all() and not s.iloc[170:360].any()
     assert s.loc["2026-07-14T08:06:00Z":"2026-07-14T08:08:59Z"].all() and not s.loc["2026-07-14T08:09:00Z":].any()
+
+
+def test_distance_and_heading_against_the_wgs84_geodesic():
+    # reference: pyproj.Geod (Karney's geodesic on WGS84). A sphere of R = 6371.0088 km errs by at most
+    # ~0.6 %: WGS84's radii of curvature range from 6335 km (meridional, equator) to 6400 km (at the poles)
+    from pyproj import Geod
+
+    from walkcomfort.session.qa import haversine_m
+
+    g = Geod(ellps="WGS84")
+    rng = np.random.default_rng(5)
+    lat0 = rng.uniform(-60, 60, 20)
+    lon0 = rng.uniform(-180, 180, 20)
+    az = rng.uniform(0, 360, 20)
+    dist = rng.uniform(1, 2000, 20)
+    lon1, lat1, _ = g.fwd(lon0, lat0, az, dist)
+    np.testing.assert_allclose(haversine_m(lat0, lon0, lat1, lon1), dist, rtol=6e-3)
+    # the timeline's heading on the fixture's northward leg agrees with the geodesic azimuth
+    tl = build_timeline(WALK_OK)
+    d = tl.data
+    fwd, _, _ = g.inv(d[C.LON].iloc[350], d[C.LAT].iloc[350], d[C.LON].iloc[550], d[C.LAT].iloc[550])
+    h = np.radians(d[C.HEADING_DEG].iloc[350:550].dropna())
+    mean_h = np.degrees(np.arctan2(np.sin(h).mean(), np.cos(h).mean()))
+    assert abs((mean_h - fwd + 180) % 360 - 180) < 3.0
