@@ -86,7 +86,7 @@ def test_sky_rule_rejects_blue_objects_and_warm_walls():
     rgb = np.full((h, w, 3), 100, np.uint8)
     rgb[:80] = (110, 160, 225)              # sky band touching the top
     rgb[120:200, 20:120] = (40, 80, 200)     # a blue car low in the frame: below the upper field
-    rgb[90:140, 200:300] = (60, 110, 220)    # a blue sign in the upper field, not touching the top
+    rgb[90:130, 200:280] = (60, 110, 220)    # a blue sign in the upper field (4 % of the frame), apart from the sky
     mask = cues.sky_mask(rgb)
     # the 7x7 texture window sees the grey edge below: the last 3 sky rows are lost
     assert mask[:77].all()
@@ -99,6 +99,22 @@ def test_sky_rule_rejects_blue_objects_and_warm_walls():
     # ... but a bright neutral overcast sky is
     overcast = np.full((h, w, 3), (228, 230, 234), np.uint8)
     assert cues.sky_fraction(overcast) == pytest.approx(cues.SKY_UPPER_FIELD, abs=0.01)
+
+
+def test_sky_below_a_crown_fringing_the_top_edge():
+    # a tree crown hangs across the whole top edge; the open sky below it does not reach
+    # the edge but is a large region, so it is sky
+    rng = np.random.default_rng(4)
+    h, w = 240, 320
+    rgb = np.full((h, w, 3), 100, np.uint8)
+    rgb[:110] = (110, 160, 225)
+    rgb[:20] = (np.array([50, 110, 40]) + rng.normal(0, 15, (20, w, 3))).clip(0, 255).astype(np.uint8)
+    assert cues.sky_fraction(rgb) == pytest.approx((110 - 20) / h, abs=0.03)
+    # ... unless the rule is asked for top-edge contact only
+    assert cues.sky_fraction(rgb, cues.CueParams(sky_min_region_frac=1.0, sky_top_band=0.0)) == 0.0
+    # a deeper crown (a quarter of the rows): the sky below starts lower but is a large region
+    rgb[:60] = (np.array([50, 110, 40]) + rng.normal(0, 15, (60, w, 3))).clip(0, 255).astype(np.uint8)
+    assert cues.sky_fraction(rgb) == pytest.approx((110 - 60) / h, abs=0.03)
 
 
 def test_sky_needs_low_texture():

@@ -66,3 +66,25 @@ def test_frames_with_labels_and_without_timeline(tmp_path, session, capsys):
     q = pd.read_csv(out / "fixture-p01-am" / FRAME_QUARANTINE_FILE)
     assert q["reason"].str.contains("not in the session").any()
     assert not (out / ".cache").exists()
+
+
+def test_cues_follow_the_demo_frames_drawn_shares(demo_dir):
+    # the demo simulator draws each frame and records the pixel shares it drew
+    # (demo_walks/truth/frames.csv, invented data): the cues must follow them
+    from walkcomfort.imagery.batch import compute_frame_cues
+    from walkcomfort.imagery.sessions import session_frames
+
+    truth_path = demo_dir / "truth" / "frames.csv"
+    if not truth_path.is_file():
+        pytest.skip("demo_walks not generated")
+    truth = pd.read_csv(truth_path)
+    session = sorted(truth["session"].unique())[0]
+    frames, _, spec = session_frames(demo_dir / "sessions" / session)
+    cues, meta = compute_frame_cues(frames, spec.session_dir, workers=1, detect_people=False)
+    t = truth[truth["session"] == session].set_index("file").add_suffix("_true")
+    j = cues.set_index(C.FRAME_PATH).join(t, how="inner")
+    assert len(j) == len(cues) > 10
+    for col, mae in ((C.SKY_FRAC, 0.05), (C.GREEN_FRAC, 0.02)):
+        a, b = j[col].astype(float), j[col + "_true"].astype(float)
+        assert (a - b).abs().mean() < mae, col
+        assert np.corrcoef(a, b)[0, 1] > 0.9, col

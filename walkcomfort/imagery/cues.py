@@ -29,9 +29,12 @@ Sky
     :data:`SKY_BLUE_MARGIN` and is not below green by more than the margin — *or*
     near-neutral but very bright (overcast sky, luma ≥ :data:`SKY_OVERCAST_LUMA`),
     (4) low-texture (local mean gradient below :data:`SKY_MAX_TEXTURE`: foliage and
-    façades against the sky are textured), and (5) connected to the top edge of the
-    frame (a blue car or a shop sign in the upper field is not sky). The share is
-    over the whole frame.
+    façades against the sky are textured; the window is 7×7 px at 640 px width and
+    scales with the frame), and (5) part of a connected region that starts in the top
+    :data:`SKY_TOP_BAND` of the rows or covers at least :data:`SKY_MIN_REGION_FRAC` of
+    the frame (a blue car or a shop sign lower in the upper field is not sky; open sky
+    between or below tree crowns that fringe the top edge is). The share is over the
+    whole frame.
 Brightness
     The mean luma ``Y' = 0.299 R' + 0.587 G' + 0.114 B'`` (ITU-R BT.601 weights) of the
     gamma-encoded image, scaled to 0…1. It is a cue of how bright the scene looked to
@@ -82,6 +85,10 @@ SKY_BLUE_MARGIN = 12
 SKY_OVERCAST_LUMA = 0.72
 #: Maximum local texture (mean absolute Sobel gradient over a 7×7 box, grey levels per pixel).
 SKY_MAX_TEXTURE = 6.0
+#: A sky region must start within this share of rows from the top ...
+SKY_TOP_BAND = 0.15
+#: ... or cover at least this share of the frame.
+SKY_MIN_REGION_FRAC = 0.08
 
 # BT.601 luma weights, in R, G, B order
 _LUMA = np.array([0.299, 0.587, 0.114], dtype=np.float32)
@@ -103,6 +110,8 @@ class CueParams:
     sky_overcast_luma: float = SKY_OVERCAST_LUMA
     sky_max_texture: float = SKY_MAX_TEXTURE
     sky_touch_top: bool = True
+    sky_min_region_frac: float = SKY_MIN_REGION_FRAC
+    sky_top_band: float = SKY_TOP_BAND
 
     def __post_init__(self):
         t = self.exg_threshold
@@ -345,6 +354,11 @@ def brightness_fraction(rgb) -> float:
     return float(_luma_u8(img).mean() / 255.0)
 
 
+def _texture_box(width: int) -> int:
+    """The texture window for a frame ``width`` px wide: 7 px at 640 px, odd, at least 3."""
+    return max(3, int(round(7 * width / 640)) | 1)
+
+
 def texture_map(gray_u8: np.ndarray, box: int = 7) -> np.ndarray:
     """Local texture: mean absolute Sobel gradient over a ``box``×``box`` window.
 
@@ -389,7 +403,7 @@ def sky_mask(rgb, params: CueParams | None = None, *, _gray=None, _texture=None)
     rows = max(1, int(round(p.sky_upper_field * h)))
     top = img[:rows]
     gray = _gray[:rows] if _gray is not None else _luma_u8(top)
-    tex = _texture[:rows] if _texture is not None else texture_map(gray)
+    tex = _texture[:rows] if _texture is not None else texture_map(gray, _texture_box(img.shape[1]))
     r = top[..., 0].astype(np.int16)
     g = top[..., 1].astype(np.int16)
     b = top[..., 2].astype(np.int16)
@@ -399,10 +413,9 @@ def sky_mask(rgb, params: CueParams | None = None, *, _gray=None, _texture=None)
     neutral = (np.abs(b - r) < margin) & (np.abs(b - g) < margin) & (b >= r - 3)
     candidate = (y >= p.sky_min_luma) & (blue | (neutral & (y >= p.sky_overcast_luma))) & (tex <= p.sky_max_texture)
     if p.sky_touch_top and candidate.any():
-        n, labels = cv2.connectedComponents(candidate.astype(np.uint8), connectivity=4)
-        touching = np.unique(labels[0][candidate[0]])
-        keep = np.zeros(n, dtype=bool)
-        keep[touching] = True
+        n, labels, stats, _ = cv2.connectedComponentsWithStats(candidate.astype(np.uint8), connectivity=4)
+        keep = (stats[:, cv2.CC_STAT_AREA] >= p.sky_min_region_frac * img.shape[0] * img.shape[1]) | \
+            (stats[:, cv2.CC_STAT_TOP] <= p.sky_top_band * img.shape[0])
         keep[0] = False
         candidate = keep[labels]
     out = np.zeros(img.shape[:2], dtype=bool)
@@ -439,7 +452,7 @@ def frame_cues(rgb, params: CueParams | None = None, return_masks: bool = False)
     img = check_rgb(rgb)
     gray = _luma_u8(img)
     rows = max(1, int(round(p.sky_upper_field * img.shape[0])))
-    tex = texture_map(gray[:rows])
+    tex = texture_map(gray[:rows], _texture_box(img.shape[1]))
     sky = sky_mask(img, p, _gray=gray, _texture=tex)
     if isinstance(p.exg_threshold, str):
         exg, total = _exg_u8(img)
