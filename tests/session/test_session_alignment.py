@@ -143,10 +143,15 @@ def test_distance_and_heading_against_the_wgs84_geodesic():
     dist = rng.uniform(1, 2000, 20)
     lon1, lat1, _ = g.fwd(lon0, lat0, az, dist)
     np.testing.assert_allclose(haversine_m(lat0, lon0, lat1, lon1), dist, rtol=6e-3)
-    # the timeline's heading on the fixture's northward leg agrees with the geodesic azimuth
+    # the timeline's distance and heading (computed on the ellipsoid) agree with the geodesic
+    # over the fixture's northward leg
     tl = build_timeline(WALK_OK)
     d = tl.data
     fwd, _, _ = g.inv(d[C.LON].iloc[350], d[C.LAT].iloc[350], d[C.LON].iloc[550], d[C.LAT].iloc[550])
+    _, _, steps_m = g.inv(d[C.LON].iloc[:-1].to_numpy(), d[C.LAT].iloc[:-1].to_numpy(),
+                          d[C.LON].iloc[1:].to_numpy(), d[C.LAT].iloc[1:].to_numpy())
+    # dist_m runs on 5 s smoothed positions, so it is shorter than the raw zig-zag of GPS noise
+    assert d[C.DIST_M].iloc[-1] < steps_m.sum() and d[C.DIST_M].iloc[-1] == pytest.approx(1.3 * 599, rel=0.05)
     h = np.radians(d[C.HEADING_DEG].iloc[350:550].dropna())
     mean_h = np.degrees(np.arctan2(np.sin(h).mean(), np.cos(h).mean()))
     assert abs((mean_h - fwd + 180) % 360 - 180) < 3.0

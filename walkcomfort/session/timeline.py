@@ -522,6 +522,12 @@ def _to_steps(t_ns: np.ndarray, values: np.ndarray, steps_ns: np.ndarray, step_n
     return res, gap
 
 
+def _geod():
+    from pyproj import Geod
+
+    return Geod(ellps="WGS84")
+
+
 def _track(out: pd.DataFrame, step_s: float, elev_smooth_s: float, track_smooth_s: float) -> None:
     """Distance, speed, heading, smoothed elevation and slope from the stepped positions."""
     lat = out[LAT].to_numpy(float)
@@ -533,9 +539,12 @@ def _track(out: pd.DataFrame, step_s: float, elev_smooth_s: float, track_smooth_
     n = len(out)
     dist = np.full(n, np.nan)
     idx = np.flatnonzero(ok)
+    # distances and azimuths on the WGS84 ellipsoid (Karney's geodesic via pyproj)
+    geod = _geod()
     if len(idx):
         d = np.zeros(len(idx))
-        d[1:] = _qa.haversine_m(la[idx[:-1]], lo[idx[:-1]], la[idx[1:]], lo[idx[1:]])
+        if len(idx) > 1:
+            _, _, d[1:] = geod.inv(lo[idx[:-1]], la[idx[:-1]], lo[idx[1:]], la[idx[1:]])
         dist[idx] = np.cumsum(d)
     h = max(1, int(round(track_smooth_s / 2 / step_s)))
     i0 = np.clip(np.arange(n) - h, 0, n - 1)
@@ -543,13 +552,12 @@ def _track(out: pd.DataFrame, step_s: float, elev_smooth_s: float, track_smooth_
     dt = (i1 - i0) * step_s
     with np.errstate(invalid="ignore", divide="ignore"):
         speed = (dist[i1] - dist[i0]) / np.where(dt > 0, dt, np.nan)
-    p1, p2 = np.radians(la[i0]), np.radians(la[i1])
-    dl = np.radians(lo[i1] - lo[i0])
-    y = np.sin(dl) * np.cos(p2)
-    x = np.cos(p1) * np.sin(p2) - np.sin(p1) * np.cos(p2) * np.cos(dl)
-    heading = np.degrees(np.arctan2(y, x)) % 360.0
-    disp = _qa.haversine_m(la[i0], lo[i0], la[i1], lo[i1])
-    heading = np.where(np.isfinite(disp) & (disp >= 0.5), heading, np.nan)
+    heading = np.full(n, np.nan)
+    both = ok[i0] & ok[i1]
+    if both.any():
+        az, _, disp = geod.inv(lo[i0][both], la[i0][both], lo[i1][both], la[i1][both])
+        # standing still: no direction of walking
+        heading[both] = np.where(disp >= 0.5, np.mod(az, 360.0), np.nan)
     if ELEV_M in out.columns:
         we = max(1, int(round(elev_smooth_s / step_s)))
         elev = moving_average(out[ELEV_M].to_numpy(float), we)
