@@ -173,6 +173,19 @@ def test_rendering_is_deterministic(tmp_path):
     assert a == b
 
 
+def test_same_map_written_twice_is_the_same_page(tmp_path):
+    fmap = R.route_map(S.predictions(), scene=S.scene(), walks=[S.timeline()])
+    a = R.write_map(fmap, tmp_path / "a.html").read_text()
+    R.write_map(fmap, tmp_path / "off.html", offline=True)
+    b = R.write_map(fmap, tmp_path / "b.html").read_text()
+    assert a == b
+    shown = [lay.get_name() for lay in _layers(fmap) if lay.show]
+    for name in shown:
+        assert a.count(f"{name}.addTo(") == 1
+    assert a.count(".folium-map") + a.count('class="folium-map"') >= 1
+    assert a.count("<style>\n.wc-box") == 1  # the page's own CSS once
+
+
 def test_size_budget_warns(tmp_path, full_map):
     with pytest.warns(R.MapSizeWarning, match="budget"):
         R.write_map(full_map, tmp_path / "m.html", size_budget_bytes=10_000)

@@ -1037,16 +1037,20 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
 # --------------------------------------------------------------------------------------
 # writing
 # --------------------------------------------------------------------------------------
-def _all_elements(root) -> list:
-    out, stack = [], [root]
+def _numbered_elements(figure, fmap) -> list:
+    """The figure, the map and everything under the map, in a fixed order.
+
+    Rendered fragments (children of the figure's header/html/script, and the
+    ``addTo`` helpers folium creates while rendering) are left out, so numbering the
+    same map again gives the same ids and re-rendering replaces, never duplicates.
+    """
+    from folium.map import ElementAddToElement
+
+    out, stack = [figure], [fmap]
     while stack:
         el = stack.pop()
         out.append(el)
-        kids = list(getattr(el, "_children", {}).values())
-        for attr in ("header", "html", "script"):
-            part = getattr(el, attr, None)
-            if part is not None and hasattr(part, "_children"):
-                kids.append(part)
+        kids = [k for k in getattr(el, "_children", {}).values() if not isinstance(k, ElementAddToElement)]
         stack.extend(reversed(kids))
     return out
 
@@ -1093,7 +1097,11 @@ def render_map_html(fmap, *, offline: bool = False, out_dir: str | os.PathLike |
         raise InputError("this is not a map built by walkcomfort.report.routemap.route_map",
                          where="write_map", fix="build the map with route_map(...)")
     figure = fmap.get_root()
-    for i, el in enumerate(_all_elements(figure)):
+    # the figure's header/html/script hold what the last render produced: start them afresh
+    for part in (figure.header, figure.html, figure.script):
+        for key in [k for k in part._children if k != "meta_http"]:
+            del part._children[key]
+    for i, el in enumerate(_numbered_elements(figure, fmap)):
         el._id = f"{i:04d}"
     source = None
     for child in fmap._children.values():
