@@ -183,33 +183,37 @@ def main(argv=None) -> int:
         t = time.perf_counter()
         full = make_session(tmp / "full", n)
         print(f"synthetic session: {n} s at 1 Hz, six sources ({time.perf_counter() - t:.1f} s to write)")
-        best = math.inf
+        best = cpu = math.inf
         for _ in range(args.repeat):
-            t = time.perf_counter()
+            t, c = time.perf_counter(), time.process_time()
             tl = build_timeline(full)
             tl.write(tmp / "out")
             best = min(best, time.perf_counter() - t)
+            cpu = min(cpu, time.process_time() - c)
         s = tl.qa["summary"]
-        print(f"ingest {args.hours:g} h: {best:.2f} s (best of {args.repeat}); {len(tl.data)} steps, "
+        # the machine is shared: CPU time is the steadier number when others are busy
+        print(f"ingest {args.hours:g} h: {best:.2f} s wall, {cpu:.2f} s CPU (best of {args.repeat}); {len(tl.data)} steps, "
               f"{s['rows_read']} rows read = {s['rows_used']} used + {s['rows_quarantined']} quarantined; "
-              f"goal < 3 s: {'met' if best < 3 else 'NOT met'}")
+              f"goal < 3 s: wall {'met' if best < 3 else 'NOT met'}, CPU {'met' if cpu < 3 else 'NOT met'}")
 
         m = int(args.sub_minutes * 60)
         sub = make_session(tmp / "sub", m)
-        t_ours = math.inf
+        t_ours = c_ours = math.inf
         for _ in range(args.repeat):
-            t = time.perf_counter()
+            t, c = time.perf_counter(), time.process_time()
             ours = build_timeline(sub)
             ours.write(tmp / "out_sub")
             t_ours = min(t_ours, time.perf_counter() - t)
-        t = time.perf_counter()
+            c_ours = min(c_ours, time.process_time() - c)
+        t, c = time.perf_counter(), time.process_time()
         naive = naive_ingest(sub)
-        t_naive = time.perf_counter() - t
+        t_naive, c_naive = time.perf_counter() - t, time.process_time() - c
         # same answer on a spot check: air temperature half-way
         k = len(naive) // 2
         ok = abs(naive[k]["weather"][0] - ours.data["t_air_c"].iloc[k]) < 1e-9
-        print(f"subsample {args.sub_minutes:g} min: walkcomfort {t_ours:.3f} s, naive row-by-row {t_naive:.3f} s, "
-              f"ratio naive/ours = {t_naive / t_ours:.1f}x (same values: {ok})")
+        print(f"subsample {args.sub_minutes:g} min: walkcomfort {t_ours:.3f} s wall / {c_ours:.3f} s CPU, "
+              f"naive row-by-row {t_naive:.3f} s wall / {c_naive:.3f} s CPU; ratio naive/ours = "
+              f"{t_naive / t_ours:.1f}x wall, {c_naive / c_ours:.1f}x CPU (same values: {ok})")
         # the naive scan is O(steps x rows): at full size it would take about (n/m)^2 as long
         print(f"naive at full size, extrapolated: ~{t_naive * (n / m) ** 2:.0f} s")
     return 0
