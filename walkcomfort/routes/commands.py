@@ -175,7 +175,12 @@ def _report(result, written, out_dir, timezone=None):
               help="One shade scheme GeoJSON applied to the scene (default: the base scene).")
 @_common
 def route(route_path, scheme_path, **kw):
-    """Predict comfort along one planned route for one scheme and one or many departures."""
+    """Predict comfort along one planned route for one scheme and one or many departures.
+
+    Writes the per-point table (Parquet, CSV, GeoJSON), walk summaries, a Markdown/HTML
+    summary and a plot. Planning estimates, not heat-safety advice: follow local heat
+    guidance and licensed design practice.
+    """
     result, written = run_from_files(route_path, [scheme_path] if scheme_path else [], include_base=False,
                                      echo=lambda s: click.echo(s, err=True), **kw)
     _report(result, written, kw["out_dir"], kw.get("timezone"))
@@ -187,7 +192,12 @@ def route(route_path, scheme_path, **kw):
               help="Shade scheme GeoJSON; repeat for each scheme. The base scene is always included.")
 @_common
 def compare(route_path, scheme_paths, **kw):
-    """Compare shade schemes side by side along a planned route (with the base scene)."""
+    """Compare shade schemes side by side along a planned route (with the base scene).
+
+    Adds the differences against the base, the best departure of a sweep and what each
+    scheme buys (comfortable minutes per tree and per 100 m² of shade). Planning
+    estimates, not heat-safety advice: follow local heat guidance and licensed practice.
+    """
     result, written = run_from_files(route_path, list(scheme_paths), include_base=True,
                                      echo=lambda s: click.echo(s, err=True), **kw)
     _report(result, written, kw["out_dir"], kw.get("timezone"))
