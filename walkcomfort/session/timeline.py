@@ -638,7 +638,8 @@ def combine_campaign(timelines) -> pd.DataFrame:
         df = df.copy()
         df.attrs = {}
         for a in PARTICIPANT_ATTRS:
-            df[a] = att.get(a)
+            if a not in df.columns:   # a column already there (added by a later stage) is kept
+                df[a] = att.get(a)
         parts.append(df)
     if not parts:
         raise InputError("no timelines to combine", fix="give at least one timeline")
