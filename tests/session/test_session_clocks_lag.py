@@ -186,3 +186,15 @@ def test_lag_error_is_tau_times_rate():
     err = lag_error(t, read, 30.0)
     assert np.median(err[300:-20]) == pytest.approx(0.6, abs=0.01)
     assert np.median((true - read)[300:]) == pytest.approx(0.6, abs=0.02)
+
+
+def test_declared_offset_without_sync_events(tmp_path):
+    # no sync event: the manifest's offset_s is used (logger shows 4 s more than true time)
+    d = _two_event_session(tmp_path, '[devices.logger1]\noffset_s = 4.0\n')
+    tl = build_timeline(d)
+    c = tl.qa["clocks"]["logger1"]
+    assert c["method"] == "manifest" and c["offset_s"] == 4.0
+    # logger reading k=2 (30.2 °C, logger clock 10:00:04) belongs at true 08:00:00
+    assert tl.data[C.T_AIR_C].iloc[0] == pytest.approx(30.2, abs=1e-9)
+    # the GPS is the default reference and undeclared devices keep their clocks
+    assert tl.qa["clocks"]["gps1"]["method"] == "reference"
