@@ -42,8 +42,11 @@ def _scene(part: Partition):
     return Scene.from_geojson(part.scene)
 
 
-def point_environment(part: Partition) -> dict[str, np.ndarray]:
+def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
     """Sun, shade, sky view, Tmrt and UTCI for every point x time of ``part``.
+
+    ``scene`` (a prepared :class:`~walkcomfort.environment.scene.Scene`) replaces the
+    partition's own scene GeoJSON when given.
 
     Returns
     -------
@@ -80,7 +83,8 @@ def point_environment(part: Partition) -> dict[str, np.ndarray]:
     y = part.points[C.Y_M].to_numpy(float)
     n, t = len(x), len(times)
     z = float(ctx.get("z_m", 1.1))
-    scene = _scene(part)
+    scene_given = scene
+    scene = _scene(part) if scene is None else scene
     low = (elev > 0.0) & (elev < float(ctx["min_sun_elev_deg"]))
     if scene is None:
         trans = np.ones((n, t))
@@ -91,7 +95,8 @@ def point_environment(part: Partition) -> dict[str, np.ndarray]:
 
         trans = np.array(_shade.beam_transmittance_grid(scene, x, y, elev, azim, z_m=z,
                                                         month=np.asarray(times.month)), dtype=float)
-        svf = _tile_svf(part, scene, x, y, z)
+        svf = (_tile_svf(part, scene, x, y, z) if scene_given is None
+               else _skyview.sky_view_factor(scene, x, y, z_m=z, radius_m=SVF_RADIUS_M)[C.SVF].to_numpy(float))
     trans = trans.copy()
     trans[:, low] = 0.0
     grid = np.ones((n, t))

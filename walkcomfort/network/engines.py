@@ -68,6 +68,10 @@ class JobReport:
     outcomes: list[PartitionOutcome] = field(default_factory=list)
     seconds: float = 0.0
     parameters: dict = field(default_factory=dict)
+    #: wall-clock split [s]: ``start`` (cluster up / client connected), ``compute`` (partition
+    #: functions, summed over partitions in-process), ``write`` (Parquet, in this process).
+    #: Kept in memory for benchmarks, never written (outputs stay byte-stable).
+    timings: dict = field(default_factory=lambda: {"start": 0.0, "compute": 0.0, "write": 0.0})
 
     @property
     def expected_rows(self) -> int:
@@ -157,12 +161,17 @@ class InProcessEngine:
             outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
             for attempt in range(1, self.retries + 2):
                 outcome.attempts = attempt
+                tc = _time.perf_counter()
                 try:
                     rows = run_partition(job.partition_fn, part)
                 except Exception as exc:  # reported by partition id, never swallowed
                     outcome.error = _error_text(exc)
                     continue
+                finally:
+                    report.timings["compute"] += _time.perf_counter() - tc
+                tw = _time.perf_counter()
                 path = _write(out_dir, job, part, rows)
+                report.timings["write"] += _time.perf_counter() - tw
                 outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
                 outcome.path = path.relative_to(out_dir).as_posix()
                 break
@@ -240,7 +249,21 @@ class DaskEngine:
             report.seconds = _time.perf_counter() - t0
             _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
             return report
+        ts = _time.perf_counter()
         client, cluster = self._client()
+        try:
+            # import the heavy modules on every worker before the clock for partitions starts
+            client.run(_warm_up, getattr(job.partition_fn, "__module__", None))
+        except BaseException as exc:
+            client.close()
+            if cluster is not None:
+                cluster.close()
+            if isinstance(exc, ImportError):
+                raise InputError(f"the Dask workers cannot import what the batch needs ({exc})",
+                                 fix="install walkcomfort with its dependencies where the workers run "
+                                     "(pip install 'walkcomfort[dask]')") from None
+            raise
+        report.timings["start"] = _time.perf_counter() - ts
         try:
             by_key = {}
             futures = []
@@ -261,7 +284,9 @@ class DaskEngine:
                     outcome.attempts = self.retries + 1
                 else:
                     rows = fut.result()
+                    tw = _time.perf_counter()
                     path = _write(out_dir, job, part, rows)
+                    report.timings["write"] += _time.perf_counter() - tw
                     outcome.status, outcome.written_rows = "written", len(rows)
                     outcome.path = path.relative_to(out_dir).as_posix()
                     # Dask does not tell how many tries a success took; at least one
@@ -275,6 +300,18 @@ class DaskEngine:
         report.seconds = _time.perf_counter() - t0
         _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
         return report
+
+
+def _warm_up(module: str | None) -> None:
+    """Runs on each Dask worker once: import the partition function's module (and the physics)."""
+    import importlib
+
+    if module:
+        importlib.import_module(module)
+    if module == "walkcomfort.network.batch":
+        importlib.import_module("walkcomfort.network._physics")
+        for name in ("sun", "shade", "skyview", "tmrt", "utci", "scene"):
+            importlib.import_module(f"walkcomfort.environment.{name}")
 
 
 def _engine_params(engine) -> dict:
