@@ -138,6 +138,8 @@ def test_session_with_drift_from_two_sync_events(tmp_path):
     assert c["method"] == "sync-offset-drift" and c["n_events"] == 2
     assert c["drift_ppm"] == pytest.approx(40.0, abs=0.01)
     assert c["offset_s"] == pytest.approx(5.002, abs=1e-6)
+    # two events, two parameters: after correction both events line up exactly
+    assert [e["residual_s"] for e in tl.qa["sync_events"]] == [pytest.approx(0.0, abs=1e-6)] * 2
     # the mini logger writes t_air = 30 + k/10 at walk second 2k on its own clock -> corrected back:
     # at true 08:00:00 the logger showed 10:00:05 local, i.e. between k=2 (30.2) and k=3 (30.3)
     assert tl.data[C.T_AIR_C].iloc[0] == pytest.approx(30.0 + 0.1 * 2.5, abs=0.002)

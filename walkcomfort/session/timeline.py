@@ -354,8 +354,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
         "parameters": params,
         "max_gap_s": {k: round(v, 6) for k, v in gaps_used.items()},
         "clocks": {dev: fit.as_dict() for dev, fit in sorted(fits.items())},
-        "sync_events": [{"index": ev.index, "device_a": ev.device_a, "device_b": ev.device_b,
-                         "frame": ev.frame, "note": ev.note} for ev in spec.sync],
+        "sync_events": [_event_entry(ev, fits, frame_times) for ev in spec.sync],
         "sources": {},
         "warnings": warnings,
         "provenance": provenance,
@@ -381,6 +380,18 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
     }
     out.attrs["session"] = attrs
     return Timeline(data=out, qa=qa, quarantine=quarantine, provenance=provenance)
+
+
+def _event_entry(ev, fits, frame_times) -> dict:
+    """A sync event and its misalignment after correction: true(a) − true(b) [s]."""
+    ta = frame_times.get(ev.frame.replace("\\", "/")) if ev.frame else ev.time_a
+    entry = {"index": ev.index, "device_a": ev.device_a, "device_b": ev.device_b, "frame": ev.frame,
+             "note": ev.note, "residual_s": None}
+    if ta is not None and ev.device_a in fits and ev.device_b in fits:
+        a = fits[ev.device_a].to_true(pd.DatetimeIndex([ta]))[0]
+        b = fits[ev.device_b].to_true(pd.DatetimeIndex([ev.time_b]))[0]
+        entry["residual_s"] = round((a - b).total_seconds(), 6)
+    return entry
 
 
 # --------------------------------------------------------------------------------------------------
