@@ -183,3 +183,21 @@ def test_thermal_command_errors(tmp_path, capsys):
     bad.write_text("time,ghi_wm2\n2026-07-14T12:00:00,800\n")
     assert main(["thermal", str(walk), "--irradiance", str(bad)]) == 2
     assert "no UTC offset" in capsys.readouterr().err
+
+
+def test_missing_values_pass_through_as_nan():
+    # From the definition (NaN passes through): a GPS gap gives no sun/shade/sky view, a
+    # missing air temperature no Tmrt/UTCI, a missing wind no UTCI; nothing is dropped.
+    sc = _wall_scene()
+    idx = pd.date_range("2026-07-14 10:00", periods=4, freq="1s", tz="UTC", name=C.TIME)
+    df = pd.DataFrame({C.LAT: [LAT, np.nan, LAT, LAT], C.LON: [LON, LON, LON, LON],
+                       C.T_AIR_C: [30.0, 30.0, np.nan, 30.0], C.RH_PCT: 40.0, C.WIND_MS: [1.0, 1.0, 1.0, np.nan]},
+                      index=idx)
+    df.attrs["session"] = {"wind_height_m": 1.1}
+    out = add_environment(df, scene=sc)
+    assert len(out) == 4
+    assert np.isnan(out[C.SUN_ELEV_DEG].iloc[1]) and np.isnan(out[C.SHADE_FRAC].iloc[1])
+    assert np.isnan(out[C.SVF].iloc[1]) and np.isfinite(out[C.SVF].iloc[[0, 2, 3]]).all()
+    assert np.isnan(out[C.TMRT_C].iloc[2]) and pd.isna(out[C.TMRT_SOURCE].iloc[2])
+    assert np.isnan(out[C.UTCI_C].iloc[3]) and pd.isna(out[C.UTCI_BAND].iloc[3])
+    assert np.isfinite(out[C.UTCI_C].iloc[0]) and out.attrs["environment"]["qa_counts"]["tmrt_missing"] == 2

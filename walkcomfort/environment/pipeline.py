@@ -171,8 +171,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         The input's columns plus ``sun_elev_deg, sun_zenith_deg, sun_azim_deg``,
         ``ghi_wm2, dni_wm2, dhi_wm2`` [W m⁻²], ``beam_trans_frac``, ``shade_frac`` (= 1 −
         transmittance; 1 at night), ``svf``, ``sky_frac_crowns``, ``tmrt_c`` [°C],
-        ``tmrt_source`` ("globe" | "fluxes"), ``wind10_ms``, ``utci_c`` [°C],
-        ``utci_band``, ``qa_utci_out_of_range``, ``qa_wind_clamped``. Same index and
+        ``tmrt_source`` ("globe" | "fluxes"; string dtype, missing = NA), ``wind10_ms``,
+        ``utci_c`` [°C], ``utci_band`` (string dtype), ``qa_utci_out_of_range``, ``qa_wind_clamped``. Same index and
         attrs, plus ``attrs["environment"]``.
     """
     df = timeline_df
@@ -298,9 +298,9 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         C.SUN_ELEV_DEG: s_elev, C.SUN_ZENITH_DEG: s_zen, C.SUN_AZIM_DEG: s_az,
         C.GHI_WM2: ghi, C.DNI_WM2: dni, C.DHI_WM2: dhi,
         C.BEAM_TRANS_FRAC: trans, C.SHADE_FRAC: 1.0 - trans, C.SVF: svf, C.SKY_VIEW_CROWN_FRAC: crowns,
-        C.TMRT_C: tmrt, C.TMRT_SOURCE: pd.array(source, dtype=object),
+        C.TMRT_C: tmrt, C.TMRT_SOURCE: pd.array(source, dtype="string"),
         C.WIND10_MS: wind10, C.UTCI_C: utci_c,
-        C.UTCI_BAND: np.asarray(_utci.utci_band(utci_c), dtype=object),
+        C.UTCI_BAND: pd.array(np.asarray(_utci.utci_band(utci_c), dtype=object), dtype="string"),
         C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool), C.QA_WIND_CLAMPED: u[C.QA_WIND_CLAMPED].to_numpy(bool),
     }
     out = pd.concat([out, pd.DataFrame(new, index=idx)], axis=1)

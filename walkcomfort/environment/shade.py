@@ -379,12 +379,12 @@ def beam_transmittance(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, mon
         Month 1…12 per row (or one for all) for trees' ``transmissivity_by_month``;
         ``None`` uses each crown's ``transmissivity``.
     crown_model : {"per_crossing", "path_length"}
-        ``"per_crossing"``: a crown passes its transmissivity :math:`\tau` once per
+        ``"per_crossing"``: a crown passes its transmissivity :math:`\\tau` once per
         crossing. ``"path_length"``: Beer–Lambert along the path,
-        :math:`\tau^{\ell/\bar\ell}` with :math:`\ell` the 3-D path length in the crown
-        and :math:`\bar\ell = 4V/S` its mean chord (Cauchy's formula), i.e. an extinction
-        coefficient :math:`-\ln\tau/\bar\ell`, so that a typical chord passes
-        :math:`\tau`; a ray grazing the crown's edge passes more light, one along its
+        :math:`\\tau^{\\ell/\\bar\\ell}` with :math:`\\ell` the 3-D path length in the crown
+        and :math:`\\bar\\ell = 4V/S` its mean chord (Cauchy's formula), i.e. an extinction
+        coefficient :math:`-\\ln\\tau/\\bar\\ell`, so that a typical chord passes
+        :math:`\\tau`; a ray grazing the crown's edge passes more light, one along its
         longest axis less. Canopies always pass their transmissivity once.
 
     Returns

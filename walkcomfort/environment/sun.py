@@ -177,8 +177,9 @@ def extraterrestrial_irradiance(times) -> pd.Series:
     """
     idx = pd.DatetimeIndex(times)
     _utc_index(idx)
-    return pd.Series(np.asarray(pvlib.irradiance.get_extra_radiation(idx), dtype=float), index=idx,
-                     name="dni_extra_wm2")
+    doy = np.asarray(idx.day_of_year, dtype=float)  # day numbers, not the index (pandas deprecations)
+    e0 = np.asarray(pvlib.irradiance.get_extra_radiation(np.nan_to_num(doy, nan=1.0)), dtype=float)
+    return pd.Series(np.where(np.isnan(doy), np.nan, e0), index=idx, name="dni_extra_wm2")
 
 
 def linke_turbidity_by_month(lat: float, lon: float) -> dict[int, float]:
