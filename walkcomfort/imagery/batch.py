@@ -50,7 +50,7 @@ ANALYSIS_VERSION = 1
 #: Width [px] frames are analysed at.
 ANALYSIS_WIDTH = 640
 #: Below this many frames to compute, worker processes cost more than they save.
-MIN_FRAMES_FOR_POOL = 24
+MIN_FRAMES_FOR_POOL = 48
 
 #: Columns of the cue table, in order (index: ``time``).
 CUE_COLUMNS = (C.FRAME_PATH, C.SKY_FRAC, C.GREEN_FRAC, C.BRIGHTNESS_FRAC, C.PEOPLE_N, C.FRAME_OK,
@@ -184,21 +184,33 @@ def _analyse_chunk(paths: Sequence[str], params: AnalysisParams) -> list[tuple[s
     return out
 
 
-def _iter_results(paths: list[str], params: AnalysisParams, workers: int) -> Iterable[tuple[str, dict | None, str | None]]:
-    if workers <= 1 or len(paths) < MIN_FRAMES_FOR_POOL:
+def make_pool(workers: int) -> ProcessPoolExecutor:
+    """A pool of worker processes for :func:`compute_frame_cues` (reuse it across sessions:
+    starting workers costs a second or two each)."""
+    import multiprocessing as mp
+
+    # spawn, not fork: the parent may hold threads (progress bar, OpenCV) that fork would copy mid-state
+    return ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"), initializer=_worker_init)
+
+
+def _iter_results(paths: list[str], params: AnalysisParams, workers: int,
+                  pool: ProcessPoolExecutor | None = None) -> Iterable[tuple[str, dict | None, str | None]]:
+    if (workers <= 1 and pool is None) or len(paths) < MIN_FRAMES_FOR_POOL:
         for path in paths:
             yield from _analyse_chunk([path], params)
         return
-    import multiprocessing as mp
-
-    chunk = max(4, min(32, len(paths) // (workers * 8) or 4))
+    n_workers = getattr(pool, "_max_workers", workers)
+    chunk = max(4, min(32, len(paths) // (n_workers * 8) or 4))
     chunks = [paths[i:i + chunk] for i in range(0, len(paths), chunk)]
-    # spawn, not fork: the parent may hold threads (progress bar, OpenCV) that fork would copy mid-state
-    with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"),
-                             initializer=_worker_init) as pool:
+    own = pool is None
+    pool = make_pool(workers) if own else pool
+    try:
         futures = [pool.submit(_analyse_chunk, c, params) for c in chunks]
         for fut in as_completed(futures):
             yield from fut.result()
+    finally:
+        if own:
+            pool.shutdown()
 
 
 def default_workers() -> int:
@@ -239,7 +251,8 @@ def _frames_input(frames, base_dir) -> tuple[pd.DatetimeIndex | None, list[str],
 def compute_frame_cues(frames, base_dir: str | os.PathLike | None = None, *,
                        params: AnalysisParams | None = None, detect_people: bool | None = None,
                        workers: int | None = None, cache_dir: str | os.PathLike | None = None,
-                       progress: bool | None = None) -> tuple[pd.DataFrame, dict]:
+                       progress: bool | None = None, pool: ProcessPoolExecutor | None = None
+                       ) -> tuple[pd.DataFrame, dict]:
     """Cues and quality flags for many frames.
 
     Parameters
@@ -259,6 +272,9 @@ def compute_frame_cues(frames, base_dir: str | os.PathLike | None = None, *,
         Cache folder (see the module notes); no cache when omitted.
     progress : bool, optional
         Show the progress bar (default: when stderr is a terminal).
+    pool : concurrent.futures.ProcessPoolExecutor, optional
+        Worker pool to use (from :func:`make_pool`), e.g. shared by many sessions;
+        default: one started for this call when there is enough work.
 
     Returns
     -------
@@ -304,7 +320,7 @@ def compute_frame_cues(frames, base_dir: str | os.PathLike | None = None, *,
         by_digest.setdefault(digests[i], []).append(i)
     first_path = {os.fspath(paths[idx[0]]): d for d, idx in by_digest.items()}
     unique = list(first_path)
-    stream = _iter_results(unique, p, workers)
+    stream = _iter_results(unique, p, workers, pool)
     for path, res, err in track(stream, "frame cues", total=len(unique), enabled=progress):
         for i in by_digest[first_path[path]]:
             if err is not None:

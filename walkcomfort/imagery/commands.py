@@ -39,23 +39,38 @@ def frames(session_dirs, out_dir, workers, cache_dir, no_cache, no_people, label
     OUT/<walk_id>/timeline.parquet exists (from `walkcomfort ingest`), adds the cues
     to it, carried forward within the hold time.
     """
-    import pandas as pd
-
-    from walkcomfort import _io
-    from walkcomfort.imagery.attach import HOLD_S, add_frame_cues
-    from walkcomfort.imagery.batch import compute_frame_cues
-    from walkcomfort.imagery.labels import combine_cues, read_frame_labels
-    from walkcomfort.imagery.sessions import session_frames
+    from walkcomfort.imagery.attach import HOLD_S
+    from walkcomfort.imagery.batch import default_workers, make_pool
     from walkcomfort.session.commands import find_sessions
-    from walkcomfort.session.timeline import TIMELINE_FILE, read_timeline
 
     hold = HOLD_S if hold_s is None else float(hold_s)
     sessions = find_sessions(session_dirs)
     cache = None if no_cache else (cache_dir if cache_dir is not None else Path(out_dir) / ".cache" / "frames")
+    n_workers = default_workers() if workers is None else workers
+    pool = make_pool(n_workers) if n_workers > 1 else None   # one pool for every session
+    try:
+        _frames_sessions(sessions, out_dir, pool, n_workers, cache, no_people, labels_name, labels_scale, prefer,
+                         hold, replace)
+    finally:
+        if pool is not None:
+            pool.shutdown()
+
+
+def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_name, labels_scale, prefer,
+                     hold, replace):
+    import pandas as pd
+
+    from walkcomfort import _io
+    from walkcomfort.imagery.attach import add_frame_cues
+    from walkcomfort.imagery.batch import compute_frame_cues
+    from walkcomfort.imagery.labels import combine_cues, read_frame_labels
+    from walkcomfort.imagery.sessions import session_frames
+    from walkcomfort.session.timeline import TIMELINE_FILE, read_timeline
+
     for d in sessions:
         table, reader_q, spec = session_frames(d)
         cues, meta = compute_frame_cues(table, spec.session_dir, detect_people=not no_people, workers=workers,
-                                        cache_dir=cache)
+                                        cache_dir=cache, pool=pool)
         label_meta = None
         if labels_name:
             lp = Path(labels_name)
