@@ -100,3 +100,16 @@ def test_load_network_reads_file_and_keeps_raw_untouched(tmp_path):
     assert net.name == "synthetic-grid"
     assert net.n_segments == 2 * (3 * 2 * 2)  # 6 streets x 2 blocks x 2 halves
     assert p.read_text() == text
+
+
+def test_third_coordinate_is_ground_elevation_interpolated_to_the_points():
+    dlon = 100.0 / 111_319.49
+    net = network_from_geojson({"type": "FeatureCollection", "features": [
+        _line("up", [[3.0, 0.0, 100.0], [3.0 + dlon, 0.0, 110.0]]), _line("flat", [[3.0, 0.001], [3.0 + dlon, 0.001]])]},
+        segment_length_m=100.0, spacing_m=25.0)
+    up = net.points.loc[net.points[C.SEGMENT_ID] == "up#000", C.ELEV_M].to_numpy()
+    # from the definition: linear in distance, points at 1/8, 3/8, 5/8, 7/8 of the line
+    assert np.allclose(up, [101.25, 103.75, 106.25, 108.75])
+    seg = net.segments.loc["up#000"]
+    assert (seg["elev_start_m"], seg["elev_end_m"]) == (100.0, 110.0)
+    assert net.points.loc[net.points[C.SEGMENT_ID] == "flat#000", C.ELEV_M].isna().all()

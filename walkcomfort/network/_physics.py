@@ -168,11 +168,13 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
     """Every segment x time as a short simulated walk along the segment, timeline-like.
 
     The walker steps onto the segment at the batch time and walks its sample points in
-    order at the routes' flat walking speed; the history windows of the model see
-    that walk only (no exposure before the segment is known at network scale).
+    order (the line's digitised direction) at the routes' walking speed on the
+    segment's slope (Tobler's function, ``routes.timing``); ground elevation comes from
+    the network's z when given. The history windows of the model see that walk only:
+    no exposure before the segment is known at network scale.
     Rows are point-major: row ``i * T + j`` is point ``i`` at time ``j``.
     """
-    from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
+    from walkcomfort.routes.timing import walking_speed_ms
 
     pts = part.points
     n, t = len(pts), len(part.times)
@@ -180,7 +182,20 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
     # sample points stand for equal lengths: neighbours are length / n_points apart
     step_m = pts["step_m"].to_numpy(float)
     dist = (pts["point_n"].to_numpy() + 0.5) * step_m
-    offset_s = (pts["point_n"].to_numpy() * step_m) / DEFAULT_FLAT_SPEED_MS
+    # ground elevation from the network's z where given; slope from the segment's first and last points
+    site_elev = float(part.context["site"].get("elev_m", 0.0))
+    z = pts[C.ELEV_M].to_numpy(float) if C.ELEV_M in pts.columns else np.full(n, np.nan)
+    g = pd.DataFrame({"s": seg, "z": z, "n": pts["point_n"].to_numpy()})
+    first = g.groupby("s", sort=False)["z"].transform("first").to_numpy()
+    last = g.groupby("s", sort=False)["z"].transform("last").to_numpy()
+    span = (g.groupby("s", sort=False)["n"].transform("max").to_numpy() * step_m)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slope = np.where(span > 0, 100.0 * (last - first) / span, 0.0)
+    slope = np.where(np.isfinite(slope), slope, 0.0)
+    elev = np.where(np.isfinite(z), z, site_elev)
+    # Tobler's function on the segment's slope, scaled to the routes' flat speed (routes.timing)
+    speed = np.asarray(walking_speed_ms(slope / 100.0), dtype=float)
+    offset_s = pts["point_n"].to_numpy() * step_m / speed
     times = (np.asarray(part.times.as_unit("ns").asi8)[None, :]
              + np.round(offset_s * 1e9).astype(np.int64)[:, None]).ravel()
     idx = pd.DatetimeIndex(times.astype("datetime64[ns]")).tz_localize("UTC").rename(C.TIME)
@@ -193,8 +208,9 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
 
     df = pd.DataFrame({C.WALK_ID: walk, C.PARTICIPANT: "simulated",
                        C.LAT: np.repeat(pts[C.LAT].to_numpy(float), t), C.LON: np.repeat(pts[C.LON].to_numpy(float), t),
-                       C.ELEV_M: float(part.context["site"].get("elev_m", 0.0)),
-                       C.DIST_M: np.repeat(dist, t), C.SPEED_MS: DEFAULT_FLAT_SPEED_MS, C.SLOPE_PCT: 0.0}, index=idx)
+                       C.ELEV_M: np.repeat(elev, t), C.DIST_M: np.repeat(dist, t),
+                       C.SPEED_MS: np.repeat(speed, t),
+                       C.SLOPE_PCT: np.repeat(slope, t)}, index=idx)
     for name in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SUN_ELEV_DEG, C.SHADE_FRAC, C.SVF, C.TMRT_C, C.UTCI_C):
         df[name] = grid(env[name])
     df[C.BEAM_TRANS_FRAC] = 1.0 - df[C.SHADE_FRAC]

@@ -8,6 +8,10 @@ path, a square's walking line...) as a ``LineString`` or ``MultiLineString`` wit
 - ``properties.id``   unique string (required): the street's id;
 - ``properties.name`` free text (optional): the street's name for people.
 
+Coordinates may carry a third value, the ground elevation [m]; it gives the sample
+points' ``elev_m`` and the segment's slope. Other properties are kept in the file
+and ignored here.
+
 An optional top-level member ``"walkcomfort": {"network": "<name>"}`` names the
 network. Open-data street exports are commonly in this form; rename their id
 property to ``id`` before use.
@@ -59,12 +63,14 @@ class Network:
     ----------
     segments : pandas.DataFrame
         One row per segment, index ``segment_id`` (``"<street id>#<n>"``); columns
-        ``street_id, street_name, seg_n, length_m, n_points, x_mid_m, y_mid_m``, and
+        ``street_id, street_name, seg_n, length_m, n_points, x_mid_m, y_mid_m``,
+        ``elev_start_m, elev_end_m`` (ground elevation at its ends, NaN without z), and
         ``geometry_xy`` / ``geometry_lonlat`` (lists of ``(x, y)`` / ``(lon, lat)``
         vertices of the segment).
     points : pandas.DataFrame
-        One row per sample point: ``segment_id, point_n, x_m, y_m, lon, lat``; points
-        of a segment are contiguous and in walking order.
+        One row per sample point: ``segment_id, point_n, x_m, y_m, lon, lat, elev_m``
+        (ground elevation interpolated from the lines' z, NaN without z); points of a
+        segment are contiguous and in walking order (the line's digitised direction).
     crs : pyproj.CRS
         The metric CRS of ``x_m, y_m``.
     quarantine : pandas.DataFrame
@@ -171,7 +177,9 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
             reason = f"not_a_line ({geom.get('type')})"
         if reason is None:
             try:
-                parts = [[(float(c[0]), float(c[1])) for c in part] for part in parts]
+                # a third coordinate, when given, is the ground elevation [m] (RFC 7946 altitude)
+                parts = [[(float(c[0]), float(c[1]), float(c[2]) if len(c) > 2 and c[2] is not None else math.nan)
+                          for c in part] for part in parts]
             except (TypeError, ValueError, IndexError):
                 reason = "bad_coordinates"
         if reason is None:
@@ -180,7 +188,7 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
             if not flat:
                 reason = "too_few_vertices"
             elif not all(math.isfinite(x) and math.isfinite(y) and -180 <= x <= 180 and -90 <= y <= 90
-                         for x, y in flat):
+                         for x, y, _ in flat):
                 reason = "coordinates_not_lonlat"
         if reason is not None:
             quarantine.append({"source": "network", "file": source, "row": row, "reason": reason, "raw": raw})
@@ -206,7 +214,7 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
         for part in parts:
             lonlat = np.asarray(part, dtype=float)
             x, y = fwd.transform(lonlat[:, 0], lonlat[:, 1])
-            xy = np.column_stack([x, y])
+            xy = np.column_stack([x, y, lonlat[:, 2]])
             length = _polyline_length(xy)
             if length <= 0:
                 continue
@@ -230,16 +238,18 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
             seg_rows.append({C.SEGMENT_ID: seg_id, C.STREET_ID: sid, "street_name": sname, "seg_n": k,
                              "length_m": float(length), "n_points": n_pts,
                              "x_mid_m": float(mid[0]), "y_mid_m": float(mid[1]),
-                             "geometry_xy": [tuple(map(float, v)) for v in piece],
+                             "elev_start_m": float(piece[0, 2]), "elev_end_m": float(piece[-1, 2]),
+                             "geometry_xy": [(float(v[0]), float(v[1])) for v in piece],
                              "geometry_lonlat": list(zip(map(float, glon), map(float, glat)))})
             for j in range(n_pts):
-                pt_rows.append((seg_id, j, float(pxy[j, 0]), float(pxy[j, 1]), float(plon[j]), float(plat[j])))
+                pt_rows.append((seg_id, j, float(pxy[j, 0]), float(pxy[j, 1]), float(plon[j]), float(plat[j]),
+                                float(pxy[j, 2])))
 
     if not seg_rows:
         raise InputError("every street in the network has zero length", where=source,
                          fix="give lines with at least two distinct vertices")
     segments = pd.DataFrame(seg_rows).set_index(C.SEGMENT_ID)
-    points = pd.DataFrame(pt_rows, columns=[C.SEGMENT_ID, "point_n", C.X_M, C.Y_M, C.LON, C.LAT])
+    points = pd.DataFrame(pt_rows, columns=[C.SEGMENT_ID, "point_n", C.X_M, C.Y_M, C.LON, C.LAT, C.ELEV_M])
     qdf = pd.DataFrame(quarantine, columns=QUARANTINE_COLUMNS)
     return Network(segments, points, crs, qdf, net_name,
                    {"segment_length_m": float(segment_length_m), "spacing_m": float(spacing_m)},
@@ -254,18 +264,18 @@ def _row_of(obj: dict, sid: str) -> int:
 
 
 def _polyline_length(xy: np.ndarray) -> float:
-    return float(np.hypot(*np.diff(xy, axis=0).T).sum())
+    return float(np.hypot(*np.diff(xy[:, :2], axis=0).T).sum())
 
 
 def _interpolate(xy: np.ndarray, at: np.ndarray) -> np.ndarray:
-    """Points at distances ``at`` [m] along the polyline ``xy``."""
-    d = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
-    return np.column_stack([np.interp(at, d, xy[:, 0]), np.interp(at, d, xy[:, 1])])
+    """Points at horizontal distances ``at`` [m] along the polyline ``xy`` (every column interpolated)."""
+    d = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy[:, :2], axis=0).T))])
+    return np.column_stack([np.interp(at, d, xy[:, k]) for k in range(xy.shape[1])])
 
 
 def _substring(xy: np.ndarray, a: float, b: float) -> np.ndarray:
     """The part of polyline ``xy`` between distances ``a`` and ``b`` [m], with its inner vertices."""
-    d = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+    d = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy[:, :2], axis=0).T))])
     inner = (d > a) & (d < b)
     ends = _interpolate(xy, np.array([a, b]))
     return np.vstack([ends[:1], xy[inner], ends[1:]])
