@@ -229,3 +229,11 @@ def test_share_csv_track_and_a_sync_frame_near_the_start(tmp_path, make_template
                    privacy.great_circle_m(lat1, lon1, after.data["lat"], after.data["lon"]))
     assert d.min() > 200.0
     assert entry["points_kept"] + entry["points_removed_near_ends"] == entry["points_read"]
+
+
+@pytest.mark.slow
+def test_share_in_worker_processes_gives_the_same_copy(tmp_path, session_with_face):
+    a, rec_a = share_session(session_with_face, tmp_path / "serial", SECRET, radius_m=50.0, workers=1)
+    b, rec_b = share_session(session_with_face, tmp_path / "pooled", SECRET, radius_m=50.0, workers=2)
+    assert rec_a == rec_b
+    assert _tree_digests(a) == _tree_digests(b)

@@ -124,25 +124,37 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
 @click.option("--keep-notes", is_flag=True, help="Keep free-text notes (votes, sync events); default: emptied.")
 @click.option("--plates", is_flag=True, help="Also blur licence-plate-like regions.")
 @click.option("--no-blur", is_flag=True, help="Do not blur faces (only for copies that stay within the team).")
-def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, plates, no_blur):
+@click.option("--workers", type=click.IntRange(min=1), default=None,
+              help="Worker processes for the face blurring [default: the usable cores].")
+def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, plates, no_blur, workers):
     """Write a shareable copy of session folder(s): pseudonyms, track ends trimmed, faces blurred.
 
     The raw session is never modified. Each copy holds share_record.json, the list of
     what was removed or changed. Review the frames before they leave the team.
     """
+    from walkcomfort.imagery.batch import default_workers, make_pool
     from walkcomfort.imagery.privacy import load_secret
     from walkcomfort.imagery.share import share_session
     from walkcomfort.session.commands import find_sessions
 
     secret = load_secret(secret_file)
-    for d in find_sessions(session_dirs):
-        folder, rec = share_session(d, out_dir, secret, radius_m=radius_m, keep_notes=keep_notes,
-                                    blur_faces=not no_blur, plates=plates)
-        fr = rec["frames"]
-        trimmed = sum(v.get("points_removed_near_ends", 0) for v in rec["files"].values() if v.get("kind") == "gps")
-        click.echo(f"{d} -> {folder}: {trimmed} track points trimmed, {fr['copied']} frames shared "
-                   f"({len(fr['removed_near_track_ends'])} near the ends and {len(fr['removed_position_unknown'])} "
-                   f"without a position left out), {fr['faces_blurred']} faces blurred in "
-                   f"{len(fr['frames_with_faces'])} frames; record: {folder / 'share_record.json'}")
+    sessions = find_sessions(session_dirs)
+    n_workers = default_workers() if workers is None else workers
+    pool = make_pool(n_workers) if n_workers > 1 else None
+    try:
+        for d in sessions:
+            folder, rec = share_session(d, out_dir, secret, radius_m=radius_m, keep_notes=keep_notes,
+                                        blur_faces=not no_blur, plates=plates, pool=pool)
+            fr = rec["frames"]
+            trimmed = sum(v.get("points_removed_near_ends", 0) for v in rec["files"].values()
+                          if v.get("kind") == "gps")
+            click.echo(f"{d} -> {folder}: {trimmed} track points trimmed, {fr['copied']} frames shared "
+                       f"({len(fr['removed_near_track_ends'])} near the ends and "
+                       f"{len(fr['removed_position_unknown'])} without a position left out), "
+                       f"{fr['faces_blurred']} faces blurred in {len(fr['frames_with_faces'])} frames; "
+                       f"record: {folder / 'share_record.json'}")
+    finally:
+        if pool is not None:
+            pool.shutdown()
     click.echo("Before release: look through the shared frames (blurring misses some faces) and check the "
                "study's ethics approval.")

@@ -72,7 +72,8 @@ CAUTION = ("Face blurring uses cascade detectors that miss small, turned or shad
 def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, secret: bytes, *,
                   radius_m: float = TRIM_RADIUS_M, keep_notes: bool = False, blur_faces: bool = True,
                   plates: bool = False, face_params: _faces.FaceParams | None = None,
-                  verify: bool = True, progress: bool | None = None) -> tuple[Path, dict]:
+                  verify: bool = True, progress: bool | None = None, workers: int = 1,
+                  pool=None) -> tuple[Path, dict]:
     """Write a shareable copy of one session folder.
 
     Parameters
@@ -99,6 +100,11 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
         refuse to finish if it does not load.
     progress : bool, optional
         Progress bar over frames.
+    workers : int
+        Worker processes for the face blurring (1: in this process).
+    pool : concurrent.futures.ProcessPoolExecutor, optional
+        A pool to use instead (:func:`walkcomfort.imagery.batch.make_pool`), e.g. shared by
+        many sessions.
 
     Returns
     -------
@@ -150,7 +156,7 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
                 record["files"][s.path] = _share_plain(s, stage)
                 copied.add(s.path)
         frames_entry, frames_kept, frames_removed = _share_frames(spec, stage, radius_m, blur_faces,
-                                                                  plates, face_params, progress)
+                                                                  plates, face_params, progress, workers, pool)
         record["frames"] = frames_entry
         copied |= frames_kept
         record["manifest"] = _share_manifest(data, stage / MANIFEST_NAME, sid, pid, keep_notes, spec,
@@ -409,7 +415,7 @@ def _gps_on_reference_clock(spec, fits) -> pd.DataFrame | None:
                          C.LON: df[C.LON].to_numpy(float)}).sort_values("t", kind="stable")
 
 
-def _share_frames(spec, stage: Path, radius_m, blur, plates, face_params, progress):
+def _share_frames(spec, stage: Path, radius_m, blur, plates, face_params, progress, workers=1, pool=None):
     from walkcomfort.imagery.sessions import session_frames
     from walkcomfort.session.readers.frames import exif_time
 
@@ -433,7 +439,8 @@ def _share_frames(spec, stage: Path, radius_m, blur, plates, face_params, progre
         params = _faces.FaceParams(params.min_face_px, params.scale_factor, params.min_neighbors, params.width, True)
     from walkcomfort.imagery.privacy import great_circle_m
 
-    for i, rel in track(list(enumerate(frames[C.FRAME_PATH])), "share frames", total=len(frames), enabled=progress):
+    todo = []
+    for i, rel in enumerate(frames[C.FRAME_PATH]):
         if not np.isfinite(lat[i]) or ends is None:
             entry["removed_position_unknown"].append(rel)
             removed.add(rel)
@@ -443,14 +450,46 @@ def _share_frames(spec, stage: Path, radius_m, blur, plates, face_params, progre
             entry["removed_near_track_ends"].append(rel)
             removed.add(rel)
             continue
-        src = spec.session_dir / rel
-        n_faces = _copy_frame(src, stage / rel, blur, params, exif_time)
+        todo.append((rel, str(spec.session_dir / rel), str(stage / rel)))
+    results: dict[str, int] = {}
+    for rel, n_faces in track(_copy_frames(todo, blur, params, workers, pool), "share frames", total=len(todo),
+                              enabled=progress):
+        results[rel] = n_faces
+    for rel, _, _ in todo:      # the record in frame order, whatever order the workers finished in
+        n_faces = results[rel]
         if n_faces:
             entry["frames_with_faces"][rel] = n_faces
             entry["faces_blurred"] += n_faces
         entry["copied"] += 1
         kept.add(rel)
     return entry, kept, removed
+
+
+def _copy_chunk(items, blur, params) -> list[tuple[str, int]]:
+    from walkcomfort.session.readers.frames import exif_time
+
+    return [(rel, _copy_frame(Path(src), Path(dst), blur, params, exif_time)) for rel, src, dst in items]
+
+
+def _copy_frames(todo, blur, params, workers, pool):
+    """Copy (and blur) frames, in worker processes when there are several and enough frames."""
+    from concurrent.futures import as_completed
+
+    if (pool is None and workers <= 1) or len(todo) < 8:
+        for item in todo:
+            yield from _copy_chunk([item], blur, params)
+        return
+    from walkcomfort.imagery.batch import make_pool
+
+    own = pool is None
+    pool = make_pool(workers) if own else pool
+    try:
+        futures = [pool.submit(_copy_chunk, todo[i:i + 4], blur, params) for i in range(0, len(todo), 4)]
+        for fut in as_completed(futures):
+            yield from fut.result()
+    finally:
+        if own:
+            pool.shutdown()
 
 
 def _copy_frame(src: Path, dst: Path, blur: bool, params, exif_time) -> int:
