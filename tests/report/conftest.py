@@ -95,6 +95,7 @@ class BrowserSession:
         self.context = context
         self.allowed_origin = allowed_origin
         self.console_errors: list[str] = []
+        self.console_warnings: list[str] = []
         self.page_errors: list[str] = []
         self.dialogs: list[str] = []
         self.blocked: list[str] = []
@@ -124,7 +125,8 @@ class BrowserSession:
     def new_page(self, width=1280, height=860):
         page = self.context.new_page()
         page.set_viewport_size({"width": width, "height": height})
-        page.on("console", lambda m: self.console_errors.append(m.text) if m.type == "error" else None)
+        page.on("console", lambda m: self.console_errors.append(m.text) if m.type == "error" else
+                (self.console_warnings.append(m.text) if m.type == "warning" else None))
         page.on("pageerror", lambda e: self.page_errors.append(str(e)))
         page.on("request", lambda r: self.requests.append(r.url))
 

@@ -1111,7 +1111,7 @@ def render_map_html(fmap, *, offline: bool = False, out_dir: str | os.PathLike |
     figure.header.add_child(_branca_element(_offline.asset_tags(offline)), name="walkcomfort_leaflet")
     page = figure.render()
     # folium's viewport meta forbids zooming the page on phones; field readers need it
-    page = page.replace("maximum-scale=1.0, user-scalable=no", "")
+    page = page.replace(", maximum-scale=1.0, user-scalable=no", "")
     page = page.replace("<html>", '<html lang="en">', 1)
     if csp:
         policy = _csp(page, offline, source)
@@ -1272,8 +1272,25 @@ var WC = (function () {
     return box;
   }
 
+  // thinner lines when zoomed out, so a city-wide view stays readable
+  function lineWeight() {
+    var z = api.map ? api.map.getZoom() : 17;
+    return z >= 17 ? 6 : (z >= 15 ? 4 : (z >= 13 ? 2.5 : 1.5));
+  }
+  function haloWeight(w) { return w >= 4 ? w + 3 : w + 1.5; }
+  function restyleLines() {
+    var w = lineWeight();
+    api.registry.forEach(function (r) {
+      if (!r.layer.wcLines) { return; }
+      r.layer.wcLines.forEach(function (l) { l.setStyle({weight: w}); });
+      r.layer.wcHalos.forEach(function (l) { l.setStyle({weight: haloWeight(w)}); });
+    });
+  }
+
   function routeLayer(d, mode, label) {
     var group = L.featureGroup(), n = d.lat.length, runs = [], cur = null, k, key;
+    group.wcLines = [];
+    group.wcHalos = [];
     for (k = 0; k + 1 < n; k++) {
       if (d.route[k + 1] !== d.route[k]) { cur = null; continue; }
       key = keyOf(d, mode, k);
@@ -1291,10 +1308,12 @@ var WC = (function () {
       if (run.single) {
         line = L.circleMarker(pts[0], {radius: 6, color: api.cfg.halo, weight: 2, fillColor: colour, fillOpacity: 1});
       } else {
-        L.polyline(pts, {color: api.cfg.halo, weight: 9, opacity: 0.55, interactive: false,
-                         lineCap: "round", lineJoin: "round"}).addTo(group);
-        line = L.polyline(pts, {color: colour, weight: 6, opacity: 1, lineCap: "round", lineJoin: "round",
+        var w = lineWeight();
+        group.wcHalos.push(L.polyline(pts, {color: api.cfg.halo, weight: haloWeight(w), opacity: 0.55, interactive: false,
+                                            lineCap: "round", lineJoin: "round"}).addTo(group));
+        line = L.polyline(pts, {color: colour, weight: w, opacity: 1, lineCap: "round", lineJoin: "round",
                                 className: "wc-seg wc-seg-" + mode});
+        group.wcLines.push(line);
       }
       line.bindTooltip(el("span", null, label + " \u2014 " + keyLabel(mode, run.key)), {sticky: true});
       line.on("click", function (e) {
@@ -1483,6 +1502,7 @@ var WC = (function () {
     new Title().addTo(map);
     new Legend().addTo(map);
     map.on("layeradd layerremove", refreshLegend);
+    map.on("zoomend", restyleLines);
     refreshLegend();
     if (bounds) {
       // keep the data clear of the legend on the left, where the map is wide enough for both
@@ -1491,6 +1511,7 @@ var WC = (function () {
       map.fitBounds(bounds, {paddingTopLeft: [left, 24], paddingBottomRight: [24, 24], maxZoom: 18});
     }
     else { map.setView([0, 0], 2); }
+    restyleLines();
     map.attributionControl.setPrefix("Leaflet");
     document.documentElement.setAttribute("data-walkcomfort-ready", "1");
   };

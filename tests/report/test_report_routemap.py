@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import _synth as S
+import _report_synth as S
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.report import routemap as R
@@ -316,3 +316,21 @@ def test_route_summaries_reach_the_popups():
     # no summary for a walk: the popup simply has none
     (d0,) = _payloads(R.route_map(pred, summaries=summ.iloc[1:2], layers=("comfort",)))[:1]
     assert d0["summ"] == [None]
+
+
+def test_missing_values_become_nulls_not_nan(tmp_path):
+    pred = S.predictions(schemes=("a",), departures=("2026-07-14T07:00Z",))
+    for col in (C.UTCI_C, C.TMRT_C, C.SHADE_FRAC, "p_neutral", "reasons", C.UTCI_BAND):
+        pred.iloc[10:20, pred.columns.get_loc(col)] = None
+    (data,) = _payloads(R.route_map(pred, layers=("comfort", "utci", "shade"), simplify_m=0))
+    assert data["utci"][12] is None and data["shade"][12] is None and data["p"][1][12] is None
+    assert data["r"][12] == -1 and data["sbin"][12] == -1 and data["band"][12] == -1
+    page = R.write_map(R.route_map(pred), tmp_path / "m.html").read_text()
+    assert "NaN" not in page
+
+
+def test_title_is_text(tmp_path):
+    fmap = R.route_map(S.predictions(schemes=("a",)), title="<script>window.__pwned=9</script> & co")
+    page = R.write_map(fmap, tmp_path / "m.html").read_text()
+    assert "<title>&lt;script&gt;window.__pwned=9&lt;/script&gt; &amp; co</title>" in page
+    assert "<script>window.__pwned=9" not in page

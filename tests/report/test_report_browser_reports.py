@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-import _synth as S
+import _report_synth as S
 from walkcomfort import columns as C
 from walkcomfort.report.session_report import write_session_report
 

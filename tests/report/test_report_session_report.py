@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 from PIL import Image
 
-import _synth as S
+import _report_synth as S
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.report import session_report as SR

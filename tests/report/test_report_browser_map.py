@@ -10,7 +10,7 @@ import shutil
 
 import pytest
 
-import _synth as S
+import _report_synth as S
 from walkcomfort.report import routemap as R
 
 pytestmark = pytest.mark.browser
@@ -50,6 +50,7 @@ def _click_path(page, locator):
 
 def _clean(browser):
     assert browser.console_errors == [], browser.console_errors
+    assert browser.console_warnings == [], browser.console_warnings
     assert browser.page_errors == [], browser.page_errors
     assert browser.dialogs == [], browser.dialogs
     assert browser.blocked == [], browser.blocked

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pandas as pd
 import pytest
 
-import _synth as S
+import _report_synth as S
 from walkcomfort import _io
 from walkcomfort.cli import main
 
