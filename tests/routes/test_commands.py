@@ -113,3 +113,5 @@ def test_route_with_a_model_bundle_and_walker(files, tmp_path):
     assert any(k.endswith("manifest.json") for k in prov["inputs"])
     assert main(["route", str(route), "--walker", "shoe=42", "--depart", "2026-07-15T17:00+02:00",
                  "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5", "-o", str(out)]) == 2
+    # the synthetic model was fitted with a noise meter on most walks: a planned walk has none, and says so
+    assert "cannot supply" in md

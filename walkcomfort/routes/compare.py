@@ -256,6 +256,14 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
         tables.append(predict_route(route, None, weather, scene=scene, scheme=s, predictor=predictor,
                                     explain=explain, timeline=timeline, **env_kw))
         inventories[s.name] = scheme_inventory(scene, s) if scene is not None else scheme_inventory_empty()
+    notices = []
+    if predictor.is_model:
+        gone = predictor.unavailable_features(tables[0])
+        if gone:
+            notices.append(f"the model uses {len(gone)} features a planned walk cannot supply (no sound meter, light "
+                           f"meter or camera on a simulated walk: {', '.join(gone[:6])}{' …' if len(gone) > 6 else ''}); "
+                           "they are missing on every point, so the model relies on its missing-value branches "
+                           "there — prefer a model fitted without them for planned routes")
     points = pd.concat(tables)
     points.attrs = dict(tables[0].attrs)
     points.attrs["scheme"] = [s.name for s in schemes]
@@ -263,8 +271,8 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
     comparison = compare_to_base(summary) if BASE in set(summary[SCHEME]) else summary.iloc[0:0]
     best = best_departures(summary)
     cost = cost_effectiveness(comparison, inventories)
-    return Comparison(points, summary, comparison, best, cost, inventories,
-                      list(points.attrs.get("notices", [])))
+    points.attrs["notices"] = list(points.attrs.get("notices", [])) + notices
+    return Comparison(points, summary, comparison, best, cost, inventories, list(points.attrs["notices"]))
 
 
 def scheme_inventory_empty() -> dict:

@@ -83,6 +83,23 @@ class Predictor:
     def is_model(self) -> bool:
         return self.model is not None
 
+    def unavailable_features(self, timeline: pd.DataFrame) -> list[str]:
+        """Model features that are missing on every row of a (simulated) timeline.
+
+        A planned walk has no sound meter, light meter or camera, so features built
+        from them are NaN throughout and the model falls back on its missing-value
+        branches; callers report this so nobody mistakes it for measured conditions.
+        """
+        if self.model is None or len(timeline) == 0:
+            return []
+        from walkcomfort.model.features import build_features
+
+        first = timeline[C.WALK_ID].iloc[0] if C.WALK_ID in timeline.columns else None
+        one = timeline[timeline[C.WALK_ID] == first] if first is not None else timeline
+        X = build_features(one)
+        names = [str(c) for c in getattr(self.model, "feature_names_in_", X.columns)]
+        return [c for c in names if c in X.columns and X[c].isna().all()]
+
     def predict(self, timeline: pd.DataFrame, explain: bool = True) -> pd.DataFrame:
         """Class probabilities, class and reasons per timeline row.
 
