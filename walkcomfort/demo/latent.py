@@ -14,7 +14,7 @@ what they met in the minutes before:
 
 - ``U`` — UTCI now [°C]; ``U₀`` = :data:`UTCI_REF_C` (27 °C, an invented acclimatised
   population's reference); ``H`` — heat load, the exponentially weighted mean of UTCI
-  with a time constant of :data:`TAU_HEAT_S` (6 min), so it remembers the last minutes;
+  with a time constant of :data:`TAU_HEAT_S` (10 min), so it remembers the last minutes;
 - ``t_sun`` — minutes since the walker was last in shade (beam transmittance below 0.5),
   capped at 12: a long stretch in the sun keeps adding discomfort;
 - ``max(H − U − 1, 0)`` — *relief*: stepping into shade after a hot stretch feels better
@@ -37,19 +37,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
-TAU_HEAT_S = 360.0          # time constant of the remembered heat load [s]
+TAU_HEAT_S = 600.0          # time constant of the remembered heat load [s]
 SHADE_BELOW = 0.5           # beam transmittance below which a walker counts as in shade [-]
-A_NOW = 0.10                # per K of UTCI now
-B_LOAD = 0.08               # per K of remembered heat load
-C_SUN = 0.07                # per minute since the last shade (capped at 12 min)
-R_RELIEF = 0.20             # per K of relief (heat load above UTCI now)
-S_SLOPE = 0.06              # per % of uphill slope
-N_NOISE = 0.06              # per dB(A) above 62
-P_CROWD = 0.08              # per person around (capped at 8)
-VOTE_NOISE = 0.35           # standard deviation of a vote's noise
+A_NOW = 0.05                # per K of UTCI now
+B_LOAD = 0.10               # per K of remembered heat load
+C_SUN = 0.12                # per minute since the last shade (capped at 12 min)
+R_RELIEF = 0.35             # per K of relief (heat load above UTCI now)
+S_SLOPE = 0.12              # per % of uphill slope
+N_NOISE = 0.12              # per dB(A) above 62
+P_CROWD = 0.15              # per person around (capped at 8)
+VOTE_NOISE = 0.25           # standard deviation of a vote's noise
 UTCI_REF_C = 27.0          # reference UTCI of the invented population [°C]
-COMFORTABLE_BELOW = 1.2
-UNCOMFORTABLE_ABOVE = 2.2
+COMFORTABLE_BELOW = 1.4
+UNCOMFORTABLE_ABOVE = 2.5
 
 
 @dataclass(frozen=True)

@@ -181,28 +181,27 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
             lambda: [paths["timelines"]])
     have_tl = lambda: "" if _timelines_in(paths["timelines"]) else "no ingested timelines (ingest did not run)"  # noqa: E731
 
-    # 2. camera-frame cues (sky, greenery, people) into the timelines
+    # 2. camera-frame cues (sky, greenery, people, quality), added to the ingested timelines in place
     attempt("frames", "frames", have_tl,
-            lambda: [[str(paths["timelines"]), "--sessions", str(sessions), "-o", str(paths["frames"])]],
-            lambda: [paths["frames"]])
-    base_tl = paths["frames"] if _timelines_in(paths["frames"]) else paths["timelines"]
+            lambda: [[str(sessions), "-o", str(paths["timelines"])]],
+            lambda: [paths["timelines"]])
 
     # 3. thermal environment: sun, shade and sky view from the scene, Tmrt from the globe, UTCI
     attempt("thermal", "thermal", have_tl,
-            lambda: [[str(base_tl if _timelines_in(base_tl) else paths["timelines"]), "-o", str(paths["thermal"]),
-                      "--scene", str(demo / "scene.geojson")]],
+            lambda: [[str(paths["timelines"]), "-o", str(paths["thermal"]), "--scene", str(demo / "scene.geojson")]],
             lambda: [paths["thermal"]])
     have_thermal = lambda: "" if _timelines_in(paths["thermal"]) else "no timelines with UTCI (thermal did not run)"  # noqa: E731
 
     # 4. comfort model, validated on walkers it never saw
     attempt("fit", "fit", have_thermal,
-            lambda: [[*[str(p) for p in _timelines_in(paths["thermal"])], "-o", str(paths["model"])]],
+            lambda: [[str(paths["thermal"]), "-o", str(paths["model"])]],
             lambda: [paths["model"]])
 
     # 5. planned routes under each shade scheme, on the invented design day
+    schemes = [a for p in sorted((demo / "schemes").glob("*.geojson")) for a in ("--scheme", str(p))]
+
     def compare_args():
         model = ["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []
-        schemes = [a for p in sorted((demo / "schemes").glob("*.geojson")) for a in ("--scheme", str(p))]
         from walkcomfort.demo.scenario import DESIGN_DAY
         from walkcomfort.demo.town import TIMEZONE
 
@@ -214,13 +213,17 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
 
     attempt("compare", "compare", lambda: "", compare_args, lambda: [paths["routes"] / r for r in ROUTES])
 
-    # 6. the HTML map and the reports
-    attempt("map", "map", lambda: "" if paths["routes"].is_dir() else "no route predictions (compare did not run)",
-            lambda: [[str(paths["routes"] / ROUTES[0]), "--scene", str(demo / "scene.geojson"),
-                      "-o", str(paths["map"] / "routes.html")]],
+    # 6. the HTML map (planned routes per scheme, recorded walks) and the session and model reports
+    routes_done = lambda: [paths["routes"] / r for r in ROUTES if (paths["routes"] / r).is_dir()]  # noqa: E731
+    walks = paths["thermal"] if _timelines_in(paths["thermal"]) else paths["timelines"]
+    attempt("map", "map", lambda: "" if routes_done() or _timelines_in(walks) else "nothing to map yet",
+            lambda: [[*[str(p) for p in routes_done()], "--scene", str(demo / "scene.geojson"), *schemes,
+                      *(["--walk", str(walks)] if _timelines_in(walks) else []),
+                      "--timezone", "Europe/Madrid", "-o", str(paths["map"] / "routes.html")]],
             lambda: [paths["map"] / "routes.html"])
     attempt("report", "report", have_tl,
-            lambda: [[str(base_tl), "-o", str(paths["reports"])]],
+            lambda: [[str(walks), *([str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []),
+                      "-o", str(paths["reports"])]],
             lambda: [paths["reports"]])
     return run
 

@@ -396,12 +396,20 @@ def _note(row, rng) -> str:
     return str(options[int(rng.integers(0, len(options)))])
 
 
+#: Spontaneous votes: base rate while walking, extra rate once the state has moved since the
+#: last vote, and the shortest time between two votes.
+SPONTANEOUS_PER_S = 1 / 45.0
+CHANGE_PER_S = 1 / 20.0
+CHANGE_BY = 0.9
+MIN_GAP_S = 25
+
+
 def draw_votes(truth: pd.DataFrame, plan: SessionPlan, rng) -> list[dict]:
     """Prompted votes at the stops and spontaneous ones on the way, from the latent process.
 
-    Spontaneous votes come with a base rate of one per ~100 s of walking and are much more
+    Spontaneous votes come with a base rate of one per ~45 s of walking and are much more
     likely when the walker's state has moved since the last vote (people report changes);
-    no two votes within 40 s.
+    no two votes within :data:`MIN_GAP_S`.
     """
     votes = []
     d = truth["discomfort"].to_numpy()
@@ -421,8 +429,8 @@ def draw_votes(truth: pd.DataFrame, plan: SessionPlan, rng) -> list[dict]:
             if si not in prompted_done and k - stop_started[si] >= 12 + (plan.number + si) % 7:
                 kind = "prompted"
                 prompted_done.add(si)
-        elif not stopped[k] and k - last_t >= 40:
-            rate = 1 / 100.0 + (1 / 20.0 if abs(d[k] - last_d) > 0.9 else 0.0)
+        elif not stopped[k] and k - last_t >= MIN_GAP_S:
+            rate = SPONTANEOUS_PER_S + (CHANGE_PER_S if abs(d[k] - last_d) > CHANGE_BY else 0.0)
             if rng.random() < rate:
                 kind = "spontaneous"
         if kind is None:
