@@ -237,3 +237,28 @@ def test_share_in_worker_processes_gives_the_same_copy(tmp_path, session_with_fa
     b, rec_b = share_session(session_with_face, tmp_path / "pooled", SECRET, radius_m=50.0, workers=2)
     assert rec_a == rec_b
     assert _tree_digests(a) == _tree_digests(b)
+
+
+@pytest.mark.parametrize("wrapped", [True, False])
+def test_share_json_votes(tmp_path, make_template_session, wrapped):
+    import json
+
+    raw = make_template_session(tmp_path / "raw")
+    lines = [ln for ln in (raw / "votes" / "votes.csv").read_text(encoding="utf-8").splitlines()
+             if ln and not ln.startswith("#")][1:]
+    votes = [dict(zip(["time", "participant", "comfort", "tsv", "note", "kind"], ln.split(","))) for ln in lines]
+    doc = {"votes": votes, "operator": "Dr. Someone"} if wrapped else votes
+    (raw / "votes" / "votes.json").write_text(json.dumps(doc), encoding="utf-8")
+    text = (raw / "session.toml").read_text(encoding="utf-8").replace('path = "votes/votes.csv"',
+                                                                       'path = "votes/votes.json"\nformat = "json"')
+    (raw / "session.toml").write_text(text, encoding="utf-8")
+    folder, record = share_session(raw, tmp_path / "shared", SECRET, radius_m=100.0, blur_faces=False)
+    shared = json.loads((folder / "votes" / "votes.json").read_text(encoding="utf-8"))
+    if wrapped:
+        assert set(shared) == {"votes"}
+    else:
+        shared = {"votes": shared}
+    assert [v["participant"] for v in shared["votes"]] == [privacy.pseudonym("P01", SECRET), ""]
+    assert all(v["note"] == "" for v in shared["votes"])
+    assert record["files"]["votes/votes.json"]["notes_emptied"] == 1
+    assert main(["check", str(folder)]) == 0

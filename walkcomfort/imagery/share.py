@@ -334,19 +334,18 @@ def _share_votes(s, stage: Path, pid: str, participant: str, keep_notes: bool) -
     if s.format == "json":
         from walkcomfort.session.readers.votes import _json_records
 
-        text = s.abs_path.read_bytes().decode("utf-8-sig")
-        obj = json.loads(text)
-        recs = _json_records(s.abs_path, s)
+        obj = json.loads(s.abs_path.read_bytes().decode("utf-8-sig"))
+        recs = _json_records(s.abs_path, s)      # a fresh parse: the list that is edited and written
         n_part = n_note = 0
         for r in recs:
             if part_col in r and str(r[part_col]).strip():
-                r[part_col] = pid if str(r[part_col]).strip() == participant else \
-                    "P-OTHER"
+                r[part_col] = pid if str(r[part_col]).strip() == participant else "P-OTHER"
                 n_part += 1
             if not keep_notes and note_col in r and str(r[note_col] or "").strip():
                 r[note_col] = ""
                 n_note += 1
-        out = obj if isinstance(obj, list) else {"votes": recs}
+        # other top-level members of a {"votes": [...]} file are not copied (they may name people)
+        out = recs if isinstance(obj, list) else {"votes": recs}
         _io.atomic_write_text(stage / s.path, json.dumps(out, ensure_ascii=False, indent=2) + "\n")
         return {"kind": "votes", "rows_kept": len(recs), "participant_replaced": n_part, "notes_emptied": n_note}
 
