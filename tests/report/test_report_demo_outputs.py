@@ -24,7 +24,7 @@ def demo_outputs(tmp_path_factory):
                  "--scheme", str(demo_dir / "schemes" / "canopy-placa.geojson"),
                  "--scene", str(demo_dir / "scene.geojson"), "--depart", "2026-07-14T15:00",
                  "--timezone", "Europe/Madrid", "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5",
-                 "--no-reasons", "-o", str(root / "routes")]) == 0
+                 "--no-reasons", "--spacing", "10", "-o", str(root / "routes")]) == 0
     return root, session.name
 
 
