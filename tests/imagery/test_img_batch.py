@@ -116,3 +116,14 @@ def test_bad_frames_table_is_a_clear_error():
     naive = pd.DataFrame({C.FRAME_PATH: ["a.jpg"]}, index=pd.DatetimeIndex(["2026-07-14 08:00"]))
     with pytest.raises(InputError, match="naive"):
         batch.compute_frame_cues(naive)
+
+
+def test_people_are_not_counted_on_bad_frames(tmp_path, make_street):
+    import cv2
+
+    rgb, _ = make_street(h=240, w=320)
+    Image.fromarray(rgb).save(tmp_path / "sharp.png")
+    Image.fromarray(cv2.GaussianBlur(rgb, (0, 0), 4)).save(tmp_path / "blurred.png")
+    cues, _ = batch.compute_frame_cues([tmp_path / "sharp.png", tmp_path / "blurred.png"], workers=1)
+    assert cues[C.FRAME_OK].tolist() == [True, False]
+    assert cues[C.PEOPLE_N].iloc[0] == 0 and pd.isna(cues[C.PEOPLE_N].iloc[1])

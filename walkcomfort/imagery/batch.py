@@ -46,7 +46,7 @@ from walkcomfort.imagery.people import PeopleParams, count_people
 from walkcomfort.imagery.quality import QualityParams, quality_flags
 
 #: Bump when a rule changes in a way that changes results: old cache entries stop matching.
-ANALYSIS_VERSION = 1
+ANALYSIS_VERSION = 2
 #: Width [px] frames are analysed at.
 ANALYSIS_WIDTH = 640
 #: Below this many frames to compute, worker processes cost more than they save.
@@ -118,11 +118,16 @@ def load_frame(path: str | os.PathLike, max_width: int | None = None) -> np.ndar
 
 
 def analyse_image(rgb: np.ndarray, params: AnalysisParams | None = None) -> dict:
-    """All cues and quality flags of one decoded frame (see the module notes)."""
+    """All cues and quality flags of one decoded frame (see the module notes).
+
+    ``people_n`` is None (NaN in the table) when people are not detected or the frame
+    failed a quality check (the HOG detector is not run on it).
+    """
     p = params or AnalysisParams()
     out, masks = frame_cues(rgb, p.cues, return_masks=True)
     out.update(quality_flags(rgb, p.quality, sky=masks["sky"], sky_frac=out[C.SKY_FRAC], gray=masks["gray"]))
-    out[C.PEOPLE_N] = count_people(rgb, p.people) if p.detect_people else None
+    # the detector is the slow part, and a bad frame's cues never reach the timeline: skip it there
+    out[C.PEOPLE_N] = count_people(rgb, p.people) if p.detect_people and out[C.FRAME_OK] else None
     return out
 
 
