@@ -128,6 +128,7 @@ QA_SETTLING = "qa_settling"        # a lagged sensor had not settled yet
 QA_GPS_JUMP = "qa_gps_jump"        # implied speed far above walking
 QA_UTCI_RANGE = "qa_utci_out_of_range"  # an input outside the UTCI polynomial's validity
 QA_WIND_CLAMPED = "qa_wind_clamped"     # wind at 10 m raised to the 0.5 m/s floor
+QA_INSIDE_BUILDING = "qa_inside_building"  # the position falls inside a scene building footprint (GPS error)
 
 # --- network scale (walkcomfort.network) -----------------------------------------------
 SEGMENT_ID = "segment_id"          # "<street id>#<n>": one cut piece of a street line
