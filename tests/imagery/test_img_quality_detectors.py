@@ -76,6 +76,20 @@ def test_obstruction_flag(street):
     assert not quality.quality_flags(rgb, sky=sky_mask(rgb))[C.QA_FRAME_OBSTRUCTED]
 
 
+@pytest.mark.parametrize("name", ["astronaut", "coffee", "chelsea", "camera"])
+def test_ordinary_photographs_pass(name):
+    # scikit-image's sample photographs are well exposed, sharp and unobstructed
+    img = getattr(data, name)()
+    img = np.stack([img] * 3, axis=-1) if img.ndim == 2 else img
+    assert quality.quality_flags(img, sky=sky_mask(img))[C.FRAME_OK]
+
+
+def test_night_sky_photograph_is_underexposed():
+    # scikit-image's Hubble deep field: almost all of it is black sky
+    img = (data.hubble_deep_field()).astype(np.uint8)
+    assert quality.quality_flags(img)[C.QA_FRAME_UNDEREXPOSED]
+
+
 def test_dusk_sky_is_not_an_obstruction():
     # scikit-image's rocket photograph: a launch pad under a dark blue dusk sky
     f = quality.quality_flags(data.rocket())
