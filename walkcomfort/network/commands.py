@@ -138,13 +138,16 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--scheduler", help="Address of a running Dask scheduler (tcp://host:8786); default a local cluster.")
 @click.option("--workers", default=2, show_default=True, type=int, help="Workers of the local Dask cluster.")
 @click.option("--threads-per-worker", default=1, show_default=True, type=int)
+@click.option("--write-on", type=click.Choice(["workers", "client"]), default=None,
+              help="Dask: who writes the Parquet files (default: workers on a local cluster, this process "
+                   "with --scheduler; 'workers' needs the output folder on storage they share).")
 @click.option("--retries", default=2, show_default=True, type=int, help="Extra attempts for a failing partition.")
 @click.option("--resume", is_flag=True, help="Keep partitions an earlier run of the same job already wrote.")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Output folder.")
 def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model, start, end, step, timezone,
             segment_length_m, spacing_m, tile_size_m, time_chunk, min_sun_elev_deg, engine, scheduler, workers,
-            threads_per_worker, retries, resume, out_dir):
+            threads_per_worker, write_on, retries, resume, out_dir):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -166,7 +169,7 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
                err=True)
     opts = {"retries": retries}
     if engine == "dask":
-        opts.update(scheduler=scheduler, workers=workers, threads_per_worker=threads_per_worker)
+        opts.update(scheduler=scheduler, workers=workers, threads_per_worker=threads_per_worker, write_on=write_on)
     t0 = _time.perf_counter()
     report = run_job(job, out_dir, engine, resume=resume, **opts)
     seconds = _time.perf_counter() - t0

@@ -19,9 +19,11 @@ too makes the dataset readers refuse the schema); :func:`read_segment_hours`
 puts them back as columns.
 
 The Dask engine starts a ``dask.distributed.LocalCluster`` bound to the loopback
-interface, or connects to an existing scheduler by address. It only computes
-there: rows come back to this process, which writes them, so workers need no
-access to the output folder (a partition's rows are small: segments x times).
+interface, or connects to an existing scheduler by address. On a LocalCluster the
+worker that computed a partition also writes it (the folder is on this machine);
+with a scheduler address the rows come back and this process writes them, so
+remote workers need no access to the output folder, unless ``write_on="workers"``
+says they share it. Either way the bytes are the same.
 """
 
 from __future__ import annotations
@@ -109,9 +111,20 @@ def run_partition(fn, part: Partition) -> pd.DataFrame:
     return check_partition_result(part, fn(part))
 
 
-def _write(out_dir, job: NetworkJob, part: Partition, rows: pd.DataFrame) -> Path:
+def run_and_write_partition(fn, part: Partition, out_dir: str, digest: str) -> tuple[int, float]:
+    """Run, check and write one partition where it runs (workers sharing the output folder).
+
+    Returns the number of rows written and the seconds spent writing.
+    """
+    rows = run_partition(fn, part)
+    tw = _time.perf_counter()
+    _write(out_dir, digest, part, rows)
+    return len(rows), _time.perf_counter() - tw
+
+
+def _write(out_dir, digest: str, part: Partition, rows: pd.DataFrame) -> Path:
     body = rows.drop(columns=["scheme", C.TILE_ID], errors="ignore")
-    meta = {"job_digest": job.digest, C.PARTITION_ID: part.partition_id, "scheme": part.scheme,
+    meta = {"job_digest": digest, C.PARTITION_ID: part.partition_id, "scheme": part.scheme,
             C.TILE_ID: part.tile_id, "chunk": part.chunk, "rows_expected": part.expected_rows}
     return _io.write_parquet(partition_path(out_dir, part), body, meta)
 
@@ -170,7 +183,7 @@ class InProcessEngine:
                 finally:
                     report.timings["compute"] += _time.perf_counter() - tc
                 tw = _time.perf_counter()
-                path = _write(out_dir, job, part, rows)
+                path = _write(out_dir, job.digest, part, rows)
                 report.timings["write"] += _time.perf_counter() - tw
                 outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
                 outcome.path = path.relative_to(out_dir).as_posix()
@@ -199,12 +212,20 @@ class DaskEngine:
         Extra attempts Dask makes for a partition that raised.
     timeout_s : float
         How long to wait for the cluster to start or the scheduler to answer [s].
+    write_on : {"workers", "client"}, optional
+        Who writes a partition's Parquet file: the worker that computed it (needs the
+        output folder on storage the workers share; the default for a LocalCluster) or
+        this process (rows travel back; the default with a scheduler address).
     """
 
     name = "dask"
 
     def __init__(self, scheduler: str | None = None, workers: int = 2, threads_per_worker: int = 1,
-                 processes: bool = True, retries: int = 2, timeout_s: float = 60.0):
+                 processes: bool = True, retries: int = 2, timeout_s: float = 60.0, write_on: str | None = None):
+        if write_on not in (None, "workers", "client"):
+            raise InputError(f"write_on = {write_on!r}; allowed: workers, client",
+                             fix="give --write-on workers (shared storage) or --write-on client")
+        self.write_on = write_on or ("client" if scheduler else "workers")
         self.scheduler = scheduler
         self.workers = int(workers)
         self.threads_per_worker = int(threads_per_worker)
@@ -268,10 +289,15 @@ class DaskEngine:
             by_key = {}
             futures = []
             tag = job.digest.split(":")[-1][:12]
+            out_abs = str(Path(out_dir).resolve())
             for part in todo:
                 key = f"walkcomfort-network-{tag}-{part.partition_id}"
-                fut = client.submit(run_partition, job.partition_fn, part, key=key, retries=self.retries,
-                                    pure=False)
+                if self.write_on == "workers":
+                    fut = client.submit(run_and_write_partition, job.partition_fn, part, out_abs, job.digest,
+                                        key=key, retries=self.retries, pure=False)
+                else:
+                    fut = client.submit(run_partition, job.partition_fn, part, key=key, retries=self.retries,
+                                        pure=False)
                 by_key[fut.key] = part
                 futures.append(fut)
             for fut in track(as_completed(futures), "network partitions", total=len(futures), enabled=progress):
@@ -283,12 +309,17 @@ class DaskEngine:
                     outcome.error = _error_text(exc)
                     outcome.attempts = self.retries + 1
                 else:
-                    rows = fut.result()
-                    tw = _time.perf_counter()
-                    path = _write(out_dir, job, part, rows)
-                    report.timings["write"] += _time.perf_counter() - tw
-                    outcome.status, outcome.written_rows = "written", len(rows)
-                    outcome.path = path.relative_to(out_dir).as_posix()
+                    if self.write_on == "workers":
+                        n_rows, w_s = fut.result()
+                        report.timings["write"] += w_s  # summed over workers (not wall time here)
+                    else:
+                        rows = fut.result()
+                        tw = _time.perf_counter()
+                        _write(out_dir, job.digest, part, rows)
+                        report.timings["write"] += _time.perf_counter() - tw
+                        n_rows = len(rows)
+                    outcome.status, outcome.written_rows = "written", int(n_rows)
+                    outcome.path = partition_path(out_dir, part).relative_to(out_dir).as_posix()
                     # Dask does not tell how many tries a success took; at least one
                     outcome.attempts = 1
                 fut.release()
@@ -318,7 +349,7 @@ def _engine_params(engine) -> dict:
     if isinstance(engine, DaskEngine):
         return {"engine": "dask", "scheduler": engine.scheduler, "workers": engine.workers,
                 "threads_per_worker": engine.threads_per_worker, "processes": engine.processes,
-                "retries": engine.retries}
+                "retries": engine.retries, "write_on": engine.write_on}
     return {"engine": "in-process", "retries": engine.retries}
 
 
