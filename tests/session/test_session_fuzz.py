@@ -104,3 +104,56 @@ def test_votes_reader_fuzz(session, rows):
         assert set(df["vote_comfort"].dropna()) <= {"comfortable", "neutral", "uncomfortable"}
         tsv = df["vote_tsv"].dropna()
         assert ((tsv >= -3) & (tsv <= 3) & (tsv == tsv.round())).all()
+
+
+@pytest.fixture(scope="module")
+def mini():
+    with tempfile.TemporaryDirectory() as tmp:
+        d = Path(tmp) / "m"
+        shutil.copytree(SESSIONS / "broken" / "gpx10_ok", d)
+        yield d
+
+
+@settings(FUZZ, max_examples=20)
+@given(dups=st.sets(st.integers(1, 28), max_size=5), garbage=st.sets(st.integers(1, 28), max_size=4),
+       hot=st.sets(st.integers(1, 28), max_size=4), gap=st.one_of(st.none(), st.integers(3, 20)),
+       no_time=st.sets(st.integers(1, 58), max_size=3))
+def test_planted_imperfections_are_found_exactly(mini, dups, garbage, hot, gap, no_time):
+    """Plant duplicates, garbage lines, out-of-range rows, a gap and timeless GPX points; QA counts each exactly."""
+    import re
+
+    d = mini
+    base = (SESSIONS / "broken" / "gpx10_ok" / "weather.csv").read_text().splitlines()
+    header, rows = base[0], base[1:]
+    hot = hot - dups
+    out = [header]
+    for k, line in enumerate(rows):
+        if gap is not None and gap <= k < gap + 8:      # 8 missing rows of 2 s: a 18 s interval > 10 s
+            continue
+        f = line.split(",")
+        if k in hot:
+            f[1] = "75.0"                                  # above 60 °C: out of range
+        out.append(",".join(f))
+        if k in dups and not (gap is not None and gap <= k < gap + 8):
+            out.append(",".join(f[:1] + [str(float(f[1]) + 0.1)] + f[2:]))   # same time, other value
+        if k in garbage:
+            out.append("#### garbage ;;; " + "x" * k if k % 2 else "\x00garbage")
+    (d / "weather.csv").write_text("\n".join(out) + "\n")
+    gpx = (SESSIONS / "broken" / "gpx10_ok" / "track.gpx").read_text()
+    pts = gpx.split("<trkpt")
+    for i in no_time:
+        pts[i + 1] = re.sub(r"<time>.*?</time>", "", pts[i + 1])
+    (d / "track.gpx").write_text("<trkpt".join(pts))
+    from walkcomfort.session.timeline import build_timeline
+
+    tl = build_timeline(d)
+    s = tl.qa["summary"]
+    kept = {k for k in range(len(rows)) if gap is None or not gap <= k < gap + 8}
+    assert s["reconciles"]
+    assert s["duplicate_rows"] == len(dups & kept)
+    assert s["out_of_range_rows"] == len(hot & kept)
+    # garbage lines starting with '#' are comments (not rows); the others are bad lines
+    assert s["bad_lines"] == sum(1 for k in garbage & kept if not k % 2)
+    assert s["points_without_time"] == len(no_time)
+    assert tl.qa["sources"]["weather"]["gaps"] == (0 if gap is None else 1)
+    assert s["gps_jumps"] == 0 and s["clock_corrections"] == 0
