@@ -284,3 +284,19 @@ def test_date_and_time_in_separate_columns_with_decimal_comma(tmp_path):
     assert list(df.index) == [pd.Timestamp("2026-07-14T08:00:00Z"), pd.Timestamp("2026-07-14T08:00:02Z")]
     assert list(df[C.T_AIR_C]) == [30.5, 30.7]
     assert list(df[C.WIND_MS]) == pytest.approx([1.0, 2.0])   # 3.6 and 7.2 km/h
+
+
+@pytest.mark.parametrize("fmt, values", [("epoch_s", ["1784016000", "1784016001.5", "x", "1e20"]),
+                                         ("epoch_ms", ["1784016000000", "1784016001500", "x", "1e25"])])
+def test_epoch_times(tmp_path, fmt, values):
+    d = tmp_path / "s"
+    shutil.copytree(SESSIONS / "broken" / "gpx10_ok", d)
+    (d / "weather.csv").write_text("time,t_air\n" + "\n".join(f"{v},20" for v in values) + "\n")
+    (d / "session.toml").write_text((d / "session.toml").read_text().replace(
+        'device = "logger1"', f'device = "logger1"\ntime_format = "{fmt}"'))
+    spec = load_manifest(d)
+    src = spec.sources_of("weather")[0]
+    df, meta = read_weather(src.abs_path, src, spec)
+    # 1784016000 s after 1970-01-01T00:00Z is 2026-07-14T08:00:00Z (from the definition of Unix time)
+    assert list(df.index) == [pd.Timestamp("2026-07-14T08:00:00Z"), pd.Timestamp("2026-07-14T08:00:01.5Z")]
+    assert list(meta["quarantine"]["reason"]) == ["bad_time", "bad_time"]

@@ -120,7 +120,7 @@ class SourceSpec:
     columns: dict[str, str] = field(default_factory=dict)
     units: dict[str, str] = field(default_factory=dict)
     time_columns: tuple[str, ...] = ("time",)   # raw columns joined with a space to form the time text
-    time_format: str | None = None  # strftime pattern, "ISO8601" (default) or "epoch_s"
+    time_format: str | None = None  # strftime pattern, "ISO8601" (default), "epoch_s" or "epoch_ms"
     delimiter: str | None = None    # sniffed from the header line when not given
     decimal: str = "."
     na_values: tuple[str, ...] = ()

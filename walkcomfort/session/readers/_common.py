@@ -192,9 +192,9 @@ def parse_times(s: pd.Series, spec, session, where: str, lines=None) -> tuple[pd
     n = len(s)
     reason = np.full(n, "", dtype=object)
     fmt = spec.time_format
-    if fmt == "epoch_s":
+    if fmt in ("epoch_s", "epoch_ms"):
         vals, bad = to_number(s)
-        out = pd.to_datetime(vals, unit="s", utc=True, errors="coerce")
+        out = pd.to_datetime(vals, unit=fmt[6:], utc=True, errors="coerce")
         idx = pd.DatetimeIndex(out).as_unit("ns")
         reason[np.asarray(idx.isna())] = "bad_time"
         return idx, reason
