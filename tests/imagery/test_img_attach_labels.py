@@ -144,3 +144,31 @@ def test_combine_prefers_imported_but_keeps_computed_where_missing(frames_table)
     assert out["cue_source"].tolist() == ["both", "both", "computed"]
     kept = combine_cues(computed, imported, prefer="computed")
     assert kept[C.GREEN_FRAC].tolist() == [0.5, 0.5, 0.5]
+
+
+def test_labels_reader_survives_any_text(tmp_path_factory, frames_table):
+    # fuzzing: whatever the lines hold, the reader either raises one clear InputError or
+    # returns rows whose counts reconcile (read = used + quarantined), never anything else
+    from hypothesis import HealthCheck, given, settings
+    from hypothesis import strategies as st
+
+    folder = tmp_path_factory.mktemp("fuzz")
+    cell = st.one_of(st.sampled_from(["IMG_0001.jpg", "camera/IMG_0002.jpg", "0.5", "-1", "abc", "", "nan", "1e400",
+                                      "2026-07-14T08:00:00Z", "3", "true"]), st.text(max_size=6))
+    line = st.lists(cell, min_size=1, max_size=5).map(lambda cs: ",".join(c.replace("\n", " ") for c in cs))
+
+    @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+    @given(st.lists(line, max_size=8))
+    def check(lines):
+        p = folder / "labels.csv"
+        p.write_text("frame,sky,vegetation,people\n" + "\n".join(lines) + "\n", encoding="utf-8")
+        try:
+            labels, meta = read_frame_labels(p, frames_table)
+        except InputError as exc:
+            assert "\n" not in str(exc)
+            return
+        c = meta["counts"]
+        assert c["read"] == c["used"] + c["quarantined"] == len(labels) + len(meta["quarantine"])
+        assert ((labels[C.SKY_FRAC].dropna() >= 0) & (labels[C.SKY_FRAC].dropna() <= 1)).all()
+
+    check()
