@@ -205,3 +205,19 @@ def test_missing_markers_are_quarantined_not_dropped(greensboro_tmy3, tmp_path):
     truncated.write_text("\n".join(greensboro_tmy3.read_text().splitlines()[:1]) + "\n")
     with pytest.raises(InputError):
         read_weather_file(truncated)
+
+
+def test_logger_from_an_ingested_timeline_parquet(tmp_path):
+    from walkcomfort import _io
+
+    idx = pd.date_range("2026-07-15T12:00Z", periods=61, freq="10s", name="time")
+    df = pd.DataFrame({"t_air_c": np.linspace(30, 31, 61), "rh_pct": 40.0, "wind_ms": 1.0,
+                       "ghi_wm2": 800.0}, index=idx)
+    p = _io.write_parquet(tmp_path / "timeline.parquet", df, {"session": {"wind_height_m": 1.1}})
+    src = open_weather(p)
+    assert isinstance(src, LoggerSeries) and src.wind_height_m == 1.1 and not src.notices
+    c = src.conditions(pd.DatetimeIndex(["2026-07-15T12:05Z"]), 40.4, -3.7)
+    assert c[C.T_AIR_C].iloc[0] == pytest.approx(30.5)
+    # the measured global irradiance is kept and split into beam and diffuse (Erbs)
+    assert c[C.GHI_WM2].iloc[0] == pytest.approx(800.0)
+    assert c[C.DNI_WM2].iloc[0] > 0 and c[C.DHI_WM2].iloc[0] > 0
