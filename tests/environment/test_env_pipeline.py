@@ -201,3 +201,24 @@ def test_missing_values_pass_through_as_nan():
     assert np.isnan(out[C.TMRT_C].iloc[2]) and pd.isna(out[C.TMRT_SOURCE].iloc[2])
     assert np.isnan(out[C.UTCI_C].iloc[3]) and pd.isna(out[C.UTCI_BAND].iloc[3])
     assert np.isfinite(out[C.UTCI_C].iloc[0]) and out.attrs["environment"]["qa_counts"]["tmrt_missing"] == 2
+
+
+def test_points_inside_buildings_are_flagged_or_snapped():
+    # A GPS fix 2 m inside a 20 m block (common in street canyons): flagged; with "snap"
+    # it is moved 0.5 m outside the nearest wall for shade and sky view (from the geometry).
+    block = Polygon([(X0 - 10, Y0 - 10), (X0 + 10, Y0 - 10), (X0 + 10, Y0 + 10), (X0 - 10, Y0 + 10)])
+    sc = scene_from_local([(block, {"id": "blk", "kind": "building", "height_m": 15.0})], LAT, LON)
+    lon, lat = FRAME.unproject(np.array([X0 + 8.0, X0 + 30.0]), np.array([Y0, Y0]))
+    idx = pd.date_range("2026-07-14 10:00", periods=2, freq="1s", tz="UTC", name=C.TIME)
+    df = pd.DataFrame({C.LAT: lat, C.LON: lon, C.T_AIR_C: 30.0, C.RH_PCT: 40.0, C.WIND_MS: 1.0}, index=idx)
+    df.attrs["session"] = {"wind_height_m": 1.1}
+    flagged = add_environment(df, scene=sc)
+    assert flagged[C.QA_INSIDE_BUILDING].tolist() == [True, False]
+    assert flagged[C.SVF].iloc[0] == 0.0  # inside the solid: no sky
+    snapped = add_environment(df, scene=sc, inside_buildings="snap")
+    assert snapped[C.QA_INSIDE_BUILDING].tolist() == [True, False]
+    x, y, moved = sc.snap_outside([X0 + 8.0], [Y0])
+    assert moved.tolist() == [True] and x[0] == pytest.approx(X0 + 10.5) and y[0] == pytest.approx(Y0)
+    # at 10.5 m east of a 10 m wide half-block, 15 m tall: sky view well below 1 but not 0
+    assert 0.4 < snapped[C.SVF].iloc[0] < 0.9
+    assert snapped.attrs["environment"]["qa_counts"]["inside_building"] == 1

@@ -85,7 +85,10 @@ def _irradiance_table(path: Path):
 @click.option("--no-globe", is_flag=True, help="Ignore the globe thermometer; Tmrt from fluxes everywhere.")
 @click.option("--crown-model", type=click.Choice(["per_crossing", "path_length"]), default="per_crossing",
               show_default=True, help="Crowns pass their transmissivity once per crossing, or by path length.")
-def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe, crown_model):
+@click.option("--inside-buildings", "inside", type=click.Choice(["flag", "snap"]), default="flag", show_default=True,
+              help="Positions inside a building footprint (GPS error): flag them, or also move them just outside "
+                   "the nearest wall for shade and sky view.")
+def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe, crown_model, inside):
     """Add sun, shade, sky view, Tmrt and UTCI to ingested timelines (TIMELINES: walk or output folders).
 
     Tmrt comes from the globe thermometer (ISO 7726) where it was logged, otherwise from
@@ -112,12 +115,13 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
         if again:
             click.echo(f"{walk_id}: replacing environment columns from an earlier run ({len(again)} columns)")
         env = add_environment(df, scene=scene, irradiance=irr, use_globe=not no_globe, z_m=z_m,
-                              n_sectors=n_sectors, overwrite=bool(again), crown_model=crown_model, warn=False)
+                              n_sectors=n_sectors, overwrite=bool(again), crown_model=crown_model,
+                              inside_buildings=inside, warn=False)
         target_dir = path.parent if out_dir is None else Path(out_dir) / walk_id
         parameters = {"scene": None if scene_path is None else Path(scene_path).name,
                       "irradiance": irradiance if isinstance(irr, str) else Path(irradiance).name,
                       "body_height_m": z_m, "n_sectors": n_sectors, "use_globe": not no_globe,
-                      "crown_model": crown_model}
+                      "crown_model": crown_model, "inside_buildings": inside}
         prov = _io.provenance(inputs=[path, *inputs_extra], parameters=parameters)
         new_meta = dict(meta)
         new_meta["session"] = env.attrs["session"]
@@ -140,6 +144,10 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
         click.echo(f"{walk_id}: {q['rows']} rows; Tmrt from globe {q['tmrt_globe']}, from fluxes {q['tmrt_fluxes']}, "
                    f"missing {q['tmrt_missing']}; UTCI out of range {q['out_of_range']}, wind clamped to 0.5 m/s "
                    f"{q['wind_clamped']} -> {target_dir / TIMELINE_FILE}")
+        if q["inside_building"]:
+            click.echo(f"  note: {q['inside_building']} rows lie inside a building footprint (GPS error?); "
+                       f"flagged in qa_inside_building" + (", moved outside for shade/sky view" if inside == "snap"
+                                                           else ""))
         gap = (env.attrs["environment"].get("globe") or {}).get("globe_minus_fluxes_k")
         if gap:
             click.echo(f"  globe minus flux model: median {gap['median']:+.1f} K (IQR {gap['q25']:+.1f} … "

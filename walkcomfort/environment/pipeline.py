@@ -40,12 +40,13 @@ from walkcomfort.errors import InputError
 #: Columns this stage adds (and owns).
 ENV_COLUMNS = (C.SUN_ELEV_DEG, C.SUN_ZENITH_DEG, C.SUN_AZIM_DEG, C.GHI_WM2, C.DNI_WM2, C.DHI_WM2,
                C.SHADE_FRAC, C.BEAM_TRANS_FRAC, C.SVF, C.SKY_VIEW_CROWN_FRAC, C.TMRT_C, C.TMRT_SOURCE,
-               C.WIND10_MS, C.UTCI_C, C.UTCI_BAND, C.QA_UTCI_RANGE, C.QA_WIND_CLAMPED)
+               C.WIND10_MS, C.UTCI_C, C.UTCI_BAND, C.QA_UTCI_RANGE, C.QA_WIND_CLAMPED, C.QA_INSIDE_BUILDING)
 
 #: Default height of the point that must see the sun and the sky [m] (centre of a standing body).
 BODY_HEIGHT_M = 1.1
-#: Positions are snapped to this grid for the sky view [m]: SVF changes slowly with place (and not
-#: with time), and GPS positions are uncertain by several metres anyway.
+#: Rows in one cell of this grid share one sky-view computation, made at the first row's real
+#: position [m]: SVF changes slowly with place (and not with time), and GPS positions are
+#: uncertain by several metres anyway.
 SVF_GRID_M = 2.0
 
 
@@ -107,10 +108,13 @@ def _sky_view(scene, x, y, z, n_sectors, radius_m):
     crowns = np.full(x.size, np.nan)
     if not ok.any():
         return svf, crowns
-    key = np.column_stack([np.round(x[ok] / SVF_GRID_M), np.round(y[ok] / SVF_GRID_M), np.round(z[ok], 2)])
-    uniq, inv = np.unique(key, axis=0, return_inverse=True)
-    res = _skyview.sky_view_factor(scene, uniq[:, 0] * SVF_GRID_M, uniq[:, 1] * SVF_GRID_M, z_m=uniq[:, 2],
-                                   n_sectors=n_sectors, radius_m=radius_m)
+    xs, ys, zs = x[ok], y[ok], z[ok]
+    key = np.column_stack([np.floor(xs / SVF_GRID_M), np.floor(ys / SVF_GRID_M), np.round(zs, 2)])
+    _, first, inv = np.unique(key, axis=0, return_index=True, return_inverse=True)
+    # each grid cell is computed at one real position of the walk (its first row), never at
+    # a cell centre, which could fall inside a wall
+    res = _skyview.sky_view_factor(scene, xs[first], ys[first], z_m=zs[first], n_sectors=n_sectors,
+                                   radius_m=radius_m)
     svf[ok] = res[C.SVF].to_numpy()[inv.reshape(-1)]
     crowns[ok] = res[C.SKY_VIEW_CROWN_FRAC].to_numpy()[inv.reshape(-1)]
     return svf, crowns
@@ -122,7 +126,7 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
                     globe_height_m: float | None = None, z_m: float = BODY_HEIGHT_M, n_sectors: int = 36,
                     svf_radius_m: float = 200.0, z0_m: float = _utci.Z0_UTCI_M, overwrite: bool = False,
                     flux_options: dict | None = None, crown_model: str = "per_crossing",
-                    warn: bool = True) -> pd.DataFrame:
+                    inside_buildings: str = "flag", warn: bool = True) -> pd.DataFrame:
     """Sun, irradiance, shade, sky view, Tmrt and UTCI for every row of a timeline.
 
     Parameters
@@ -162,6 +166,10 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         (albedo, emissivities, surface temperature excess).
     crown_model : {"per_crossing", "path_length"}
         How crowns attenuate the beam (see :func:`walkcomfort.environment.shade.beam_transmittance`).
+    inside_buildings : {"flag", "snap"}
+        Rows whose position falls inside a building footprint (usually GPS error in a
+        street canyon) are always flagged in ``qa_inside_building``; ``"snap"`` also moves
+        them 0.5 m outside the nearest wall for shade and sky view (lat/lon are not changed).
     warn : bool, default True
         Warn (ValidityRangeWarning) when rows fall outside the UTCI validity range.
 
@@ -172,7 +180,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         ``ghi_wm2, dni_wm2, dhi_wm2`` [W m⁻²], ``beam_trans_frac``, ``shade_frac`` (= 1 −
         transmittance; 1 at night), ``svf``, ``sky_frac_crowns``, ``tmrt_c`` [°C],
         ``tmrt_source`` ("globe" | "fluxes"; string dtype, missing = NA), ``wind10_ms``,
-        ``utci_c`` [°C], ``utci_band`` (string dtype), ``qa_utci_out_of_range``, ``qa_wind_clamped``. Same index and
+        ``utci_c`` [°C], ``utci_band`` (string dtype), ``qa_utci_out_of_range``, ``qa_wind_clamped``,
+        ``qa_inside_building``. Same index and
         attrs, plus ``attrs["environment"]``.
     """
     df = timeline_df
@@ -238,7 +247,15 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
     # --- shade and sky view -------------------------------------------------------------------
     month = _local_month(idx, (df.attrs.get("session") or {}).get("timezone"))
     zz = np.full(n, float(z_m))
+    if inside_buildings not in ("flag", "snap"):
+        raise InputError(f"inside_buildings must be 'flag' or 'snap', got {inside_buildings!r}",
+                         where="add_environment", fix="use 'flag' (default) or 'snap'")
+    inside = np.zeros(n, dtype=bool)
     if scene is not None:
+        if inside_buildings == "snap":
+            x, y, inside = scene.snap_outside(x, y)
+        else:
+            inside = scene.inside_buildings(x, y)
         trans = _shade.beam_transmittance(scene, x, y, s_elev, s_az, z_m=zz, month=month, crown_model=crown_model)
         svf, crowns = _sky_view(scene, x, y, zz, n_sectors, svf_radius_m)
     else:  # open ground
@@ -302,6 +319,7 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         C.WIND10_MS: wind10, C.UTCI_C: utci_c,
         C.UTCI_BAND: pd.array(np.asarray(_utci.utci_band(utci_c), dtype=object), dtype="string"),
         C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool), C.QA_WIND_CLAMPED: u[C.QA_WIND_CLAMPED].to_numpy(bool),
+        C.QA_INSIDE_BUILDING: inside,
     }
     out = pd.concat([out, pd.DataFrame(new, index=idx)], axis=1)
     out.attrs = dict(df.attrs)
@@ -313,7 +331,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         "svf_radius_m": float(svf_radius_m),
         "wind_height_m": None if wind_h is None else float(wind_h), "z0_m": float(z0_m),
         "flux_options": fo,
-        "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": n_globe,
+        "inside_buildings": inside_buildings,
+        "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": n_globe, "inside_building": int(inside.sum()),
                       "tmrt_fluxes": int((source == "fluxes").sum()),
                       "tmrt_missing": int(np.isnan(tmrt).sum())},
     })

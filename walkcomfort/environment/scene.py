@@ -181,6 +181,62 @@ class Scene:
         """Local x, y [m] -> WGS84 lon/lat [°]."""
         return self.frame.unproject(x, y)
 
+    def inside_buildings(self, x, y) -> np.ndarray:
+        """Whether local points ``(x, y)`` [m] fall inside a building footprint (bool per point)."""
+        x = np.asarray(x, dtype=float).reshape(-1)
+        y = np.asarray(y, dtype=float).reshape(-1)
+        out = np.zeros(x.size, dtype=bool)
+        obs = self.obstacles
+        ok = np.isfinite(x) & np.isfinite(y)
+        if not ok.any() or obs.n == 0:
+            return out
+        pts = shapely.points(x[ok], y[ok])
+        pi, oi = obs.tree.query(pts, predicate="within")
+        bld = obs.kind[oi] == KIND_CODE["building"]
+        out[np.flatnonzero(ok)[pi[bld]]] = True
+        return out
+
+    def snap_outside(self, x, y, clearance_m: float = 0.5):
+        """Move points that fall inside a building to just outside its nearest wall.
+
+        Parameters
+        ----------
+        x, y : array-like
+            Local points [m].
+        clearance_m : float, default 0.5
+            Distance outside the wall to place the point [m].
+
+        Returns
+        -------
+        x, y : ndarray
+            Moved copies (points outside buildings unchanged).
+        moved : ndarray of bool
+            Which points were moved.
+        """
+        x = np.array(x, dtype=float).reshape(-1)
+        y = np.array(y, dtype=float).reshape(-1)
+        inside = self.inside_buildings(x, y)
+        if not inside.any():
+            return x, y, inside
+        obs = self.obstacles
+        idx = np.flatnonzero(inside)
+        pts = shapely.points(x[idx], y[idx])
+        pi, oi = obs.tree.query(pts, predicate="within")
+        keep = obs.kind[oi] == KIND_CODE["building"]
+        pi, oi = pi[keep], oi[keep]
+        first = np.unique(pi, return_index=True)[1]
+        pi, oi = pi[first], oi[first]
+        rings = shapely.boundary(obs.footprints[oi])
+        at = shapely.line_interpolate_point(rings, shapely.line_locate_point(rings, pts[pi]))
+        bx, by = shapely.get_x(at), shapely.get_y(at)
+        px, py = x[idx[pi]], y[idx[pi]]
+        dx, dy = bx - px, by - py
+        d = np.hypot(dx, dy)
+        d = np.where(d > 0, d, 1.0)
+        x[idx[pi]] = bx + dx / d * clearance_m
+        y[idx[pi]] = by + dy / d * clearance_m
+        return x, y, inside
+
     @cached_property
     def obstacles(self) -> Obstacles:
         """Obstacles in local metres, prepared once for the shade and sky-view kernels."""
