@@ -6,6 +6,8 @@ import json
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from shapely.geometry import Point, Polygon, mapping
 
 from walkcomfort.environment.geo import LocalFrame, utm_crs
@@ -113,3 +115,26 @@ def test_scene_from_local_keeps_metres():
     assert obs.edge_ptr[-1] == 4
     empty = Scene.empty(LAT, LON)
     assert empty.obstacles.n == 0
+
+
+_values = st.one_of(st.none(), st.booleans(), st.integers(-5, 50), st.floats(allow_nan=True, allow_infinity=True),
+                    st.text(max_size=5), st.lists(st.integers(), max_size=2), st.dictionaries(st.text(max_size=2),
+                                                                                             st.floats(), max_size=2))
+_geoms = st.sampled_from([
+    mapping(Point(LON, LAT)), mapping(_box_ll()), {"type": "LineString", "coordinates": [[LON, LAT], [LON, LAT + 1e-4]]},
+    {"type": "Polygon", "coordinates": [[[LON, LAT], [LON + 1e-4, LAT + 1e-4], [LON + 1e-4, LAT], [LON, LAT + 1e-4],
+                                         [LON, LAT]]]},
+    {"type": "Polygon", "coordinates": []}, {"type": "Nonsense"}, None, "text"])
+
+
+@settings(max_examples=150, deadline=None)
+@given(kind=st.sampled_from(["building", "tree", "canopy", "bench", None]), geom=_geoms,
+       props=st.dictionaries(st.sampled_from(["height_m", "crown_base_m", "crown_radius_m", "transmissivity",
+                                              "transmissivity_by_month"]), _values, max_size=5))
+def test_any_malformed_feature_gives_input_error_not_a_crash(kind, geom, props):
+    # Bad scenes must end in a one-line InputError (or load), never another exception.
+    feat = {"type": "Feature", "geometry": geom, "properties": {"id": "f", "kind": kind, **props}}
+    try:
+        Scene.from_geojson(_fc(feat))
+    except InputError as exc:
+        assert "\n" not in str(exc) and "Fix:" in str(exc)
