@@ -44,11 +44,13 @@ def test_frames_after_ingest_adds_cues_that_reach_the_features(tmp_path, session
     feats = build_features(tl)
     assert feats["sky_frac_1min"].notna().any()
 
-    # a second run reads the cache and refuses to overwrite the columns silently
+    # a second run refuses, before any work, to overwrite the columns silently ...
     assert main(["frames", str(session), "-o", str(out), "--workers", "1"]) == 2
     captured = capsys.readouterr()
-    assert "10 from cache, 0 computed" in captured.out and "--replace" in captured.err
+    assert "--replace" in captured.err and captured.err.count("\n") == 1 and "analysed" not in captured.out
+    # ... and with --replace it recomputes from the cache
     assert main(["frames", str(session), "-o", str(out), "--workers", "1", "--replace", "--hold", "5"]) == 0
+    assert "10 from cache, 0 computed" in capsys.readouterr().out
     assert read_timeline(walk)[C.FRAME_AGE_S].max() <= 5.0
 
 

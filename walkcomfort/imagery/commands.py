@@ -67,8 +67,18 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
     from walkcomfort.imagery.sessions import session_frames
     from walkcomfort.session.timeline import TIMELINE_FILE, read_timeline
 
+    from walkcomfort.imagery.attach import ADDED_COLUMNS
+
     for d in sessions:
         table, reader_q, spec = session_frames(d)
+        tl_path = Path(out_dir) / spec.id / TIMELINE_FILE
+        if tl_path.is_file() and not replace:
+            import pyarrow.parquet as pq
+
+            clash = [c for c in ADDED_COLUMNS if c in pq.read_schema(tl_path).names]
+            if clash:   # say so before the work, not after it
+                raise InputError(f"the timeline already has frame-cue columns {clash}", where=tl_path,
+                                 fix="pass --replace to recompute them")
         cues, meta = compute_frame_cues(table, spec.session_dir, detect_people=not no_people, workers=workers,
                                         cache_dir=cache, pool=pool)
         label_meta = None
@@ -98,7 +108,6 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
         if label_meta:
             lc = label_meta["counts"]
             click.echo(f"  labels: {lc['read']} rows = {lc['used']} used + {lc['quarantined']} quarantined")
-        tl_path = walk / TIMELINE_FILE
         if tl_path.is_file():
             tl = read_timeline(tl_path)
             meta_tl = _io.read_parquet_metadata(tl_path)
