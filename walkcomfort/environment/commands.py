@@ -77,7 +77,8 @@ def _irradiance_table(path: Path):
 @click.option("--out", "-o", "out_dir", type=click.Path(path_type=Path), default=None,
               help="Output folder (OUT/<walk_id>/timeline.parquet); default: replace each timeline in place.")
 @click.option("--irradiance", "irradiance", default="clearsky", show_default=True,
-              help="'clearsky' or a CSV of measured irradiance (time, ghi_wm2 [, dni_wm2, dhi_wm2]).")
+              help="'clearsky' or a CSV of irradiance measured in the open, e.g. a rooftop station, not on the "
+                   "walker (time, ghi_wm2 [, dni_wm2, dhi_wm2]).")
 @click.option("--body-height", "z_m", type=float, default=1.1, show_default=True,
               help="Height of the point that must see sun and sky [m].")
 @click.option("--sectors", "n_sectors", type=int, default=36, show_default=True,

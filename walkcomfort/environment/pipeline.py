@@ -140,7 +140,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         Obstacles for shade and sky view; none means open ground.
     irradiance : "clearsky" or DataFrame
         ``"clearsky"``: Ineichen–Perez clear sky (pvlib) with the site's monthly Linke
-        turbidity. A DataFrame: measured or weather-file ``ghi_wm2`` (with ``dni_wm2`` and
+        turbidity. A DataFrame of irradiance *in the open* (a rooftop or station
+        pyranometer, a weather file — not a sensor carried into the shade): ``ghi_wm2`` (with ``dni_wm2`` and
         ``dhi_wm2`` if known, otherwise split by Erbs), either on the timeline's own index
         or on its own time index (interpolated linearly inside its span).
     use_globe : bool, default True
