@@ -180,11 +180,12 @@ def test_gps_csv(tmp_path):
     d = tmp_path / "s"
     shutil.copytree(SESSIONS / "broken" / "gpx10_ok", d)
     (d / "track.csv").write_text("time,lat,lon,elev\n2026-07-14T08:00:00Z,40.0,-3.0,650\n"
-                                 "2026-07-14T08:00:01Z,40.00001,-3.0,651\n2026-07-14T08:00:02Z,95.0,-3.0,651\n")
+                                 "2026-07-14T08:00:01Z,40.00001,-3.0,651\n2026-07-14T08:00:02Z,95.0,-3.0,651\n"
+                                 "2026-07-14T08:00:03Z,0,0,0\n")
     (d / "session.toml").write_text((d / "session.toml").read_text().replace('path = "track.gpx"',
                                                                               'path = "track.csv"'))
     df, meta = _gps(d)
-    assert len(df) == 2 and list(meta["quarantine"]["reason"]) == ["out_of_range:lat"]
+    assert len(df) == 2 and list(meta["quarantine"]["reason"]) == ["out_of_range:lat", "null_position"]
 
 
 # --- other readers ------------------------------------------------------------------------------

@@ -142,6 +142,7 @@ def summarize(qa: dict) -> dict:
                           "no_exif_time", "name_does_not_match"),
         "points_without_time": tot("no_time"),
         "gps_jumps": tot("gps_jump"),
+        "null_positions": tot("null_position"),
         "outside_walk_window_rows": tot("outside_walk_window"),
         "votes_outside_track": int(sum(_count(r, "outside_track_span") for n, r in rs.items()
                                        if src[n]["kind"] == "votes")),

@@ -260,7 +260,13 @@ def localize(loc: pd.DatetimeIndex, zone) -> tuple[pd.DatetimeIndex, np.ndarray]
 
 
 def range_reasons(values: dict[str, np.ndarray], reason: np.ndarray) -> None:
-    """Mark rows whose value lies outside :data:`PHYSICAL_RANGES` (``out_of_range:<column>``)."""
+    """Mark rows whose value lies outside :data:`PHYSICAL_RANGES` (``out_of_range:<column>``).
+
+    A position of exactly 0° N 0° E is what many GPS loggers write before a fix: ``null_position``.
+    """
+    if "lat" in values and "lon" in values:
+        null = (values["lat"] == 0.0) & (values["lon"] == 0.0) & (reason == "")
+        reason[null] = "null_position"
     for col, arr in values.items():
         if col not in PHYSICAL_RANGES:
             continue
