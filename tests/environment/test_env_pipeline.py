@@ -222,3 +222,14 @@ def test_points_inside_buildings_are_flagged_or_snapped():
     # at 10.5 m east of a 10 m wide half-block, 15 m tall: sky view well below 1 but not 0
     assert 0.4 < snapped[C.SVF].iloc[0] < 0.9
     assert snapped.attrs["environment"]["qa_counts"]["inside_building"] == 1
+
+
+def test_thermal_command_with_measured_irradiance(tmp_path, capsys):
+    walk = _write_ingested(tmp_path / "ing", _timeline())
+    irr = tmp_path / "roof.csv"
+    irr.write_text("time,ghi_wm2\n2026-07-14T13:55:00+02:00,850\n2026-07-14T14:10:00+02:00,870\n")
+    assert main(["thermal", str(walk), "--irradiance", str(irr), "-o", str(tmp_path / "out")]) == 0
+    env = json.loads((tmp_path / "out" / "w1" / "environment.json").read_text())
+    assert env["environment"]["irradiance"]["source"] == "table"
+    assert env["environment"]["irradiance"]["split"].startswith("Erbs")
+    assert env["provenance"]["inputs"]  # digests of the timeline and the irradiance file
