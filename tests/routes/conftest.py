@@ -8,7 +8,6 @@ from pathlib import Path
 
 import pytest
 
-PVLIB_DATA = None
 
 
 def pvlib_data() -> Path:

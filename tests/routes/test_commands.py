@@ -15,8 +15,6 @@ from .test_predict import LAT, LON, STREET_M, _street_lon, tree_row_scheme
 
 @pytest.fixture
 def files(tmp_path):
-    from walkcomfort.environment.scene import Scene  # noqa: F401  (the scene format is the environment's)
-
     route = tmp_path / "street.geojson"
     route.write_text(json.dumps({"type": "Feature", "properties": {"route_id": "street"},
                                  "geometry": {"type": "LineString",

@@ -13,9 +13,9 @@ from walkcomfort.errors import InputError
 from walkcomfort.routes.compare import compare_schemes, summarise
 from walkcomfort.routes.geometry import load_route
 from walkcomfort.routes.predict import PHYSICS_RULE, POINT_COLUMNS, Predictor, predict_route
-from walkcomfort.routes.schemes import Scheme, scheme_from_geojson
+from walkcomfort.routes.schemes import scheme_from_geojson
 from walkcomfort.routes.timing import parse_departures
-from walkcomfort.routes.weather import StatedConditions, WeatherFile
+from walkcomfort.routes.weather import StatedConditions
 
 LAT, LON = 40.40, -3.70          # an invented street in a warm mid-latitude town
 TZ = "Europe/Madrid"
