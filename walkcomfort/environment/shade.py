@@ -37,7 +37,6 @@ import shapely
 
 from walkcomfort.environment.scene import KIND_CODE, Obstacles, Scene
 
-_CHUNK_ROWS = 100_000   # rays per batch (bounds memory)
 _CHUNK_EDGES = 4_000_000
 
 
@@ -176,15 +175,6 @@ def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool =
             t_max[sl] = np.where(np.isfinite(tmax), tmax, np.nan)
         lo = hi
     return inside, n_cross, t_min, t_max
-
-
-def segment_polygon_hits(obs: Obstacles, ob, ax, ay, bx, by):
-    """Does segment A→B meet polygon obstacle ``ob`` (crossing an edge or starting inside)?
-
-    Exact for holes and concave outlines; one bool per pair.
-    """
-    inside, n_cross, _, _ = segment_polygon_crossings(obs, ob, ax, ay, bx, by, want_t=False)
-    return inside | (n_cross > 0)
 
 
 #: Width of the direction bins rows are grouped in for the candidate search [°]; the
