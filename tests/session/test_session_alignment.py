@@ -155,3 +155,22 @@ def test_distance_and_heading_against_the_wgs84_geodesic():
     h = np.radians(d[C.HEADING_DEG].iloc[350:550].dropna())
     mean_h = np.degrees(np.arctan2(np.sin(h).mean(), np.cos(h).mean()))
     assert abs((mean_h - fwd + 180) % 360 - 180) < 3.0
+
+
+def test_gps_jump_detection_cases():
+    from walkcomfort.session.qa import find_gps_jumps
+
+    t = pd.date_range("2026-07-14 08:00", periods=40, freq="1s", tz="UTC")
+    lat = 40.0 + np.arange(40) * 1.3 / 111_195.0      # walking north at 1.3 m/s
+    lon = np.full(40, -3.0)
+    assert not find_gps_jumps(t, lat, lon).any()
+    spike = lat.copy()
+    spike[[10, 11]] += 80 / 111_195.0                  # two fixes 80 m off
+    assert list(np.flatnonzero(find_gps_jumps(t, spike, lon))) == [10, 11]
+    first = lat.copy()
+    first[0] -= 200 / 111_195.0                        # a wrong first fix (cold start)
+    assert list(np.flatnonzero(find_gps_jumps(t, first, lon))) == [0]
+    moved = lat.copy()
+    moved[20:] += 500 / 111_195.0                      # a real relocation (e.g. a ride) is not a jump run
+    j = find_gps_jumps(t, moved, lon)
+    assert not j[20:].any()

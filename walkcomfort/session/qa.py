@@ -10,6 +10,8 @@ the keys are documented in ``field_protocol/manifest.md``.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pandas as pd
 
@@ -38,7 +40,8 @@ def find_gps_jumps(times: pd.DatetimeIndex, lat, lon, max_speed_ms: float = MAX_
     A fix is a jump when reaching it from the last good fix would need more than
     ``max_speed_ms``; it is then skipped and the next fix is compared with the same
     good fix. After ``max_run`` consecutive jumps the track is taken to have really
-    moved (e.g. a wrong first fix) and the run is accepted from its start.
+    moved and the run is accepted from its start; the fixes accepted before it are
+    then the outliers when there were fewer of them than ``max_run`` (a wrong first fix).
 
     Returns
     -------
@@ -58,26 +61,40 @@ def find_gps_jumps(times: pd.DatetimeIndex, lat, lon, max_speed_ms: float = MAX_
     if not np.any((dt > 0) & (v > max_speed_ms)):
         return jump
     good = 0
+    segment = [0]            # fixes accepted since the start or the last re-anchoring
     run: list[int] = []
     i = 1
     while i < n:
         dt = t[i] - t[good]
-        d = haversine_m(la[good], lo[good], la[i], lo[i])
+        d = _hav(la[good], lo[good], la[i], lo[i])
         if dt > 0 and d / dt > max_speed_ms:
             jump[i] = True
             run.append(i)
             if len(run) >= max_run:
+                # the track really is elsewhere: accept the run; if what came before it was
+                # shorter than the run (e.g. a wrong first fix) it was the outlier
                 for j in run:
                     jump[j] = False
+                if len(segment) < max_run:
+                    jump[segment] = True
                 good = run[0]
+                segment = [good]
                 i = run[0] + 1
                 run = []
                 continue
         else:
             good = i
+            segment.append(i)
             run = []
         i += 1
     return jump
+
+
+def _hav(lat1: float, lon1: float, lat2: float, lon2: float) -> float:
+    """Scalar great-circle distance [m] (math, for the sequential jump scan)."""
+    p1, p2 = math.radians(lat1), math.radians(lat2)
+    h = math.sin((p2 - p1) / 2) ** 2 + math.cos(p1) * math.cos(p2) * math.sin(math.radians(lon2 - lon1) / 2) ** 2
+    return 2 * _EARTH_R * math.asin(math.sqrt(min(1.0, max(0.0, h))))
 
 
 def gap_stats(times: pd.DatetimeIndex, max_gap_s: float, t0: pd.Timestamp, t1: pd.Timestamp) -> dict:
