@@ -67,12 +67,15 @@ def map_page(tmp_path):
 
 def test_layers_exist_toggle_and_legend_follows(browser, served, map_page, artifacts_dir):
     page = _open(browser, served, map_page)
-    assert sorted(browser.served_assets) == sorted(R._offline.cdn_url(n) for n in
-                                                   ("leaflet.css", "leaflet.js", "images/layers.png"))
+    served_assets = set(browser.served_assets)
+    assert {R._offline.cdn_url("leaflet.css"), R._offline.cdn_url("leaflet.js")} <= served_assets
+    assert served_assets <= {R._offline.cdn_url(n) for n in ("leaflet.css", "leaflet.js", "images/layers.png",
+                                                             "images/layers-2x.png")}
     _expand_layers(page)
     labels = page.locator(".leaflet-control-layers-overlays label").all_inner_texts()
     labels = [t.strip() for t in labels]
-    assert len(labels) == 16  # 2 schemes x 2 departures x 3 colourings + 2 scenes + votes + errors
+    # 2 schemes x 2 departures + 2 colouring switches + 2 scenes + votes + errors
+    assert len(labels) == 10, labels
     assert "baseline · departing 09:00" in labels
     assert "Model errors (50 m cells)" in labels
     # the first scheme x departure is drawn, coloured by comfort class
@@ -83,20 +86,37 @@ def test_layers_exist_toggle_and_legend_follows(browser, served, map_page, artif
     assert page.locator(".wc-legend").is_visible()
     assert page.locator('.wc-sec[data-kind="comfort"]').is_visible()
     assert not page.locator('.wc-sec[data-kind="utci"]').is_visible()
-    # toggle the UTCI-band colouring on: its segments and its legend appear
-    _toggle(page, "UTCI band · baseline · departing 09:00")
+    # switch the UTCI-band colouring on: the shown route is recoloured and the legend follows
+    _toggle(page, R.MODE_LABELS["utci"])
     _wait_drawn(page, "path.wc-seg-utci")
-    assert page.locator("path.wc-seg-utci").count() >= 2
+    n_utci = page.locator("path.wc-seg-utci").count()
+    assert n_utci >= 2
     assert page.locator('.wc-sec[data-kind="utci"]').is_visible()
+    assert not page.locator('.wc-sec[data-kind="comfort"]').is_visible()
     # the legend lists only the UTCI bands that occur on the map
     n_bands = S.predictions()["utci_band"].nunique()
     assert page.locator('.wc-sec[data-kind="utci"] .wc-key').count() == n_bands
+    # a second scheme x departure switched on while the colouring is on is recoloured too
+    _toggle(page, "More street trees · departing 12:00")
+    page.wait_for_function(f"() => document.querySelectorAll('path.wc-seg-utci').length > {n_utci}")
+    # ... and drawn on top of it: what a person sees at a segment's middle is the UTCI colouring
+    on_top = page.locator("path.wc-seg-utci").evaluate_all("""els => els.map(p => {
+        const pt = p.getPointAtLength(p.getTotalLength() / 2), m = p.getScreenCTM();
+        const hit = document.elementFromPoint(pt.x * m.a + pt.y * m.c + m.e, pt.x * m.b + pt.y * m.d + m.f);
+        return hit && hit.classList.contains('wc-seg-utci'); })""")
+    assert sum(on_top) >= 0.8 * len(on_top), on_top
     _expand_layers(page)
     page.screenshot(path=str(artifacts_dir / "routemap_utci_on.png"))
+    _toggle(page, "More street trees · departing 12:00")
     # ... and off again
-    _toggle(page, "UTCI band · baseline · departing 09:00")
+    _toggle(page, R.MODE_LABELS["utci"])
     page.wait_for_function("() => document.querySelectorAll('path.wc-seg-utci').length === 0")
     assert not page.locator('.wc-sec[data-kind="utci"]').is_visible()
+    assert page.locator('.wc-sec[data-kind="comfort"]').is_visible()
+    _toggle(page, R.MODE_LABELS["shade"])
+    _wait_drawn(page, "path.wc-seg-shade")
+    assert page.locator('.wc-sec[data-kind="shade"]').is_visible()
+    _toggle(page, R.MODE_LABELS["shade"])
     # switching the comfort layer off removes its segments
     _toggle(page, "baseline · departing 09:00")
     page.wait_for_function("() => document.querySelectorAll('path.wc-seg-comfort').length === 0")
@@ -105,7 +125,7 @@ def test_layers_exist_toggle_and_legend_follows(browser, served, map_page, artif
     _toggle(page, "Model errors (50 m cells)")
     _wait_drawn(page, "path.wc-error-cell")
     assert page.locator('.wc-sec[data-kind="errors"]').is_visible()
-    page.mouse.move(5, 500)
+    page.mouse.move(640, 840)
     page.screenshot(path=str(artifacts_dir / "routemap_scheme_errors.png"))
     _clean(browser)
 

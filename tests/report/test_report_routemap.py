@@ -49,16 +49,19 @@ def _tags(page: str):
 def test_one_layer_per_scheme_departure_and_kind(full_map):
     names = [html.unescape(lay.layer_name) for lay in _layers(full_map)]
     kinds = [lay.kind for lay in _layers(full_map)]
-    # 2 schemes x 2 departures x (comfort, utci, shade) + 2 scene layers + votes + errors
-    assert kinds.count("comfort") == 4 and kinds.count("utci") == 4 and kinds.count("shade") == 4
+    # 2 schemes x 2 departures, one switch per other colouring, 2 scene layers, votes, errors
+    assert kinds.count("comfort") == 4 and kinds.count("utci-mode") == 1 and kinds.count("shade-mode") == 1
     assert kinds.count("scene") == 2 and kinds.count("votes") == 1 and kinds.count("errors") == 1
     # departures are shown in the requested zone: 07:00Z is 09:00 in Madrid in July (CEST, UTC+2)
     assert "baseline · departing 09:00" in names
     assert "More street trees · departing 12:00" in names  # scheme label from the scheme file
-    assert "UTCI band · baseline · departing 09:00" in names
+    assert R.MODE_LABELS["utci"] in names and R.MODE_LABELS["shade"] in names
     assert len(set(names)) == len(names)
     shown = [lay for lay in _layers(full_map) if lay.show]
     assert [lay.kind for lay in shown] == ["comfort", "scene", "votes"]
+    # no colouring switch without route layers
+    walk_only = R.route_map(walks=[S.timeline()])
+    assert {lay.kind for lay in _layers(walk_only)} == {"votes", "errors"}
 
 
 def test_payload_keeps_colour_boundaries_and_simplifies_straight_runs():

@@ -5,7 +5,9 @@
 
 - one layer per scheme × departure, the route drawn as segments coloured by the
   predicted comfort class (palette in :mod:`walkcomfort.report.palette`),
-- optional layers colouring the same segments by UTCI band and by shade,
+- optional overlays "Colour routes by UTCI band" and "... by shade": one switch each that
+  recolours whichever scheme × departure layers are shown (so the layer list stays short
+  with many departures),
 - optional scene layers (buildings, trees, canopies as drawn in each scheme; added,
   changed and removed features have their own outlines),
 - for recorded walks: the track, the votes as markers and a layer of grid cells showing
@@ -32,7 +34,7 @@ Size
 Coordinates are rounded (``decimals=5``, about 1 m) and each run of points is simplified
 (Ramer–Douglas–Peucker in the local metric frame, ``simplify_m``) while every point where
 a colour changes is kept; the three colourings of a scheme × departure share one copy of
-the data. :func:`write_map` warns with :class:`MapSizeWarning` above a size budget.
+the data (the UTCI and shade colourings are drawn in the browser only when switched on). :func:`write_map` warns with :class:`MapSizeWarning` above a size budget.
 """
 
 from __future__ import annotations
@@ -69,6 +71,8 @@ REASONS = "reasons"
 PROBA = tuple(f"p_{c}" for c in C.COMFORT_CLASSES)
 
 LAYER_KINDS = ("comfort", "utci", "shade", "scene", "votes", "errors")
+# overlays that recolour the shown route layers (one switch each, not one layer per walk)
+MODE_LABELS = {"utci": "Colour routes by UTCI band", "shade": "Colour routes by shade"}
 DEFAULT_LAYERS = ("comfort", "utci", "shade", "scene", "votes", "errors")
 DEFAULT_SIZE_BUDGET_BYTES = 5_000_000
 SHADE_BINS = 5
@@ -779,8 +783,8 @@ class _Elements:
         class DataLayer(Layer):
             _template = Template("""
                 {% macro script(this, kwargs) %}
-                var {{ this.get_name() }} = WC.layer({{ this.kind_json }}, {{ this.payload.get_name() }},
-                    {{ this.label_json }});
+                var {{ this.get_name() }} = WC.layer({{ this.kind_json }},
+                    {{ this.payload.get_name() if this.payload is not none else "null" }}, {{ this.label_json }});
                 {% endmacro %}
             """)
 
@@ -948,6 +952,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
 
     summary_of = _summary_lookup(summaries)
     first = True
+    n_route_layers = 0
     shown_schemes: list[str] = []
     if predictions is not None:
         df = _check_predictions(predictions)
@@ -973,11 +978,14 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
                 lon_all += [v for v in data["lon"] if v is not None]
                 payload = E["Payload"](data)
                 fmap.add_child(payload)
-                for kind, prefix in (("comfort", ""), ("utci", "UTCI band · "), ("shade", "Shade · ")):
-                    if kind in layers:
-                        lab = _unique(prefix + label, seen)
-                        fmap.add_child(E["DataLayer"](kind, payload, lab, show=first and kind == "comfort"))
+                if "comfort" in layers:
+                    fmap.add_child(E["DataLayer"]("comfort", payload, _unique(label, seen), show=first))
+                    n_route_layers += 1
                 first = False
+        # the other colourings are one switch each: they recolour whichever route layers are shown
+        for kind, lab in (("utci", MODE_LABELS["utci"]), ("shade", MODE_LABELS["shade"])):
+            if kind in layers and n_route_layers:
+                fmap.add_child(E["DataLayer"](f"{kind}-mode", None, _unique(lab, seen), show=False))
 
     if scene_doc is not None and "scene" in layers:
         targets = shown_schemes or [None]
@@ -1186,7 +1194,7 @@ _RUNTIME_CSS = """
 _RUNTIME_JS = r"""
 var WC = (function () {
   "use strict";
-  var api = {cfg: null, map: null, registry: [], legend: null};
+  var api = {cfg: null, map: null, registry: [], legend: null, modes: [], twins: [], syncing: false};
 
   function el(tag, cls, text) {
     var e = document.createElement(tag);
@@ -1280,7 +1288,7 @@ var WC = (function () {
   function haloWeight(w) { return w >= 4 ? w + 3 : w + 1.5; }
   function restyleLines() {
     var w = lineWeight();
-    api.registry.forEach(function (r) {
+    api.registry.concat(api.twins).forEach(function (r) {
       if (!r.layer.wcLines) { return; }
       r.layer.wcLines.forEach(function (l) { l.setStyle({weight: w}); });
       r.layer.wcHalos.forEach(function (l) { l.setStyle({weight: haloWeight(w)}); });
@@ -1344,7 +1352,7 @@ var WC = (function () {
     d.features.forEach(function (f) {
       var edit = api.cfg.edits[f.e] || api.cfg.edits.existing, colour = api.cfg.scene[f.k] || api.cfg.missing;
       var style = {color: edit.outline, weight: edit.weight, dashArray: edit.dashArray, fillColor: colour,
-                   fillOpacity: edit.fillOpacity, opacity: f.e === "remove" ? 0.7 : 1,
+                   fillOpacity: edit.fillOpacity, opacity: f.e === "remove" ? 0.7 : 1, pane: "wcScene",
                    className: "wc-scene wc-scene-" + f.e};
       var shape = f.g === "c" ? L.circle(f.c, Object.assign({radius: f.rad}, style)) : L.polygon(f.c, style);
       shape.bindPopup(scenePopup(f));
@@ -1382,7 +1390,8 @@ var WC = (function () {
   function votesLayer(d) {
     var group = L.featureGroup(), v = d.votes, i;
     if (d.track.length > 1) {
-      L.polyline(d.track, {color: "#555555", weight: 3, opacity: 0.8, dashArray: "4 4", className: "wc-track"})
+      L.polyline(d.track, {color: "#555555", weight: 3, opacity: 0.8, dashArray: "4 4", className: "wc-track",
+                           pane: "wcVotes"})
         .bindTooltip(el("span", null, "Track \u00b7 " + d.walk), {sticky: true}).addTo(group);
     }
     for (i = 0; i < v.lat.length; i++) {
@@ -1390,7 +1399,7 @@ var WC = (function () {
         var fill = v.vote[i] >= 0 ? api.cfg.comfort[v.vote[i]].colour : api.cfg.missing;
         var ring = v.pred[i] >= 0 ? api.cfg.comfort[v.pred[i]].colour : api.cfg.halo;
         var m = L.circleMarker([v.lat[i], v.lon[i]], {radius: 7, color: ring, weight: 3, fillColor: fill,
-                                                      fillOpacity: 1, className: "wc-vote"});
+                                                      fillOpacity: 1, className: "wc-vote", pane: "wcVotes"});
         var tip = el("span", null, "Vote: " + (v.vote[i] >= 0 ? api.cfg.comfort[v.vote[i]].label : "TSV only") +
                      (v.pred[i] >= 0 ? " \u00b7 model: " + className(v.pred[i]) : ""));
         m.bindTooltip(tip);
@@ -1416,7 +1425,7 @@ var WC = (function () {
       if (c.top) { row(t, "Most common", c.top); }
       box.appendChild(t);
       L.polygon(c.c, {color: "#2b1846", weight: 1, fillColor: errorColour(c.rate),
-                       fillOpacity: Math.min(0.85, 0.3 + 0.1 * c.n), className: "wc-error-cell"})
+                       fillOpacity: Math.min(0.85, 0.3 + 0.1 * c.n), className: "wc-error-cell", pane: "wcErrors"})
         .bindPopup(box).addTo(group);
     });
     return group;
@@ -1455,10 +1464,31 @@ var WC = (function () {
     return box;
   }
 
+  // a colouring switch that is on shows a recoloured twin of every route layer that is on
+  function syncModes() {
+    if (api.syncing) { return; }
+    api.syncing = true;
+    api.registry.forEach(function (r) {
+      if (r.kind !== "comfort") { return; }
+      api.modes.forEach(function (m) {
+        var want = api.map.hasLayer(r.layer) && api.map.hasLayer(m), twin = r.layer.wcTwins[m.wcMode];
+        if (want && !twin) {
+          twin = r.layer.wcTwins[m.wcMode] = routeLayer(r.layer.wcData, m.wcMode, r.layer.wcData.label);
+          twin.wcTop = true;
+          api.twins.push({kind: m.wcMode, label: r.label, layer: twin});
+        }
+        if (want && !api.map.hasLayer(twin)) { twin.addTo(api.map); restyleLines(); }
+        if (!want && twin && api.map.hasLayer(twin)) { api.map.removeLayer(twin); }
+      });
+    });
+    api.syncing = false;
+  }
+
   function refreshLegend() {
     if (!api.legend) { return; }
     var on = {}, secs, i;
-    api.registry.forEach(function (r) { if (api.map.hasLayer(r.layer)) { on[r.kind] = true; } });
+    api.registry.concat(api.twins).forEach(function (r) { if (api.map.hasLayer(r.layer)) { on[r.kind] = true; } });
+    if (on.utci || on.shade) { on.comfort = false; }  // the routes show the other colouring now
     secs = api.legend.querySelectorAll(".wc-sec");
     for (i = 0; i < secs.length; i++) {
       secs[i].style.display = on[secs[i].getAttribute("data-kind")] ? "" : "none";
@@ -1468,16 +1498,30 @@ var WC = (function () {
   api.init = function (map, cfg) {
     api.map = map;
     api.cfg = cfg;
+    // fixed drawing order whatever is switched on when: scene < error cells < routes < votes
+    map.createPane("wcScene").style.zIndex = 350;
+    map.createPane("wcErrors").style.zIndex = 380;
+    map.createPane("wcVotes").style.zIndex = 450;
     window.walkcomfortMap = map;
     window.walkcomfortRegistry = api.registry;
   };
 
   api.layer = function (kind, data, label) {
     var layer;
-    if (kind === "comfort" || kind === "utci" || kind === "shade") { layer = routeLayer(data, kind, data.label); }
+    if (kind === "utci-mode" || kind === "shade-mode") {
+      layer = L.layerGroup();
+      layer.wcMode = kind.split("-")[0];
+      api.modes.push(layer);
+    }
+    else if (kind === "comfort") {
+      layer = routeLayer(data, kind, data.label);
+      layer.wcData = data;
+      layer.wcTwins = {};
+    }
     else if (kind === "scene") { layer = sceneLayer(data); }
     else if (kind === "votes") { layer = votesLayer(data); }
     else { layer = errorsLayer(data); }
+    layer.wcTop = true;
     api.registry.push({kind: kind, label: label, layer: layer});
     return layer;
   };
@@ -1501,7 +1545,8 @@ var WC = (function () {
     }});
     new Title().addTo(map);
     new Legend().addTo(map);
-    map.on("layeradd layerremove", refreshLegend);
+    // react once per whole layer (its parts fire layeradd first, while it is still being drawn)
+    map.on("layeradd layerremove", function (e) { if (e.layer.wcTop) { syncModes(); refreshLegend(); } });
     map.on("zoomend", restyleLines);
     refreshLegend();
     if (bounds) {
