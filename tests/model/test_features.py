@@ -24,7 +24,7 @@ def test_declared_features_are_the_columns_and_are_described():
     X = build_features(tl)
     assert list(X.columns) == list(FEATURES)
     assert set(FEATURE_INFO) == set(FEATURES)
-    assert 55 <= len(FEATURES) <= 70
+    assert len(FEATURES) == len(set(FEATURES)) and 55 <= len(FEATURES) <= 70
     assert X.index.equals(tl.index)
 
 
