@@ -164,3 +164,25 @@ def test_shade_after_sun_feels_better_than_shade_all_along():
     # while in the sun, a long stretch adds discomfort at the same UTCI
     assert a["d"][599] > latent.discomfort(w, np.full(60, 38.0), np.ones(60), zeros[:60], zeros[:60] + 50,
                                            zeros[:60])["d"][59]
+
+
+@pytest.mark.parametrize("sid", ["sv-p04-2"])
+def test_recorded_walk_through_ingest_and_thermal_recovers_the_truth(sid):
+    """End to end: device files -> ingest (lag-corrected) -> thermal (Tmrt from the globe) ≈ the truth."""
+    timeline = pytest.importorskip("walkcomfort.session.timeline")
+    env = pytest.importorskip("walkcomfort.environment.pipeline")
+    from walkcomfort.environment.scene import load_scene
+
+    tl = timeline.build_timeline(DEMO / "sessions" / sid, lag_correction=True)
+    out = env.add_environment(tl.data, scene=load_scene(DEMO / "scene.geojson"), warn=False)
+    truth = pd.read_csv(DEMO / "truth" / f"{sid}.csv")
+    truth.index = pd.DatetimeIndex(pd.to_datetime(truth["time"]), name="time")
+    j = out[["utci_c", "shade_frac"]].join(truth[["utci_c"]].rename(columns={"utci_c": "utci_true_c"}),
+                                           how="inner").dropna()
+    assert len(j) > 100
+    # the globe was simulated from the true Tmrt (ISO 7726 inverted) and lags with tau_globe;
+    # after the lag correction the recovered UTCI sits on the truth within about a kelvin
+    assert abs((j["utci_c"] - j["utci_true_c"]).median()) < 1.0
+    assert (j["utci_c"] - j["utci_true_c"]).abs().median() < 1.5
+    shade = j["shade_frac"] > 0.5
+    assert j.loc[shade, "utci_c"].mean() < j.loc[~shade, "utci_c"].mean()

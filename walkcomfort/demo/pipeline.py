@@ -175,9 +175,10 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
         run.stages.append(StageResult(name, "ran", "", outputs()))
         echo(f"[{name}] done -> {', '.join(str(p) for p in outputs())}")
 
-    # 1. ingest every session (QA and quarantine per walk, a campaign table)
+    # 1. ingest every session (QA and quarantine per walk, a campaign table); the manifests state
+    #    the air and globe time constants, so the lag of those sensors is corrected
     attempt("ingest", "ingest", lambda: "",
-            lambda: [[str(sessions), "-o", str(paths["timelines"]), "--campaign"]],
+            lambda: [[str(sessions), "-o", str(paths["timelines"]), "--campaign", "--lag-correction"]],
             lambda: [paths["timelines"]])
     have_tl = lambda: "" if _timelines_in(paths["timelines"]) else "no ingested timelines (ingest did not run)"  # noqa: E731
 

@@ -341,9 +341,9 @@ def _routes():
               nodes=((-240.0, RONDA_Y + 14.0), (-240.0, -60.0), (80.0, -60.0), (80.0, 180.0), (240.0, 180.0),
                      (240.0, 190.0)),
               offsets=(-WALK_OFFSET_M, WALK_OFFSET_M, WALK_OFFSET_M, -WALK_OFFSET_M, -WALK_OFFSET_M))
-    r2 = Walk("mercat-parc", "From the market square up to the park on Carrer Alt",
-              nodes=((0.0, -50.0), (0.0, 60.0), (80.0, 60.0), (80.0, 180.0), (-200.0, 180.0)),
-              offsets=(2.0, -WALK_OFFSET_M, WALK_OFFSET_M, -WALK_OFFSET_M))
+    r2 = Walk("mercat-parc", "From the market square along Passeig Nou up to the park on Carrer Alt",
+              nodes=((0.0, -50.0), (0.0, 60.0), (-80.0, 60.0), (-80.0, 180.0), (-200.0, 180.0)),
+              offsets=(2.0, -WALK_OFFSET_M, -WALK_OFFSET_M, -WALK_OFFSET_M))
     r3 = Walk("ronda-sud", "Along the ring road's north sidewalk",
               nodes=((-290.0, RONDA_Y), (290.0, RONDA_Y)), offsets=(RONDA_WALK_OFFSET_M,))
     return {r.id: r for r in (r1, r2, r3)}
