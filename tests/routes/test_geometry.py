@@ -120,12 +120,30 @@ def test_two_lines_are_ambiguous_unless_named(tmp_path, line_factory):
     assert load_route(p, route_id="b").route_id == "b"
 
 
-def test_dem_needs_rasterio_or_is_used(line_factory, tmp_path):
-    p = line_factory([[-3.70, 40.40], [-3.699, 40.40]])
-    try:
-        import rasterio  # noqa: F401
-    except ImportError:
-        with pytest.raises(InputError, match="pip install rasterio"):
-            load_route(p, dem=tmp_path / "dem.tif")
-        return
-    pytest.skip("rasterio installed: DEM sampling is exercised by the demo")
+def test_dem_gives_elevation_and_slope(line_factory, tmp_path):
+    # a DEM in the route's UTM zone rising 10 m per 100 m northwards (a 10 % grade); rasterio is
+    # the optional DEM reader (test extra)
+    rasterio = pytest.importorskip("rasterio", reason="pip install rasterio (the optional DEM reader)")
+    from pyproj import Transformer
+    from rasterio.transform import from_origin
+
+    x0, y0 = Transformer.from_crs("EPSG:4326", "EPSG:32630", always_xy=True).transform(-3.70, 40.40)
+    cell = 1.0
+    ny, nx = 400, 100
+    north = y0 + 300.0
+    rows = np.arange(ny)
+    z = 600.0 + 0.10 * ((north - (rows + 0.5) * cell) - y0)  # by northing of each cell centre
+    grid = np.repeat(z[:, None], nx, axis=1).astype("float32")
+    dem = tmp_path / "dem.tif"
+    with rasterio.open(dem, "w", driver="GTiff", height=ny, width=nx, count=1, dtype="float32", crs="EPSG:32630",
+                       transform=from_origin(x0 - 50.0, north, cell, cell), nodata=-9999.0) as ds:
+        ds.write(grid, 1)
+    lat1 = Transformer.from_crs("EPSG:32630", "EPSG:4326", always_xy=True).transform(x0, y0 + 200.0)[1]
+    r = load_route(line_factory([[-3.70, 40.40], [-3.70, lat1]]), dem=dem)
+    assert r.elevation_source == "dem"
+    assert r.points["elev_m"].iloc[0] == pytest.approx(600.0, abs=0.1)
+    assert r.points["elev_m"].iloc[-1] == pytest.approx(620.0, abs=0.2)
+    assert np.median(r.points["slope_pct"]) == pytest.approx(10.0, abs=0.3)
+    far = line_factory([[3.0, 40.40], [3.001, 40.40]], name="far.geojson")
+    with pytest.raises(InputError, match="outside the DEM"):
+        load_route(far, dem=dem)

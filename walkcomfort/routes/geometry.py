@@ -227,7 +227,7 @@ def _read_gpx(path: Path, route_id: str | None):
 
 # --------------------------------------------------------------------------- DEM
 def sample_dem(dem_path: str | os.PathLike, lon: np.ndarray, lat: np.ndarray) -> np.ndarray:
-    """Elevation from a DEM raster at (lon, lat) points, bilinear-free nearest cell.
+    """Elevation from a DEM raster at (lon, lat) points: the value of the cell under each point.
 
     Needs the optional ``rasterio`` package (``pip install rasterio``).
 
