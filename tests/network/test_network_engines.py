@@ -55,6 +55,20 @@ def one_row_short(part):
 
 
 @pytest.fixture(scope="module")
+def cluster():
+    """One small in-process cluster (threads, loopback only) shared by the Dask tests of this module."""
+    from distributed import LocalCluster
+
+    with LocalCluster(n_workers=1, threads_per_worker=2, processes=False, protocol="tcp", host="127.0.0.1",
+                      dashboard_address="127.0.0.1:0") as c:
+        yield c
+
+
+def _dask(engine, cluster):
+    return {"scheduler": cluster.scheduler_address, "timeout_s": 20} if engine == "dask" else {}
+
+
+@pytest.fixture(scope="module")
 def small_net():
     return network_from_geojson(grid_network(4, 4, block_m=100.0), segment_length_m=50.0, spacing_m=10.0)
 
@@ -63,7 +77,7 @@ def _job(net, fn=standin, **kw):
     times = daytime_times("2026-07-14T08:00", "2026-07-14T17:00", "1h", "Europe/Madrid")
     scene = grid_scene(4, 4)
     trees = {"type": "FeatureCollection", "features": scene["features"][:5]}
-    return plan_job(net, times, {"base": scene, "fewer": trees}, tile_size_m=150.0, time_chunk=4,
+    return plan_job(net, times, {"base": scene, "fewer": trees}, tile_size_m=200.0, time_chunk=5,
                     partition_fn=fn, **kw)
 
 
@@ -71,8 +85,8 @@ def test_plan_counts_partitions_and_rows(small_net):
     job = _job(small_net)
     n_tiles = len({p.tile_id for p in job.partitions if p.scheme == "base"})
     assert n_tiles > 1
-    # 10 hours in chunks of 4 -> 3 chunks; 2 schemes
-    assert len(job.partitions) == n_tiles * 3 * 2
+    # 10 hours in chunks of 5 -> 2 chunks; 2 schemes
+    assert len(job.partitions) == n_tiles * 2 * 2
     assert job.expected_rows == small_net.n_segments * 10 * 2
     # every segment is in exactly one tile per scheme
     segs = [s for p in job.partitions if p.scheme == "base" and p.chunk == 0 for s in p.segment_ids]
@@ -117,11 +131,10 @@ def test_dask_local_cluster_gives_identical_files(small_net, tmp_path):
 
 
 @pytest.mark.parametrize("engine", ["in-process", "dask"])
-def test_partition_that_raises_once_is_retried(small_net, tmp_path, engine):
+def test_partition_that_raises_once_is_retried(small_net, tmp_path, engine, cluster):
     _calls.clear()
     job = _job(small_net, fn=flaky_once)
-    kw = {"workers": 1, "processes": False, "timeout_s": 20} if engine == "dask" else {}
-    report = engines.run_job(job, tmp_path, engine, retries=1, **kw)
+    report = engines.run_job(job, tmp_path, engine, retries=1, **_dask(engine, cluster))
     assert report.ok and report.written_rows == job.expected_rows
     assert max(_calls.values()) == 2  # each chunk-0 partition ran twice
     if engine == "in-process":
@@ -129,10 +142,9 @@ def test_partition_that_raises_once_is_retried(small_net, tmp_path, engine):
 
 
 @pytest.mark.parametrize("engine", ["in-process", "dask"])
-def test_partition_that_keeps_failing_is_reported_by_id(small_net, tmp_path, engine):
+def test_partition_that_keeps_failing_is_reported_by_id(small_net, tmp_path, engine, cluster):
     job = _job(small_net, fn=broken_tile)
-    kw = {"workers": 1, "processes": False, "timeout_s": 20} if engine == "dask" else {}
-    report = engines.run_job(job, tmp_path, engine, retries=1, **kw)
+    report = engines.run_job(job, tmp_path, engine, retries=1, **_dask(engine, cluster))
     assert not report.ok
     assert [o.partition_id for o in report.failed] == ["base/t000_000/c0001"]
     assert "ValueError: no weather for this tile" in report.failed[0].error
@@ -178,17 +190,16 @@ def test_bad_job_inputs_are_one_line_errors(small_net):
         daytime_times("2026-07-14T10:00", "2026-07-14T08:00")
 
 
-def test_dask_engine_uses_an_existing_scheduler_by_address(small_net, tmp_path):
-    from distributed import LocalCluster
-
+def test_dask_engine_uses_an_existing_scheduler_by_address(small_net, tmp_path, cluster):
     job = _job(small_net)
     engines.run_job(job, tmp_path / "a", "in-process")
-    with LocalCluster(n_workers=1, threads_per_worker=1, processes=False, protocol="tcp", host="127.0.0.1",
-                      dashboard_address="127.0.0.1:0") as cluster:
-        report = engines.run_job(job, tmp_path / "b", "dask", scheduler=cluster.scheduler_address, timeout_s=20)
+    for write_on in ("client", "workers"):
+        report = engines.run_job(job, tmp_path / write_on, "dask", scheduler=cluster.scheduler_address,
+                                 timeout_s=20, write_on=write_on)
         assert report.ok and report.parameters["scheduler"] == cluster.scheduler_address
-        assert len(cluster.scheduler.workers) == 1  # the engine closed its client, not the cluster
-    assert _digests(tmp_path / "a") == _digests(tmp_path / "b")
+        assert report.parameters["write_on"] == write_on
+        assert _digests(tmp_path / "a") == _digests(tmp_path / write_on)
+    assert len(cluster.scheduler.workers) == 1  # the engine closed its client, not the cluster
 
 
 def test_unreachable_scheduler_is_a_one_line_error(small_net, tmp_path):
