@@ -147,3 +147,11 @@ def test_dem_gives_elevation_and_slope(line_factory, tmp_path):
     far = line_factory([[3.0, 40.40], [3.001, 40.40]], name="far.geojson")
     with pytest.raises(InputError, match="outside the DEM"):
         load_route(far, dem=dem)
+
+
+def test_dem_without_rasterio_names_the_install(line_factory, tmp_path, monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "rasterio", None)  # as if the optional package were not installed
+    with pytest.raises(InputError, match="pip install rasterio"):
+        load_route(line_factory([[-3.70, 40.40], [-3.699, 40.40]]), dem=tmp_path / "dem.tif")
