@@ -173,18 +173,18 @@ def main(argv=None) -> None:
         one, two = results[1], results[2]
         print(f"2 workers vs 1 worker: x{one[1] / two[1]:.2f} measured on {os.cpu_count()} cores shared at load "
               f"{os.getloadavg()[0]:.1f} (contention, not the engine, sets this number here)")
-        # projection: plan, cluster start and the Parquet writes in this process are serial; the
-        # partition work (in-process compute time, times the per-partition overhead Dask adds as
-        # measured with 1 worker) divides over N workers, one core each
-        compute = results[0][3]["compute"]
-        overhead = max(1.0, (one[1] - one[3]["start"] - one[3]["write"]) / compute)
-        serial = plan_s + one[3]["start"] + one[3]["write"]
-        print(f"  model: T(N) = serial {serial:.1f} s (plan {plan_s:.1f} + start {one[3]['start']:.1f} + writes "
-              f"{one[3]['write']:.1f}) + {compute:.1f} s x {overhead:.2f} (Dask overhead) / N")
+        # projection: planning and the cluster start are serial; each partition's work (compute and
+        # its Parquet write, both done by the worker on a LocalCluster) divides over N workers, one
+        # core each, at the per-partition cost measured with 1 worker
+        work_1 = one[1] - one[3]["start"]
+        inproc = results[0][3]["compute"] + results[0][3]["write"]
+        serial = plan_s + one[3]["start"]
+        print(f"  model: T(N) = serial {serial:.1f} s (plan {plan_s:.1f} + cluster start {one[3]['start']:.1f}) "
+              f"+ {work_1:.1f} s of partition work / N (in-process the same work took {inproc:.1f} s: "
+              f"Dask adds x{work_1 / inproc:.2f})")
         for n in (1, 2, 4, 8, 16, 32):
-            proj = serial + compute * overhead / n
+            proj = serial + work_1 / n
             print(f"  projected {n:2d} workers: {proj:7.1f} s ({job.expected_rows / proj:8.0f} rows/s)")
-
 
 if __name__ == "__main__":
     main()

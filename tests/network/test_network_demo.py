@@ -45,7 +45,7 @@ def test_tiles_give_the_same_rows_as_the_whole_scene(demo_dir, tmp_path):
 
 @pytest.mark.slow
 def test_in_process_and_local_cluster_write_identical_files(demo_dir, tmp_path):
-    _, job = _plan(demo_dir, 200.0, schemes=("trees-costa", "canopy-placa"), end="2026-07-15T17:00")
+    _, job = _plan(demo_dir, 300.0, schemes=("canopy-placa",), end="2026-07-15T17:00")
     a = run_job(job, tmp_path / "a", "in-process")
     # real worker processes (the default of the engine), two of them, on loopback
     b = run_job(job, tmp_path / "b", "dask", workers=2, processes=True, timeout_s=60)
