@@ -174,3 +174,21 @@ def test_gps_jump_detection_cases():
     moved[20:] += 500 / 111_195.0                      # a real relocation (e.g. a ride) is not a jump run
     j = find_gps_jumps(t, moved, lon)
     assert not j[20:].any()
+
+
+def test_frames_outside_the_track_are_quarantined(tmp_path):
+    from PIL import Image
+
+    d = tmp_path / "w"
+    shutil.copytree(WALK_OK, d)
+    im = Image.new("RGB", (8, 8))
+    ex = Image.Exif()
+    ex.get_ifd(0x8769)[0x9003] = "2026:07:14 12:00:00"    # two hours after the walk
+    im.save(d / "camera" / "IMG_0099.jpg", exif=ex)
+    Image.new("RGB", (8, 8)).save(d / "camera" / "IMG_0100.jpg")   # no EXIF at all
+    tl = build_timeline(d)
+    assert tl.qa["summary"]["frames_outside_track"] == 1
+    assert tl.qa["sources"]["frames"]["quarantine_reasons"] == {"no_exif_time": 1, "outside_track_span": 1}
+    assert tl.qa["sources"]["frames"]["rows_read"] == 12 and tl.qa["sources"]["frames"]["attached"] == 10
+    q = tl.quarantine[tl.quarantine["source"] == "frames"]
+    assert set(q["raw"]) == {"camera/IMG_0099.jpg", "camera/IMG_0100.jpg"}
