@@ -98,7 +98,8 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         else:
             chosen = pick_day(weather, "date", date=design_day, months=season)
         day = chosen.date
-        echo(f"design day {chosen.date} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
+        typical = " of the file's typical year (the year stands for any year)" if weather.typical else ""
+        echo(f"design day {chosen.date}{typical} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
     deps = parse_departures(list(departures), timezone=timezone, day=day)
     predictor = Predictor.from_bundle(model_path)
     for n in route.notices:
@@ -115,7 +116,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         if n.startswith("the model uses"):
             echo(f"note: {n}")
     if chosen is not None:
-        result.notices.append(f"design day {chosen.date} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
+        result.notices.append(f"design day {chosen.date}{typical} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
     written = {}
     if out_dir is not None:
         inputs = [p for p in [route_path, scene_path, weather_path, *scheme_paths] if p is not None]
