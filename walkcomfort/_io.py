@@ -30,6 +30,10 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
+        # mkstemp creates 0600; outputs are for sharing, so use the usual umask-based mode
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, path)
     except BaseException:
         try:
