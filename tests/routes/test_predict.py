@@ -179,3 +179,16 @@ def test_departures_sharing_instants_stay_apart(tmp_path, scene):
     assert len(s) == 2 and np.allclose(s["walk_min"], (r.length_m / 1.3 + 60) / 60)
     with pytest.raises(InputError, match="given twice"):
         predict_route(r, pd.DatetimeIndex([d0, d0]), HOT, scene=scene)
+
+
+def test_route_outside_the_scene_says_so(tmp_path, scene):
+    # 2 km east of the scene's only building: nothing is known there
+    p = tmp_path / "far.geojson"
+    p.write_text(json.dumps({"type": "Feature", "properties": {},
+                             "geometry": {"type": "LineString",
+                                          "coordinates": [[_street_lon(2000), LAT], [_street_lon(2100), LAT]]}}))
+    res = compare_schemes(load_route(p, crs=scene.crs), [], parse_departures("2026-07-15T17:00", timezone=TZ), HOT,
+                          scene=scene)
+    assert any("outside the scene" in n for n in res.notices)
+    res = compare_schemes(load_route(p), [], parse_departures("2026-07-15T17:00", timezone=TZ), HOT)
+    assert any("open ground" in n for n in res.notices)
