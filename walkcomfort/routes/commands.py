@@ -112,8 +112,9 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     result = compare_schemes(route, schemes, deps, weather, scene=scene, predictor=predictor,
                              include_base=include_base, flat_speed_ms=flat_speed_ms, timezone=timezone,
                              walker=walker_attrs, explain=not no_reasons)
+    told = set(route.notices) | set(getattr(weather, "notices", []) or [])
     for n in result.notices:
-        if n.startswith("the model uses"):
+        if n not in told:
             echo(f"note: {n}")
     if chosen is not None:
         result.notices.append(f"design day {chosen.date}{typical} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
