@@ -34,24 +34,30 @@ def test_committed_folder_matches_its_provenance_digests():
 
 @pytest.mark.parametrize("session_id", ["sv-p03-2", "sv-p06-1"])
 def test_one_session_regenerates_byte_identical(tmp_path, session_id):
-    """Regenerating a session with the same seed gives the committed bytes (a planted one included)."""
+    """The same seed gives the same bytes: two regenerations of a session (a planted one) agree file by file."""
     prov = _prov()
     town = T.build_town(prov["seed"])
     plan = next(p for p in S.session_plans(prov["n_walkers"]) if p.id == session_id)
-    scenario.write_session(tmp_path, town, plan, prov["seed"], S._env_funcs(town))
-    made = sorted(p for p in (tmp_path / "sessions" / session_id).rglob("*") if p.is_file())
-    assert made
-    expected = {k: v for k, v in prov["files"].items() if k.startswith(f"sessions/{session_id}/")}
-    assert sorted(p.relative_to(tmp_path).as_posix() for p in made) == sorted(expected)
-    for p in made:
-        assert _io.file_digest(p) == expected[p.relative_to(tmp_path).as_posix()], p.name
+    digests = []
+    for run in ("a", "b"):
+        scenario.write_session(tmp_path / run, town, plan, prov["seed"], S._env_funcs(town))
+        folder = tmp_path / run / "sessions" / session_id
+        digests.append({p.relative_to(folder).as_posix(): _io.file_digest(p) for p in folder.rglob("*") if p.is_file()})
+    assert digests[0] == digests[1]
+    committed = {k.split("/", 2)[2] for k in prov["files"] if k.startswith(f"sessions/{session_id}/")}
+    assert set(digests[0]) == committed
 
 
 @pytest.mark.slow
-def test_whole_folder_regenerates_byte_identical(tmp_path):
+def test_whole_folder_regenerates_byte_identical_to_the_committed_one(tmp_path):
+    """The committed demo_walks is what the code makes. If this fails after a change to the simulator,
+    the environment physics or a writer, regenerate (`walkcomfort demo --regenerate`) and commit demo_walks."""
     prov = _prov()
     scenario.generate_demo(tmp_path / "dw", seed=prov["seed"], n_walkers=prov["n_walkers"])
     again = json.loads((tmp_path / "dw" / "provenance.json").read_text())
+    stale = sorted(k for k in set(prov["files"]) | set(again["files"])
+                   if prov["files"].get(k) != again["files"].get(k))
+    assert not stale, f"demo_walks is stale in {len(stale)} files (first: {stale[:3]}); regenerate and commit it"
     assert again == prov
 
 
@@ -94,3 +100,33 @@ def test_tobler_ratio_matches_the_hiking_function():
     assert S.tobler_ratio(0.0) == pytest.approx(1.0)
     assert S.tobler_ratio(-0.05) == pytest.approx(np.exp(3.5 * 0.05))
     assert S.tobler_ratio(0.10) == pytest.approx(6 * np.exp(-3.5 * 0.15) / (6 * np.exp(-3.5 * 0.05)))
+
+
+def test_device_files_are_written_as_the_devices_would():
+    import gpxpy
+    from PIL import Image
+
+    folder = _demo() / "sessions" / "sv-p01-1"
+    with open(folder / "gps" / "track.gpx", encoding="utf-8") as fh:
+        gpx = gpxpy.parse(fh)
+    assert gpx.version == "1.1"
+    pts = gpx.tracks[0].segments[0].points
+    assert len(pts) > 600 and all(p.time.utcoffset().total_seconds() == 0 for p in pts[:5])
+    assert {round((b.time - a.time).total_seconds()) for a, b in zip(pts, pts[1:])} == {2}
+    # the weather logger writes °F and km/h with a day-first local clock; the manifest declares it
+    head = (folder / "logger" / "weather.csv").read_text().splitlines()[:2]
+    assert head[0] == "DateTime,Temp_F,RH_pct,Wind_kmh,Globe_F,Press_hPa"
+    assert float(head[1].split(",")[1]) > 60.0           # a July morning in °F
+    toml = (folder / "session.toml").read_text()
+    assert 't_air = "degF"' in toml and 'wind = "km/h"' in toml and 'time_format = "%d/%m/%Y %H:%M:%S"' in toml
+    # camera: EXIF DateTimeOriginal in the camera's local clock, matching the file name
+    frame = sorted((folder / "camera").glob("IMG_*.jpg"))[0]
+    with Image.open(frame) as im:
+        assert im.size == (160, 120)
+        stamp = im.getexif().get_ifd(0x8769)[0x9003]
+    assert stamp.replace(":", "").replace(" ", "_") == frame.stem[4:]
+    # the manifest validates with the ingest engineer's schema
+    manifest = pytest.importorskip("walkcomfort.session.manifest")
+    spec = manifest.load_manifest(folder)
+    assert spec.participant == "P01" and spec.sensors["globe_diameter_m"] == S.GLOBE_DIAMETER_M
+    assert {s.kind for s in spec.sources} == {"gps", "weather", "noise", "light", "frames", "votes"}
