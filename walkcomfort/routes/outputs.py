@@ -64,7 +64,14 @@ def _fmt(v) -> str:
     if isinstance(v, pd.Timestamp):
         return v.strftime("%Y-%m-%d %H:%M %Z")
     if isinstance(v, (float, np.floating)):
-        return "–" if not np.isfinite(v) else f"{v:.3g}" if abs(v) < 1e4 else f"{v:.0f}"
+        if not np.isfinite(v):
+            return "–"
+        a = abs(float(v))
+        if a >= 100:
+            return f"{v:.0f}"
+        if a < 5e-4:
+            return "0"  # rounding noise of a difference, not a value
+        return f"{v:.3g}"
     return str(v)
 
 
