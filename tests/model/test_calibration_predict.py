@@ -73,3 +73,16 @@ def test_predict_timeline_gives_the_contract_columns(small_campaign, small_table
     assert all(isinstance(r, str) and r for r in out["reasons"])
     direct = predict_timeline(m, walk, reasons=False)
     np.testing.assert_array_equal(direct["p_neutral"].to_numpy(), out["p_neutral"].to_numpy())
+
+
+def test_newton_logistic_matches_scikit_learn_unpenalised():
+    from sklearn.linear_model import LogisticRegression
+
+    from walkcomfort.model.calibration import _logistic_newton
+
+    rng = np.random.default_rng(4)
+    z = rng.normal(size=(500, 2))
+    y = (rng.random(500) < 1 / (1 + np.exp(-(0.5 + 1.2 * z[:, 0] - 0.7 * z[:, 1])))).astype(float)
+    beta = _logistic_newton(z, y)
+    ref = LogisticRegression(C=1e8, tol=1e-10, max_iter=10000).fit(z, y)
+    np.testing.assert_allclose(beta, np.r_[ref.intercept_, ref.coef_[0]], rtol=1e-4, atol=1e-5)

@@ -15,7 +15,7 @@ from walkcomfort.model._synthetic import synthetic_campaign
 def timeline_dir(tmp_path_factory):
     """Synthetic walks written the way `walkcomfort ingest`/`thermal` write them: OUT/<walk_id>/timeline.parquet."""
     out = tmp_path_factory.mktemp("thermal")
-    camp = synthetic_campaign(n_participants=6, walks_per_participant=2, duration_s=1800, vote_every_s=90, seed=3)
+    camp = synthetic_campaign(n_participants=5, walks_per_participant=2, duration_s=1200, vote_every_s=60, seed=3)
     for wid, df in camp.groupby("walk_id", sort=True):
         att = {"walk_id": wid, "participant": df["participant"].iloc[0], "timezone": "UTC",
                "clo": float(df["clo"].iloc[0]), "acclimatised": bool(df["acclimatised"].iloc[0]),
@@ -28,7 +28,7 @@ def timeline_dir(tmp_path_factory):
 @pytest.mark.slow
 def test_fit_then_evaluate_give_the_same_numbers(timeline_dir, tmp_path, capsys):
     bundle = tmp_path / "bundle"
-    assert main(["fit", str(timeline_dir), "-o", str(bundle), "--folds", "3", "--rounds", "60",
+    assert main(["fit", str(timeline_dir), "-o", str(bundle), "--folds", "3", "--rounds", "30",
                  "--bootstrap", "20"]) == 0
     fit_out = capsys.readouterr().out
     assert {p.name for p in bundle.iterdir()} == {"model.txt", "manifest.json", "metrics.json", "report.html"}

@@ -73,6 +73,25 @@ def neutral_utci(bins: pd.DataFrame, min_votes: int = 5) -> dict:
     return res
 
 
+def _logistic_newton(X: np.ndarray, y: np.ndarray, ridge: float = 1e-6, max_iter: int = 100) -> np.ndarray:
+    """Maximum-likelihood logistic regression by Newton–Raphson (IRLS); returns [intercept, coefs...].
+
+    A tiny ridge keeps the Hessian invertible when the classes are nearly separable.
+    """
+    A = np.column_stack([np.ones(len(X)), X])
+    beta = np.zeros(A.shape[1])
+    for _ in range(max_iter):
+        eta = np.clip(A @ beta, -35, 35)
+        p = 1.0 / (1.0 + np.exp(-eta))
+        grad = A.T @ (y - p) - ridge * beta
+        hess = (A * (p * (1 - p))[:, None]).T @ A + ridge * np.eye(A.shape[1])
+        step = np.linalg.solve(hess, grad)
+        beta = beta + step
+        if np.max(np.abs(step)) < 1e-10:
+            break
+    return beta
+
+
 def acceptable_range(utci_c, comfort, level: float = 0.8, acceptable=("comfortable", "neutral")) -> dict:
     """UTCI range [°C] where the fitted share of acceptable votes is at least ``level``.
 
@@ -80,8 +99,6 @@ def acceptable_range(utci_c, comfort, level: float = 0.8, acceptable=("comfortab
     linear term only if the quadratic is not concave). Ends beyond the observed
     UTCI are clipped to it and marked ``lower_open`` / ``upper_open``.
     """
-    from sklearn.linear_model import LogisticRegression
-
     u = np.asarray(utci_c, dtype=float)
     acc = pd.Series(np.asarray(comfort, dtype=object)).isin(acceptable).to_numpy()
     ok = np.isfinite(u)
@@ -100,8 +117,8 @@ def acceptable_range(utci_c, comfort, level: float = 0.8, acceptable=("comfortab
     target = np.log(level / (1 - level))
 
     def fit(cols):
-        m = LogisticRegression(C=1e6, max_iter=5000).fit(np.column_stack(cols), acc)
-        return m.intercept_[0], m.coef_[0]
+        beta = _logistic_newton(np.column_stack(cols), acc.astype(float))
+        return beta[0], beta[1:]
 
     b0, (b1, b2) = fit([z, z ** 2])
     zs = np.linspace(z.min(), z.max(), 2001)

@@ -108,7 +108,10 @@ def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None 
     per_group = {}
     for attr in (C.AGE_BAND, C.ACCLIMATISED, C.CLO):
         if attr in table.attributes.columns and table.attributes[attr].notna().any():
-            per_group[attr] = group_scores(cv.y, cv.pred["history"], table.attributes[attr].to_numpy(dtype=object))
+            values = table.attributes[attr]
+            if attr == C.ACCLIMATISED:
+                values = values.map({1.0: "yes", 0.0: "no"})
+            per_group[attr] = group_scores(cv.y, cv.pred["history"], values.to_numpy(dtype=object))
     utci = table.X[C.UTCI_C].to_numpy()
     tsv = table.tsv
     comfort = table.y if table.target == "comfort" else None

@@ -177,11 +177,19 @@ def write_model_report(result, out_html: str | os.PathLike) -> Path:
     else:
         cal_text.append(f"No neutral UTCI could be estimated ({neu.get('note', 'no sensation votes')}).")
     if np.isfinite(rng_.get("lower_c", np.nan)):
-        lo = ("below " if rng_.get("lower_open") else "") + f"{rng_['lower_c']:.1f}"
-        hi = ("above " if rng_.get("upper_open") else "") + f"{rng_['upper_c']:.1f}"
-        cal_text.append(f"At least {cal['level']:.0%} voted comfortable or neutral between {lo} and {hi} °C UTCI "
-                        f"(lower end{_ci('lower_c')}; upper end{_ci('upper_c')}); an end marked 'below'/'above' "
-                        "lies outside the observed UTCI.")
+        lo, hi = rng_["lower_c"], rng_["upper_c"]
+        share = f"At least {100 * cal['level']:.0f} % voted comfortable or neutral"
+        if rng_.get("lower_open") and rng_.get("upper_open"):
+            text = f"{share} at every UTCI observed ({lo:.1f} … {hi:.1f} °C)."
+        elif rng_.get("lower_open"):
+            text = (f"{share} at every UTCI up to {hi:.1f} °C{_ci('upper_c')}; the lower end lies below the "
+                    f"coolest UTCI observed ({lo:.1f} °C).")
+        elif rng_.get("upper_open"):
+            text = (f"{share} from {lo:.1f} °C{_ci('lower_c')} up to the warmest UTCI observed ({hi:.1f} °C) "
+                    "and possibly beyond.")
+        else:
+            text = f"{share} between {lo:.1f} °C{_ci('lower_c')} and {hi:.1f} °C{_ci('upper_c')} UTCI."
+        cal_text.append(text)
     else:
         cal_text.append(f"No {cal.get('level', 0.8):.0%} acceptable range: {rng_.get('note', 'no comfort votes')}.")
     cal_text.append("For comparison, the UTCI assessment scale calls 9 … 26 °C 'no thermal stress' "
