@@ -192,3 +192,16 @@ def test_route_outside_the_scene_says_so(tmp_path, scene):
     assert any("outside the scene" in n for n in res.notices)
     res = compare_schemes(load_route(p), [], parse_departures("2026-07-15T17:00", timezone=TZ), HOT)
     assert any("open ground" in n for n in res.notices)
+
+
+def test_simulate_walk_has_the_recorded_timeline_columns(street, scene):
+    from walkcomfort.routes.simulate import simulate_walk
+
+    r = load_route(street, crs=scene.crs)
+    tl = simulate_walk(r, pd.Timestamp("2026-07-15T15:00Z"), HOT, scene=scene, timezone=TZ)
+    recorded = [C.WALK_ID, C.PARTICIPANT, C.LAT, C.LON, C.ELEV_M, C.DIST_M, C.SPEED_MS, C.HEADING_DEG,
+                C.SLOPE_PCT, C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.PRESSURE_HPA]
+    assert all(c in tl.columns for c in recorded)
+    assert tl.attrs["session"]["wind_height_m"] == 10.0 and tl.attrs["session"]["timezone"] == TZ
+    assert (tl[C.TMRT_SOURCE] == "fluxes").all() and tl[C.UTCI_C].notna().all()
+    assert tl[C.PARTICIPANT].eq("simulated").all() and tl.index.is_monotonic_increasing
