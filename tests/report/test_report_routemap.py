@@ -290,7 +290,7 @@ def test_walk_only_map_shows_votes_and_errors():
     fmap = R.route_map(walks=[S.timeline(note="shade was nice")], timezone="UTC")
     kinds = {lay.kind: lay.show for lay in _layers(fmap)}
     assert kinds == {"votes": True, "errors": True}
-    votes = [p for p in _payloads(fmap) if "votes" in p][0]
+    votes = [p for p in _payloads(fmap) if "walks" in p][0]["walks"][0]
     assert votes["tz"] == "Europe/Madrid"  # the walk's own zone wins
     assert votes["votes"]["t"][0] == "2026-07-14 09:59:00"  # 07:58Z + 60 s, shown at UTC+2 (CEST)
     assert "shade was nice" in votes["votes"]["note"]
@@ -337,3 +337,16 @@ def test_title_is_text(tmp_path):
     page = R.write_map(fmap, tmp_path / "m.html").read_text()
     assert "<title>&lt;script&gt;window.__pwned=9&lt;/script&gt; &amp; co</title>" in page
     assert "<script>window.__pwned=9" not in page
+
+
+def test_many_walks_share_one_votes_layer():
+    walks = [S.timeline(walk_id=f"w{i}") for i in range(R.MAX_WALK_LAYERS + 1)]
+    for i, w in enumerate(walks):
+        w.attrs["session"] = dict(w.attrs["session"], walk_id=f"w{i}")
+    fmap = R.route_map(walks=walks, layers=("votes",))
+    (layer,) = _layers(fmap)
+    assert html.unescape(layer.layer_name) == f"Votes · all {len(walks)} walks"
+    (data,) = _payloads(fmap)
+    assert [w["walk"] for w in data["walks"]] == [f"w{i}" for i in range(len(walks))]
+    few = R.route_map(walks=walks[:2], layers=("votes",))
+    assert [html.unescape(lay.layer_name) for lay in _layers(few)] == ["Votes · w0", "Votes · w1"]

@@ -75,6 +75,7 @@ LAYER_KINDS = ("comfort", "utci", "shade", "scene", "votes", "errors")
 MODE_LABELS = {"utci": "Colour routes by UTCI band", "shade": "Colour routes by shade"}
 DEFAULT_LAYERS = ("comfort", "utci", "shade", "scene", "votes", "errors")
 DEFAULT_SIZE_BUDGET_BYTES = 5_000_000
+MAX_WALK_LAYERS = 6  # more recorded walks than this share one votes layer
 SHADE_BINS = 5
 
 CAUTION = ("Estimates for discussing design options, not a guarantee of heat safety. "
@@ -1006,14 +1007,19 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
             fmap.add_child(E["DataLayer"]("scene", payload, _unique(label, seen), show=(j == 0)))
 
     if walk_frames and ("votes" in layers or "errors" in layers):
-        for i, w in enumerate(walk_frames):
-            data = _walk_payload(w, i, str(timezone), int(decimals), float(simplify_m))
+        walk_data = [_walk_payload(w, i, str(timezone), int(decimals), float(simplify_m))
+                     for i, w in enumerate(walk_frames)]
+        for data in walk_data:
             lat_all += [p[0] for p in data["track"]]
             lon_all += [p[1] for p in data["track"]]
-            if "votes" in layers:
-                payload = E["Payload"](data)
+        if "votes" in layers:
+            # one layer per walk while the list stays short; beyond that one layer for all walks
+            groups = [[d] for d in walk_data] if len(walk_data) <= MAX_WALK_LAYERS else [walk_data]
+            for i, group in enumerate(groups):
+                payload = E["Payload"]({"walks": group})
                 fmap.add_child(payload)
-                fmap.add_child(E["DataLayer"]("votes", payload, _unique(f"Votes · {data['walk']}", seen),
+                label = f"Votes · {group[0]['walk']}" if len(group) == 1 else f"Votes · all {len(group)} walks"
+                fmap.add_child(E["DataLayer"]("votes", payload, _unique(label, seen),
                                               show=predictions is None or i == 0))
         if "errors" in layers:
             cells = model_error_cells(walk_frames, error_cell_m)
@@ -1387,8 +1393,14 @@ var WC = (function () {
     return box;
   }
 
-  function votesLayer(d) {
-    var group = L.featureGroup(), v = d.votes, i;
+  function votesLayer(all) {
+    var group = L.featureGroup();
+    all.walks.forEach(function (d) { addWalk(group, d); });
+    return group;
+  }
+
+  function addWalk(group, d) {
+    var v = d.votes, i;
     if (d.track.length > 1) {
       L.polyline(d.track, {color: "#555555", weight: 3, opacity: 0.8, dashArray: "4 4", className: "wc-track",
                            pane: "wcVotes"})
