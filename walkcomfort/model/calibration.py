@@ -147,7 +147,8 @@ def acceptable_range(utci_c, comfort, level: float = 0.8, acceptable=("comfortab
 
 
 def local_calibration(utci_c, tsv=None, comfort=None, groups=None, bin_width: float = 2.0, min_votes: int = 5,
-                      level: float = 0.8, n_boot: int = 200, seed: int = 0) -> dict:
+                      level: float = 0.8, n_boot: int = 200, seed: int = 0,
+                      progress: bool | None = None) -> dict:
     """Neutral UTCI and acceptable UTCI range of the voters, with walker-bootstrap 95 % intervals.
 
     Parameters
@@ -169,6 +170,8 @@ def local_calibration(utci_c, tsv=None, comfort=None, groups=None, bin_width: fl
     n_boot : int
         Bootstrap resamples (0: no intervals).
     seed : int
+    progress : bool, optional
+        Progress bar for the bootstrap (default: on a terminal).
 
     Returns
     -------
@@ -200,7 +203,9 @@ def local_calibration(utci_c, tsv=None, comfort=None, groups=None, bin_width: fl
         uniq = pd.unique(g)
         rows_of = {k: np.flatnonzero(g == k) for k in uniq}
         draws = {"neutral_utci_c": [], "lower_c": [], "upper_c": [], "slope_per_c": []}
-        for _ in range(n_boot):
+        from walkcomfort._progress import track
+
+        for _ in track(range(n_boot), "calibration bootstrap over walkers", total=n_boot, enabled=progress):
             pick = rs.choice(len(uniq), size=len(uniq), replace=True)
             sel = np.concatenate([rows_of[uniq[i]] for i in pick])
             _, nb, rb = once(sel)

@@ -12,7 +12,8 @@ from walkcomfort.model.classifier import PRESETS, TARGETS
 @click.command(help="Fit the comfort model on labelled timelines; validate it on walkers it never saw.\n\n"
                     "TIMELINES are timeline.parquet files, walk folders or output folders of "
                     "`walkcomfort thermal` (OUT/<walk_id>/timeline.parquet). Writes the bundle "
-                    "(model.txt, manifest.json), metrics.json and report.html into BUNDLE_DIR.")
+                    "(model.txt, manifest.json), metrics.json and report.html into the -o folder. "
+                    "The model describes how walkers voted; it is not a heat-safety tool.")
 @click.argument("timelines", nargs=-1, required=True, type=click.Path(exists=True, path_type=Path))
 @click.option("-o", "--out", "out", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Bundle folder to write.")
@@ -39,6 +40,8 @@ def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap)
     click.echo(f"cross-validated ({result.cv.scheme}):")
     click.echo(format_metrics(result.cv.metrics))
     click.echo(f"bundle: {out}  report: {paths['report']}")
+    click.echo("caution: the model describes how these walkers voted; it is not a heat-safety tool "
+               "(follow local heat-health and occupational-health guidance).")
 
 
 @click.command(help="Score a saved model bundle on labelled timelines.\n\n"

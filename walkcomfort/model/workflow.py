@@ -117,7 +117,8 @@ def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None 
     comfort = table.y if table.target == "comfort" else None
     if table.target == "tsv":
         tsv = table.y.astype(float)
-    calibration = local_calibration(utci, tsv=tsv, comfort=comfort, groups=table.groups, n_boot=n_boot, seed=seed)
+    calibration = local_calibration(utci, tsv=tsv, comfort=comfort, groups=table.groups, n_boot=n_boot, seed=seed,
+                                    progress=progress)
     return FitResult(model=model, table=table, cv=cv, in_sample=in_sample, per_walker=per_walker,
                      per_group=per_group, calibration=calibration, settings=settings, inputs=list(inputs))
 
