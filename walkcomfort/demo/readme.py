@@ -24,7 +24,7 @@ def readme_text(town, summaries, planted, schemes, physics, seed) -> str:
     scheme_rows = "\n".join(
         f"| `schemes/{sid}.geojson` | {v['label']} | {v['trees_added']} | {v['canopy_m2_added']:.0f} | "
         f"{v['modified']} | {v['removed']} |" for sid, v in schemes.items())
-    physics_line = ("Every one of these quantities comes from `walkcomfort.environment`: "
+    physics_line = ("Each comes from `walkcomfort.environment`: "
                     + ", ".join(f"`{v.rsplit('.', 1)[1]}`" for v in physics.values()) + ".")
     from walkcomfort.demo.scenario import DESIGN_DAY as S_DAY
     return f"""# demo_walks — an INVENTED scenario
@@ -98,8 +98,8 @@ Tmrt-from-globe formula), so Tmrt recovered from the globe at steady state equal
 Walkers follow two loops ({', '.join(f'`{w}`' for w in town.walks)}) at their own flat speed scaled by
 Tobler's hiking function on the slope, and stop five times for a prompted vote. Sun position,
 clear-sky irradiance (with an invented daily haze), direct-beam shade from the scene, sky view,
-mean radiant temperature from short- and long-wave fluxes and UTCI follow the methods of
-`walkcomfort.environment`. {physics_line}
+mean radiant temperature from short- and long-wave fluxes and UTCI are computed at the
+walker's true position (before GPS noise). {physics_line}
 Weather is an invented clear summer day: air temperature from about 21.5 °C at 06:00 to
 32.5 °C at 15:30 (shifted a little day by day), nearly constant dew point, an afternoon breeze.
 `truth/` keeps what the devices could not see: the per-session truth every 10 s,
@@ -121,7 +121,18 @@ relief term makes shade after a hot stretch feel better than shade all along
 n = {latent.N_NOISE}, p = {latent.P_CROWD}). k_w and bias_w differ per walker; each vote adds noise
 (σ = {latent.VOTE_NOISE}). Votes: comfortable below {latent.COMFORTABLE_BELOW}, uncomfortable above
 {latent.UNCOMFORTABLE_ABOVE}, neutral between. A rule on the current UTCI band alone cannot see
-H, t_sun or the relief, so it does measurably worse than a history-aware model.
+H, t_sun, the relief, the slope, the noise or the crowd, so it does measurably worse than a
+history-aware model; a logistic regression on current thermal conditions sits in between.
+
+## Running the chain
+
+`walkcomfort demo [--out DIR]` runs, in this process, each stage's own command on this folder:
+`ingest` (with the sensor-lag correction the manifests' time constants allow) → `frames` →
+`thermal` (with `scene.geojson`) → `fit` → `compare` (routes `estacio-escola` and `mercat-parc`,
+every scheme, departures every 2 h on {S_DAY} with `weather/design-day.csv`) → `map` → `report`,
+skipping a stage whose module is missing, and prints where each output went.
+Regeneration is byte-identical for the same seed and the same library versions (the JPEG
+encoder and the physics libraries shape the bytes).
 
 ## Planted imperfections (QA must find exactly these; machine-readable in `planted.json`)
 
