@@ -32,7 +32,7 @@ os.environ.setdefault("WALKCOMFORT_NO_PROGRESS", "1")
 import numpy as np  # noqa: E402
 
 from walkcomfort import columns as C  # noqa: E402
-from walkcomfort.network.batch import Partition, daytime_times, plan_job  # noqa: E402
+from walkcomfort.network.batch import Partition, time_range, plan_job  # noqa: E402
 from walkcomfort.network.engines import run_job  # noqa: E402
 from walkcomfort.network.segments import network_from_geojson  # noqa: E402
 from walkcomfort.network.synthetic import _lonlat, grid_network, grid_scene  # noqa: E402
@@ -73,7 +73,7 @@ def build_job(n_segments: int, hours: int, tile_size_m: float):
         net = net.subset(net.segments.index[:n_segments])
     base = grid_scene(N_X, N_Y, BLOCK_M, lon0=LON0, lat0=LAT0)
     name, trees = street_trees_scheme(base)
-    times = daytime_times("2026-07-14T06:00", f"2026-07-14T{5 + hours:02d}:00", "1h", "Europe/Madrid")
+    times = time_range("2026-07-14T06:00", f"2026-07-14T{5 + hours:02d}:00", "1h", "Europe/Madrid")
     site = base["walkcomfort"]["site"]
     source = StatedConditions(t_air_c=33.0, rh_pct=35.0, wind_ms=2.0)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])

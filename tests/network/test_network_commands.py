@@ -106,3 +106,15 @@ def test_option_errors_are_one_line(streets, tmp_path, capsys):
     assert "--engine dask" in capsys.readouterr().err
     assert main(["network", str(streets), *ARGS[2:], "--conditions", "t_air_c:30", "--out", out]) == 2
     assert "name=number" in capsys.readouterr().err
+
+
+def test_daytime_keeps_the_hours_with_the_sun_up(streets, tmp_path):
+    out = tmp_path / "out"
+    assert main(["network", str(streets), "--conditions", "t_air_c=30,rh_pct=40,wind_ms=2", "--start",
+                 "2026-07-14T00:00", "--end", "2026-07-15T23:00", "--timezone", "Europe/Madrid", "--daytime",
+                 "--out", str(out)]) == 0
+    rows = read_segment_hours(out)
+    per_day = rows.index.unique().tz_convert("Europe/Madrid").normalize().value_counts()
+    # day length at 40.4° N in mid-July is about 14.9 h (from memory), so 14 or 15 hourly samples a day
+    assert set(per_day) <= {14, 15} and len(per_day) == 2
+    assert (rows[C.SUN_ELEV_DEG] > 0).all()

@@ -17,7 +17,7 @@ from walkcomfort import _io
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.network import engines
-from walkcomfort.network.batch import P_COLUMNS, aggregate_points, daytime_times, plan_job
+from walkcomfort.network.batch import P_COLUMNS, aggregate_points, time_range, plan_job
 from walkcomfort.network.segments import network_from_geojson
 from walkcomfort.network.synthetic import grid_network, grid_scene
 
@@ -74,7 +74,7 @@ def small_net():
 
 
 def _job(net, fn=standin, **kw):
-    times = daytime_times("2026-07-14T08:00", "2026-07-14T17:00", "1h", "Europe/Madrid")
+    times = time_range("2026-07-14T08:00", "2026-07-14T17:00", "1h", "Europe/Madrid")
     scene = grid_scene(4, 4)
     trees = {"type": "FeatureCollection", "features": scene["features"][:5]}
     return plan_job(net, times, {"base": scene, "fewer": trees}, tile_size_m=200.0, time_chunk=5,
@@ -178,7 +178,7 @@ def test_resume_keeps_partitions_of_the_same_job_only(small_net, tmp_path):
 
 
 def test_bad_job_inputs_are_one_line_errors(small_net):
-    times = daytime_times("2026-07-14T08:00", "2026-07-14T10:00", "1h", "UTC")
+    times = time_range("2026-07-14T08:00", "2026-07-14T10:00", "1h", "UTC")
     with pytest.raises(InputError, match="scheme name"):
         plan_job(small_net, times, {"../up": None}, partition_fn=standin)
     weather = pd.DataFrame({C.T_AIR_C: [30.0]}, index=times[:1])
@@ -187,7 +187,7 @@ def test_bad_job_inputs_are_one_line_errors(small_net):
     with pytest.raises(InputError, match="engine 'spark' is not known"):
         engines.make_engine("spark")
     with pytest.raises(InputError, match="ends"):
-        daytime_times("2026-07-14T10:00", "2026-07-14T08:00")
+        time_range("2026-07-14T10:00", "2026-07-14T08:00")
 
 
 def test_dask_engine_uses_an_existing_scheduler_by_address(small_net, tmp_path, cluster):
@@ -206,3 +206,14 @@ def test_unreachable_scheduler_is_a_one_line_error(small_net, tmp_path):
     job = _job(small_net)
     with pytest.raises(InputError, match="no Dask scheduler answered at 'tcp://127.0.0.1:9'"):
         engines.run_job(job, tmp_path, "dask", scheduler="tcp://127.0.0.1:9", timeout_s=1)
+
+
+def test_a_write_that_fails_fails_its_partition_only(small_net, tmp_path):
+    job = _job(small_net)
+    (tmp_path / "segment_hours").mkdir()
+    (tmp_path / "segment_hours" / "scheme=fewer").write_text("not a folder")  # writes under it must fail
+    report = engines.run_job(job, tmp_path, "in-process", retries=0)
+    failed = {o.partition_id.split("/")[0] for o in report.failed}
+    assert failed == {"fewer"} and not report.ok
+    assert report.written_rows == sum(p.expected_rows for p in job.partitions if p.scheme == "base")
+    assert all(o.error.startswith(("FileExistsError", "NotADirectoryError")) for o in report.failed)

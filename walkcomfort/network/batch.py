@@ -120,7 +120,7 @@ class NetworkJob:
         raise KeyError(partition_id)
 
 
-def daytime_times(start, end, step: str = "1h", timezone: str = "UTC") -> pd.DatetimeIndex:
+def time_range(start, end, step: str = "1h", timezone: str = "UTC") -> pd.DatetimeIndex:
     """UTC times from ``start`` to ``end`` inclusive at ``step``.
 
     Naive ``start``/``end`` are read in ``timezone`` (an IANA name); aware ones keep
@@ -141,6 +141,18 @@ def daytime_times(start, end, step: str = "1h", timezone: str = "UTC") -> pd.Dat
     return pd.date_range(t0.tz_convert("UTC"), t1.tz_convert("UTC"), freq=delta, name=C.TIME)
 
 
+def sunlit_times(times: pd.DatetimeIndex, site: dict, min_sun_elev_deg: float = 0.0) -> pd.DatetimeIndex:
+    """The times at which the sun at ``site`` stands above ``min_sun_elev_deg`` [°] (daytime only).
+
+    Uses ``environment.sun.solar_position`` (NREL SPA, apparent elevation) at the site's
+    ``lat, lon, elev_m``.
+    """
+    from walkcomfort.environment.sun import solar_position
+
+    sp = solar_position(times, site["lat"], site["lon"], site.get("elev_m", 0.0))
+    return times[sp[C.SUN_ELEV_DEG].to_numpy(float) > float(min_sun_elev_deg)]
+
+
 def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
              weather: pd.DataFrame | None = None, *, tile_size_m: float = 250.0, time_chunk: int = 24,
              min_sun_elev_deg: float = 5.0, z_m: float = DEFAULT_Z_M, site: dict | None = None,
@@ -151,7 +163,7 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
     ----------
     network : walkcomfort.network.segments.Network
     times : pandas.DatetimeIndex
-        tz-aware UTC times to compute (see :func:`daytime_times`).
+        tz-aware UTC times to compute (see :func:`time_range`).
     scenes : dict
         Scheme name -> scene GeoJSON with that scheme already applied (``"base"``
         for the scene as it is; ``None`` for no obstacles at all).
@@ -178,7 +190,7 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
     """
     if not isinstance(times, pd.DatetimeIndex) or times.tz is None or len(times) == 0:
         raise InputError("the batch needs a non-empty tz-aware list of times",
-                         fix="build them with walkcomfort.network.batch.daytime_times(start, end, step)")
+                         fix="build them with walkcomfort.network.batch.time_range(start, end, step)")
     times = times.tz_convert("UTC").rename(C.TIME)
     if times.has_duplicates or not times.is_monotonic_increasing:
         raise InputError("the batch times repeat or are not in increasing order",

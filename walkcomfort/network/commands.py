@@ -36,9 +36,10 @@ def _conditions(text: str | None) -> dict | None:
 
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
-                    min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0):
+                    min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0,
+                    daytime=False):
     """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
-    from walkcomfort.network.batch import BASE, daytime_times, plan_job
+    from walkcomfort.network.batch import BASE, plan_job, sunlit_times, time_range
     from walkcomfort.network.segments import load_network
     from walkcomfort.routes.schemes import apply_scheme, load_scheme
     from walkcomfort.routes.weather import open_weather
@@ -59,7 +60,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
             raise InputError(f"scheme name {scheme.name!r} is given twice", where=p,
                              fix="give every scheme its own name (top-level walkcomfort.scheme)")
         scenes[scheme.name] = apply_scheme(scene, scheme).to_geojson()
-    times = daytime_times(start, end, step, timezone)
+    times = time_range(start, end, step, timezone)
     site_meta = ((scenes[BASE] or {}).get("walkcomfort") or {}).get("site") or {}
     site = {"lat": float(site_meta.get("lat", network.points[C.LAT].mean())),
             "lon": float(site_meta.get("lon", network.points[C.LON].mean())),
@@ -67,6 +68,12 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     kw = {"max_distance_km": max_station_km}
     if logger_wind_height is not None:
         kw["wind_height_m"] = logger_wind_height
+    if daytime:
+        n_all = len(times)
+        times = sunlit_times(times, site)
+        if len(times) == 0:
+            raise InputError(f"none of the {n_all} times from {start} to {end} has the sun above the horizon",
+                             fix="choose daytime hours or leave out --daytime")
     source = open_weather(weather_path, _conditions(conditions), **kw)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
     predictor = "physics-rule"
@@ -124,6 +131,8 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--end", required=True, help="Last time, ISO, included.")
 @click.option("--step", default="1h", show_default=True, help="Time step (1h, 30min, ...).")
 @click.option("--timezone", "timezone", help="IANA zone of --start/--end when they carry no offset.")
+@click.option("--daytime", is_flag=True, help="Keep only the times with the sun above the horizon (e.g. a month "
+              "at 1h: its daytime hours).")
 @click.option("--segment-length", "segment_length_m", default=50.0, show_default=True, type=float,
               help="Target segment length [m].")
 @click.option("--spacing", "spacing_m", default=10.0, show_default=True, type=float,
@@ -145,9 +154,9 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--resume", is_flag=True, help="Keep partitions an earlier run of the same job already wrote.")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Output folder.")
-def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model, start, end, step, timezone,
-            segment_length_m, spacing_m, tile_size_m, time_chunk, min_sun_elev_deg, engine, scheduler, workers,
-            threads_per_worker, write_on, retries, resume, out_dir):
+def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model,
+            start, end, step, timezone, daytime, segment_length_m, spacing_m, tile_size_m, time_chunk,
+            min_sun_elev_deg, engine, scheduler, workers, threads_per_worker, write_on, retries, resume, out_dir):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -163,7 +172,7 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
         raise InputError("--scheduler was given with --engine in-process", fix="add --engine dask")
     net, job = plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone or "UTC",
                                weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
-                               min_sun_elev_deg, model, logger_wind_height, max_station_km)
+                               min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime)
     click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
                f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
                err=True)

@@ -183,8 +183,13 @@ class InProcessEngine:
                 finally:
                     report.timings["compute"] += _time.perf_counter() - tc
                 tw = _time.perf_counter()
-                path = _write(out_dir, job.digest, part, rows)
-                report.timings["write"] += _time.perf_counter() - tw
+                try:
+                    path = _write(out_dir, job.digest, part, rows)
+                except OSError as exc:  # a full disk fails this partition, reported like any other
+                    outcome.error = _error_text(exc)
+                    continue
+                finally:
+                    report.timings["write"] += _time.perf_counter() - tw
                 outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
                 outcome.path = path.relative_to(out_dir).as_posix()
                 break
