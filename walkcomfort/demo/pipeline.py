@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import importlib
 import importlib.util
+import time
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
@@ -34,6 +35,7 @@ class StageResult:
     status: str                 # "ran" | "skipped" | "failed"
     detail: str = ""
     outputs: list = field(default_factory=list)
+    seconds: float = 0.0
 
 
 @dataclass
@@ -154,6 +156,7 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
             run.stages.append(StageResult(name, "skipped", missing))
             echo(f"[{name}] skipped: {missing}")
             return
+        t0 = time.perf_counter()
         try:
             for args in build():
                 _run_verb(verb, args, echo)
@@ -172,8 +175,9 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
             run.stages.append(StageResult(name, "failed", f"internal error {type(exc).__name__}: {msg}"))
             echo(f"[{name}] failed: internal error {type(exc).__name__}: {msg}")
             return
-        run.stages.append(StageResult(name, "ran", "", outputs()))
-        echo(f"[{name}] done -> {', '.join(str(p) for p in outputs())}")
+        took = time.perf_counter() - t0
+        run.stages.append(StageResult(name, "ran", "", outputs(), took))
+        echo(f"[{name}] done in {took:.1f} s -> {', '.join(str(p) for p in outputs())}")
 
     # 1. ingest every session (QA and quarantine per walk, a campaign table); the manifests state
     #    the air and globe time constants, so the lag of those sensors is corrected
@@ -234,6 +238,7 @@ def summary_lines(run: DemoRun) -> list[str]:
     for s in run.stages:
         where = f" -> {', '.join(str(p) for p in s.outputs)}" if s.outputs else ""
         why = f" ({s.detail})" if s.detail and s.status != "ran" else ""
-        lines.append(f"  {s.name:<9} {s.status}{why}{where}")
+        took = f" in {s.seconds:.0f} s" if s.status == "ran" and s.seconds else ""
+        lines.append(f"  {s.name:<9} {s.status}{took}{why}{where}")
     lines += ["", CAUTION]
     return lines
