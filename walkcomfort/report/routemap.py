@@ -1019,8 +1019,9 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
                 payload = E["Payload"]({"walks": group})
                 fmap.add_child(payload)
                 label = f"Votes · {group[0]['walk']}" if len(group) == 1 else f"Votes · all {len(group)} walks"
+                # over predicted routes only a single walk's votes are on at first (less clutter)
                 fmap.add_child(E["DataLayer"]("votes", payload, _unique(label, seen),
-                                              show=predictions is None or i == 0))
+                                              show=predictions is None or (i == 0 and len(group) == 1)))
         if "errors" in layers:
             cells = model_error_cells(walk_frames, error_cell_m)
             if len(cells):

@@ -216,7 +216,10 @@ def timeseries_figure(df: pd.DataFrame, zone, title: str = ""):
     height = sum(heights[p] for p in panels) + 1.0
     fig = _figure(10.0, height)
     axes = fig.subplots(len(panels), 1, sharex=True, gridspec_kw={"height_ratios": [heights[p] for p in panels]})
-    fig.subplots_adjust(left=0.09, right=0.84, top=1 - (0.45 if title else 0.12) / height, bottom=0.55 / height,
+    # room on the left for the QA flag names (about 0.06 in per character at 7 pt) and the "QA" label
+    longest = max((len(f.removeprefix("qa_")) for f in flags), default=0)
+    left = max(0.09, (0.06 * longest + 0.45) / 10.0)
+    fig.subplots_adjust(left=left, right=0.84, top=1 - (0.45 if title else 0.12) / height, bottom=0.55 / height,
                         hspace=0.12 * len(panels) / height * 2)
     axes = np.atleast_1d(axes)
     by = dict(zip(panels, axes))
