@@ -330,6 +330,13 @@ def _truthy(value) -> float:
     return np.nan
 
 
+def _per_unique(values: np.ndarray, func) -> np.ndarray:
+    """``func`` applied once per distinct value (attributes repeat on every row of a walk)."""
+    codes, uniques = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=True)
+    mapped = np.array([func(u) for u in uniques] + [np.nan], dtype=float)
+    return mapped[codes]  # code -1 (missing) picks the trailing NaN
+
+
 def participant_attributes(timeline: pd.DataFrame, participants: dict | None = None) -> pd.DataFrame:
     """Per-row participant attributes: ``clo`` [clo], ``acclimatised`` (0/1), ``age_band``, ``age_band_lower``.
 
@@ -357,7 +364,7 @@ def participant_attributes(timeline: pd.DataFrame, participants: dict | None = N
                 vals = np.where(pd.isna(looked), vals, looked)
         out[name] = vals
     clo = pd.to_numeric(pd.Series(out[CLO], index=timeline.index), errors="coerce").astype(float)
-    accl = pd.Series([_truthy(v) for v in out[ACCLIMATISED]], index=timeline.index, dtype=float)
+    accl = pd.Series(_per_unique(out[ACCLIMATISED], _truthy), index=timeline.index, dtype=float)
     band = pd.Series(out[AGE_BAND], index=timeline.index, dtype=object)
-    lower = pd.Series([_age_lower(v) for v in out[AGE_BAND]], index=timeline.index, dtype=float)
+    lower = pd.Series(_per_unique(out[AGE_BAND], _age_lower), index=timeline.index, dtype=float)
     return pd.DataFrame({CLO: clo, ACCLIMATISED: accl, AGE_BAND: band, "age_band_lower": lower})
