@@ -165,3 +165,23 @@ def test_beer_lambert_path_length_option():
 
     with pytest.raises(InputError, match="crown_model"):
         shade.beam_transmittance(sc, [X0], [Y0], [30.0], [180.0], crown_model="fog")
+
+
+def test_more_obstacles_never_let_more_sun_or_sky_through():
+    # From the definitions: transmittance is a product of factors <= 1 and the hidden sky a
+    # union of bands, so adding obstacles can only lower both (checked on invented scenes).
+    from walkcomfort.environment.skyview import sky_view_factor
+
+    big, (x0, y0) = random_scene(40, 30, 200, seed=21, n_crowns=8, n_canopies=8)
+    feats = big.features
+    small = Scene(feats[::2], site=big.site)
+    rng = np.random.default_rng(22)
+    m = 300
+    x, y = x0 + rng.uniform(-100, 100, m), y0 + rng.uniform(-100, 100, m)
+    e, a = rng.uniform(1, 80, m), rng.uniform(0, 360, m)
+    t_small = shade.beam_transmittance(small, x, y, e, a, month=7, crown_model="path_length")
+    t_big = shade.beam_transmittance(big, x, y, e, a, month=7, crown_model="path_length")
+    assert np.all((t_big >= 0) & (t_big <= 1)) and np.all(t_big <= t_small + 1e-12)
+    s_small = sky_view_factor(small, x[:80], y[:80])
+    s_big = sky_view_factor(big, x[:80], y[:80])
+    assert np.all(s_big.to_numpy() <= s_small.to_numpy() + 1e-12)
