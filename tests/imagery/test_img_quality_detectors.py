@@ -63,6 +63,20 @@ def test_exposure_flags(street):
     assert not (ok[C.QA_FRAME_OVEREXPOSED] or ok[C.QA_FRAME_UNDEREXPOSED])
 
 
+def test_clipped_overcast_sky_is_not_overexposure(overcast_street):
+    rgb, _ = overcast_street
+    h, w = rgb.shape[:2]
+    washed = rgb.copy()
+    # the camera clipped a wide white overcast sky left of the façade (half the rows, 35 % of the frame)
+    washed[:h // 2, :int(0.7 * w)] = 255
+    sky = sky_mask(washed)
+    m = quality.quality_measures(washed, sky=sky)
+    assert m["clipped_total_frac"] > quality.OVER_MAX_FRAC > m["clipped_frac"]
+    assert not quality.quality_flags(washed, sky=sky)[C.QA_FRAME_OVEREXPOSED]
+    # without the sky mask the same frame counts as overexposed
+    assert quality.quality_flags(washed)[C.QA_FRAME_OVEREXPOSED] is (m["clipped_total_frac"] > quality.OVER_MAX_FRAC)
+
+
 def test_obstruction_flag(street):
     rgb, _ = street
     blocked = rgb.copy()

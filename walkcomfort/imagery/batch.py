@@ -46,7 +46,7 @@ from walkcomfort.imagery.people import PeopleParams, count_people
 from walkcomfort.imagery.quality import QualityParams, quality_flags
 
 #: Bump when a rule changes in a way that changes results: old cache entries stop matching.
-ANALYSIS_VERSION = 2
+ANALYSIS_VERSION = 3
 #: Width [px] frames are analysed at.
 ANALYSIS_WIDTH = 640
 #: Below this many frames to compute, worker processes cost more than they save.

@@ -15,7 +15,10 @@ blur
     scene: a frame of clear sky is "blurred" by this measure, which is why the sky share
     is given to :func:`quality_flags` and frames that are mostly sky are exempted.
 overexposed
-    More than :data:`OVER_MAX_FRAC` of the pixels at luma ≥ 250 (clipped highlights).
+    More than :data:`OVER_MAX_FRAC` of the frame clipped (luma ≥ 250) outside the sky, or
+    more than :data:`OVER_MAX_TOTAL` clipped in all. A white overcast sky often clips and
+    is still a fair view (its share is counted as sky); a frame washed out by the low sun
+    clips everywhere.
 underexposed
     Mean luma below :data:`UNDER_MAX_MEAN` or more than :data:`UNDER_MAX_FRAC` of the
     pixels at luma ≤ 10 (crushed shadows; night or a covered lens).
@@ -52,8 +55,10 @@ QUALITY_WIDTH = 640
 BLUR_MIN_LAPVAR = 60.0
 #: A frame with more sky than this is not judged for blur (sky has no edges).
 BLUR_SKY_EXEMPT = 0.6
-#: Share of clipped pixels (luma ≥ 250) above which a frame is overexposed.
+#: Share of the frame clipped (luma ≥ 250) outside the sky above which it is overexposed ...
 OVER_MAX_FRAC = 0.30
+#: ... or clipped anywhere.
+OVER_MAX_TOTAL = 0.75
 #: Mean luma (0…1) below which a frame is underexposed.
 UNDER_MAX_MEAN = 0.08
 #: Share of crushed pixels (luma ≤ 10) above which a frame is underexposed.
@@ -71,6 +76,7 @@ class QualityParams:
     blur_min_lapvar: float = BLUR_MIN_LAPVAR
     blur_sky_exempt: float = BLUR_SKY_EXEMPT
     over_max_frac: float = OVER_MAX_FRAC
+    over_max_total: float = OVER_MAX_TOTAL
     under_max_mean: float = UNDER_MAX_MEAN
     under_max_frac: float = UNDER_MAX_FRAC
     obstructed_max_std: float = OBSTRUCTED_MAX_STD
@@ -138,13 +144,15 @@ def quality_measures(rgb, params: QualityParams | None = None, sky=None, gray=No
     Returns
     -------
     dict
-        ``frame_lapvar`` [grey levels²], ``clipped_frac`` [-], ``crushed_frac`` [-],
+        ``frame_lapvar`` [grey levels²], ``clipped_frac`` [-] (clipped and not sky),
+        ``clipped_total_frac`` [-], ``crushed_frac`` [-],
         ``mean_luma_frac`` [-], ``featureless_frac`` [-] (featureless, non-sky share).
     """
     p = params or QualityParams()
     img = check_rgb(rgb)
     gray = _gray_at_width(img, p.width, gray)
     n = gray.size
+    clipped = gray >= 250
     std = local_std(gray)
     featureless = std < p.obstructed_max_std
     # a dusk or deep-blue sky is featureless but not an obstruction: blue-dominant pixels
@@ -161,7 +169,9 @@ def quality_measures(rgb, params: QualityParams | None = None, sky=None, gray=No
         featureless &= ~sky
     return {
         C.FRAME_LAPVAR: laplacian_variance(gray),
-        "clipped_frac": float(np.count_nonzero(gray >= 250) / n),
+        "clipped_frac": float(np.count_nonzero(clipped & ~sky) / n) if sky is not None
+        else float(np.count_nonzero(clipped) / n),
+        "clipped_total_frac": float(np.count_nonzero(clipped) / n),
         "crushed_frac": float(np.count_nonzero(gray <= 10) / n),
         "mean_luma_frac": float(gray.mean() / 255.0),
         "featureless_frac": float(np.count_nonzero(featureless) / n),
@@ -172,7 +182,7 @@ def flags_from_measures(measures: dict, sky_frac: float = 0.0, params: QualityPa
     """Turn :func:`quality_measures` into the four ``qa_frame_*`` flags and ``frame_ok``."""
     p = params or QualityParams()
     blur = bool(measures[C.FRAME_LAPVAR] < p.blur_min_lapvar and not (sky_frac > p.blur_sky_exempt))
-    over = bool(measures["clipped_frac"] > p.over_max_frac)
+    over = bool(measures["clipped_frac"] > p.over_max_frac or measures["clipped_total_frac"] > p.over_max_total)
     under = bool(measures["mean_luma_frac"] < p.under_max_mean or measures["crushed_frac"] > p.under_max_frac)
     # a dark, featureless frame is reported as underexposed, not as obstructed as well
     blocked = bool(measures["featureless_frac"] > p.obstructed_max_frac and not under)
