@@ -10,8 +10,8 @@ from walkcomfort import _io
 from walkcomfort.cli import main
 
 
-def _write_walk(folder, note=None):
-    w = S.timeline(note=note)
+def _write_walk(folder, note=None, with_prediction=True):
+    w = S.timeline(note=note, with_prediction=with_prediction)
     data = w.copy()
     data.attrs = {}
     session = dict(w.attrs["session"], walk_id=folder.name, participant="P01")
@@ -86,3 +86,36 @@ def test_report_command_for_a_model_bundle(tmp_path, capsys):
     _io.atomic_write_text(bundle / "report.html", "<!DOCTYPE html><title>model</title>")
     assert main(["report", str(bundle), "-o", str(tmp_path / "m.html")]) == 0
     assert (tmp_path / "m.html").read_text().startswith("<!DOCTYPE html><title>model</title>")
+
+
+def test_map_command_predicts_walks_with_a_model(tmp_path, monkeypatch, capsys):
+    """--model adds the model's classes to the recorded walks, so the error layer appears."""
+    import walkcomfort.model.bundle as bundle
+    import walkcomfort.model.predict as predict
+
+    walks = tmp_path / "ingest"
+    _write_walk(walks / "tw-a", with_prediction=False)
+    model_dir = tmp_path / "bundle"
+    _io.write_json(model_dir / "manifest.json", {"schema": "walkcomfort-model/1"})
+    seen = {}
+
+    def fake_predict(model, timeline, reasons=True, **kw):
+        seen["model"], seen["reasons"] = model, reasons
+        # a stand-in model that always answers "neutral"
+        out = pd.DataFrame(index=timeline.index)
+        out["p_comfortable"], out["p_neutral"], out["p_uncomfortable"] = 0.2, 0.6, 0.2
+        out["comfort_class"], out["predictor"], out["reasons"] = "neutral", "model:sha256:0", ""
+        return out
+
+    monkeypatch.setattr(bundle, "load_bundle", lambda folder: f"model from {folder}")
+    monkeypatch.setattr(predict, "predict_timeline", fake_predict)
+    out = tmp_path / "m.html"
+    assert main(["map", "--walk", str(walks), "-o", str(out)]) == 0
+    assert "Model errors" not in out.read_text()  # no prediction, no error layer
+    assert main(["map", "--walk", str(walks), "--model", str(model_dir), "-o", str(out)]) == 0
+    assert seen == {"model": f"model from {model_dir}", "reasons": False}
+    page = out.read_text()
+    assert "Model errors (50 m cells)" in page
+    assert "in-sample" in page
+    assert main(["map", "--walk", str(walks), "--model", str(tmp_path), "-o", str(out)]) == 2
+    assert "not a model bundle" in capsys.readouterr().err

@@ -79,6 +79,27 @@ def find_walks(paths) -> list[Path]:
     return out
 
 
+def predicted_walks(paths, model_path: Path) -> list:
+    """Recorded timelines with the model's prediction columns added (for the model-error layer)."""
+    from walkcomfort.model.bundle import load_bundle
+    from walkcomfort.model.predict import predict_timeline
+    from walkcomfort.session.timeline import read_timeline
+
+    if not is_model_bundle(Path(model_path)):
+        raise InputError("not a model bundle (no manifest.json of a walkcomfort model)", where=model_path,
+                         fix="pass the folder written by 'walkcomfort fit'")
+    model = load_bundle(model_path)
+    out = []
+    for p in paths:
+        timeline = read_timeline(p)
+        pred = predict_timeline(model, timeline, reasons=False)
+        clash = [c for c in pred.columns if c in timeline.columns]
+        walk = timeline.drop(columns=clash).join(pred)  # the model's view replaces any older one
+        walk.attrs = dict(timeline.attrs)
+        out.append(walk)
+    return out
+
+
 def is_model_bundle(path: Path) -> bool:
     manifest = path / BUNDLE_MANIFEST
     if not (path.is_dir() and manifest.is_file()):
@@ -103,6 +124,9 @@ def is_model_bundle(path: Path) -> bool:
               help="Scheme GeoJSON (names the layers, draws its edits). Repeatable.")
 @click.option("--walk", "walk_paths", multiple=True, type=click.Path(path_type=Path),
               help="Recorded walk: timeline.parquet, its folder, or a folder of walk folders. Repeatable.")
+@click.option("--model", "model_path", type=click.Path(path_type=Path), default=None,
+              help="Model bundle: predict each recorded walk, so the map shows where the model disagrees "
+                   "with the votes.")
 @click.option("--offline", is_flag=True, help="Inline Leaflet: one self-contained file that opens without network.")
 @click.option("--tiles", default="none", show_default=True,
               help="Base map: 'none', 'osm', an http(s) {z}/{x}/{y} URL template, or a local tile folder.")
@@ -118,7 +142,7 @@ def is_model_bundle(path: Path) -> bool:
               help="Grid size of the model-error layer [m].")
 @click.option("--budget-mb", type=float, default=5.0, show_default=True, help="Warn when the file is larger [MB].")
 @click.option("--title", default=None, help="Title on the map (default: 'Predicted walking comfort').")
-def map_(points, out_html, scene_path, scheme_paths, walk_paths, offline, tiles, attribution, max_zoom, timezone,
+def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, offline, tiles, attribution, max_zoom, timezone,
          layers, decimals, simplify_m, error_cell_m, budget_mb, title):
     """Write the HTML route map from prediction tables (POINTS) and/or recorded walks.
 
@@ -144,7 +168,10 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, offline, tiles,
     zone = timezone or ((attrs.get("session") or {}).get("timezone") if isinstance(attrs.get("session"), dict)
                         else None) or "UTC"
     schemes = list(scheme_paths)
-    fmap = route_map(predictions, scene=scene_path, schemes=schemes, walks=find_walks(walk_paths),
+    walks = find_walks(walk_paths)
+    if model_path is not None:
+        walks = predicted_walks(walks, model_path)
+    fmap = route_map(predictions, scene=scene_path, schemes=schemes, walks=walks,
                      summaries=pd.concat(summaries, ignore_index=True) if summaries else None,
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,

@@ -83,6 +83,10 @@ CAUTION = ("Estimates for discussing design options, not a guarantee of heat saf
            "design decisions rest with licensed professionals.")
 
 
+ERRORS_NOTE = ("Cells group the votes of recorded walks; if those walks trained the model, these are "
+               "in-sample errors and look smaller than on new walkers.")
+
+
 class MapSizeWarning(DataQualityWarning):
     """The written map is larger than its size budget (slow to open, heavy to share)."""
 
@@ -718,6 +722,7 @@ def _legend_config() -> dict:
         "halo": P.HALO_COLOUR,
         "tsv": {str(k): v for k, v in C.TSV_SCALE.items()},
         "caution": CAUTION,
+        "errors_note": ERRORS_NOTE,
     }
 
 
@@ -1470,7 +1475,8 @@ var WC = (function () {
     box.appendChild(section("shade", "Direct-sun shade", c.shade.map(function (x) { return key(x.colour, x.label); })));
     box.appendChild(section("votes", "Comfort votes", c.comfort.map(function (x) {
       return key(x.colour, x.label, true); }).concat([el("div", null, "fill = vote, ring = model's class")])));
-    box.appendChild(section("errors", "Where the model errs", c.errors.map(function (x) { return key(x.colour, x.label); })));
+    box.appendChild(section("errors", "Where the model errs", c.errors.map(function (x) { return key(x.colour, x.label); })
+      .concat([el("div", "wc-caution", c.errors_note)])));
     box.appendChild(section("scene", "Scene", [key(c.scene.building, "building"), key(c.scene.tree, "tree crown"),
       key(c.scene.canopy, "canopy"), el("div", null, c.edit_legend)]));
     box.appendChild(el("div", "wc-caution", c.caution));
