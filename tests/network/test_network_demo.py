@@ -72,3 +72,42 @@ def test_network_command_on_the_demo_town(demo_dir, tmp_path):
     # the new trees shade Costa in the late afternoon: its UTCI goes down somewhere, up nowhere
     d = [f["properties"]["schemes"]["trees-costa"]["d_mean_utci_c"] for f in costa]
     assert min(d) < -0.5 and max(d) <= 0.0
+
+
+def test_network_physics_matches_the_timeline_path(demo_dir):
+    # the same points and times through environment.pipeline.add_environment, the path recorded and
+    # simulated walks take: the network batch must give the model the same environment
+    import numpy as np
+
+    from walkcomfort.environment.pipeline import add_environment
+    from walkcomfort.environment.scene import Scene
+    from walkcomfort.network import _physics
+
+    _, job = plan_from_files(demo_dir / "streets.geojson", demo_dir / "scene.geojson", [], "2026-07-15T08:00",
+                             "2026-07-15T18:00", "2h", "Europe/Madrid",
+                             weather_path=demo_dir / "weather" / "design-day.csv", logger_wind_height=1.1,
+                             tile_size_m=250.0)
+    part = max(job.partitions, key=lambda p: len(p.scene["features"]))
+    env = _physics.point_environment(part)
+    pts, w = part.points, part.weather
+    n, t = len(pts), len(part.times)
+    idx = pd.DatetimeIndex(np.tile(part.times.to_numpy(), n), tz="UTC", name=C.TIME)
+    tl = pd.DataFrame({C.LAT: np.repeat(pts[C.LAT].to_numpy(), t), C.LON: np.repeat(pts[C.LON].to_numpy(), t),
+                       C.X_M: np.repeat(pts[C.X_M].to_numpy(), t), C.Y_M: np.repeat(pts[C.Y_M].to_numpy(), t),
+                       **{c: np.tile(w[c].to_numpy(), n) for c in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.PRESSURE_HPA)}},
+                      index=idx)
+    tl.attrs["session"] = {"timezone": "Europe/Madrid", "wind_height_m": 1.1}
+    ref = add_environment(tl, scene=Scene.from_geojson(part.scene),
+                          irradiance=w[[C.GHI_WM2, C.DNI_WM2, C.DHI_WM2]], warn=False)
+
+    def grid(name):
+        v = np.asarray(env[name], dtype=float)
+        return np.broadcast_to(v if v.ndim == 2 else v[None, :], (n, t)).ravel()
+
+    assert (grid(C.SHADE_FRAC) < 1).any() and (grid(C.SHADE_FRAC) > 0).any()
+    # the batch takes the sun at the site, the timeline at each point: < 0.01° apart within the town
+    np.testing.assert_allclose(grid(C.SUN_ELEV_DEG), ref[C.SUN_ELEV_DEG], atol=0.01)
+    np.testing.assert_allclose(grid(C.SHADE_FRAC), ref[C.SHADE_FRAC], atol=1e-9)
+    np.testing.assert_allclose(grid(C.SVF), ref[C.SVF], atol=1e-9)
+    np.testing.assert_allclose(grid(C.TMRT_C), ref[C.TMRT_C], atol=0.01)
+    np.testing.assert_allclose(grid(C.UTCI_C), ref[C.UTCI_C], atol=0.01)

@@ -105,7 +105,8 @@ def test_load_network_reads_file_and_keeps_raw_untouched(tmp_path):
 def test_third_coordinate_is_ground_elevation_interpolated_to_the_points():
     dlon = 100.0 / 111_319.49
     net = network_from_geojson({"type": "FeatureCollection", "features": [
-        _line("up", [[3.0, 0.0, 100.0], [3.0 + dlon, 0.0, 110.0]]), _line("flat", [[3.0, 0.001], [3.0 + dlon, 0.001]])]},
+        _line("up", [[3.0, 0.0, 100.0], [3.0 + dlon, 0.0, 110.0]]),
+        _line("flat", [[3.0, 0.001], [3.0 + dlon, 0.001]])]},
         segment_length_m=100.0, spacing_m=25.0)
     up = net.points.loc[net.points[C.SEGMENT_ID] == "up#000", C.ELEV_M].to_numpy()
     # from the definition: linear in distance, points at 1/8, 3/8, 5/8, 7/8 of the line
