@@ -120,3 +120,29 @@ def test_feature_time_for_a_campaign_is_reasonable(small_campaign):
     # not a speed assertion (see benchmarks/bench_model.py): just that a 38 400-row campaign builds
     X = build_features(small_campaign)
     assert len(X) == len(small_campaign) and X["utci_ewm_10min"].notna().all()
+
+
+def test_irregular_steps_are_time_weighted():
+    # a simulated walk: rows 10 s apart, then 2 s apart. Each row stands for the interval since
+    # the row before it, so over the last 60 s the mean is the dt-weighted one (from the definition).
+    t = np.r_[np.arange(0, 100, 10.0), 100 + np.arange(1, 21) * 2.0]  # ends at t = 140 s
+    idx = pd.DatetimeIndex(pd.Timestamp("2026-07-14 08:00", tz="UTC") + pd.to_timedelta(t, unit="s"), name=C.TIME)
+    u = np.where(t < 100, 30.0, 40.0)
+    tl = pd.DataFrame({C.WALK_ID: "sim", C.UTCI_C: u, C.SHADE_FRAC: 0.0}, index=idx)
+    X = build_features(tl)
+    # window (80, 140]: the row at 90 s (dt 10, 30 °C) and at 100 s... then 20 rows of 2 s at 40 °C
+    inside = (t > 80) & (t <= 140)
+    dt = np.diff(t, prepend=t[0] - 10.0)
+    expected = np.sum(u[inside] * dt[inside]) / np.sum(dt[inside])
+    assert X["utci_mean_1min"].iloc[-1] == pytest.approx(expected)
+    # minutes in sun over the last minute: all of it, counted by time, not by rows
+    assert X["sun_min_1min"].iloc[-1] == pytest.approx(np.sum(dt[inside]) / 60)
+
+
+def test_duplicate_times_inside_a_walk_do_not_break_the_windows():
+    idx = pd.DatetimeIndex(["2026-07-14 08:00:00", "2026-07-14 08:00:00", "2026-07-14 08:00:01"], tz="UTC",
+                           name=C.TIME)
+    tl = pd.DataFrame({C.WALK_ID: "w", C.UTCI_C: [30.0, 32.0, 34.0]}, index=idx)
+    X = build_features(tl)
+    assert X["utci_mean_1min"].notna().all() and X["utci_ewm_5min"].notna().all()
+    assert X["utci_max_1min"].iloc[-1] == 34.0
