@@ -358,16 +358,18 @@ def _schemes(rng, trees):
     # 2. a shade sail over the middle of the square
     sail = {"id": "c-placa", "name": "shade sail over the square", "polygon": _rect(-26.0, -22.0, 26.0, 22.0),
             "height_m": 4.5, "transmissivity": 0.15}
-    # 3. a counter-scheme: the limes of Passeig Nou pruned hard, two removed
-    passeig = [t for t in trees if t["species"] == "lime"]
-    pruned = [{"target": t["id"], "transmissivity": 0.5} for t in passeig[:12]]
-    removed = [{"target": t["id"]} for t in passeig[12:14]]
+    # 3. a counter-scheme: the limes of Passeig Nou between Carrer Major and Carrer Alt pruned
+    #    hard, two of them removed
+    passeig = [t for t in trees if t["species"] == "lime" and Y_LINES["major"] < t["y"] < Y_LINES["alt"]]
+    gone = {passeig[2]["id"], passeig[len(passeig) // 2 + 2]["id"]}
+    pruned = [{"target": t["id"], "transmissivity": 0.5} for t in passeig if t["id"] not in gone]
+    removed = [{"target": i} for i in sorted(gone)]
     return {
         "trees-costa": {"label": "A row of street trees on Carrer de la Costa",
                         "edits": [("add", "tree", t) for t in costa]},
         "canopy-placa": {"label": "A canopy over Placa del Mercat",
                          "edits": [("add", "canopy", sail)]},
-        "pruned-passeig": {"label": "Passeig Nou limes pruned hard, two removed",
+        "pruned-passeig": {"label": "Passeig Nou limes pruned hard above Carrer Major, two removed",
                            "edits": [("modify", None, e) for e in pruned] + [("remove", None, e) for e in removed]},
     }
 
