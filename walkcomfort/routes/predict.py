@@ -126,8 +126,9 @@ def _physics(timeline: pd.DataFrame) -> pd.DataFrame:
     u = timeline[C.UTCI_C].to_numpy(float)
     cls = physics_rule(u)
     out = pd.DataFrame(index=timeline.index)
+    known = np.isfinite(u)
     for c in C.COMFORT_CLASSES:
-        out[PROBA[c]] = (cls == c).astype(float)
+        out[PROBA[c]] = np.where(known, (cls == c).astype(float), np.nan)  # unknown UTCI: no class, no share
     out[COMFORT_CLASS] = cls
     out[PREDICTOR] = PHYSICS_RULE
     band = timeline[C.UTCI_BAND].astype(str).to_numpy() if C.UTCI_BAND in timeline.columns else [""] * len(u)
