@@ -111,3 +111,4 @@ def test_network_physics_matches_the_timeline_path(demo_dir):
     np.testing.assert_allclose(grid(C.SVF), ref[C.SVF], atol=1e-9)
     np.testing.assert_allclose(grid(C.TMRT_C), ref[C.TMRT_C], atol=0.01)
     np.testing.assert_allclose(grid(C.UTCI_C), ref[C.UTCI_C], atol=0.01)
+    np.testing.assert_array_equal(grid(C.QA_INSIDE_BUILDING) > 0, ref[C.QA_INSIDE_BUILDING].to_numpy(bool))

@@ -164,3 +164,23 @@ def test_tiled_shade_equals_whole_scene_shade_on_a_grid_town():
         np.testing.assert_array_equal(a, b)
         n_shaded += int((b < 1).sum())
     assert n_shaded > 0
+
+
+def test_a_street_point_inside_a_building_is_flagged(tmp_path):
+    from walkcomfort.network.batch import plan_job, time_range
+    from walkcomfort.network.engines import read_segment_hours, run_job
+    from walkcomfort.routes.weather import StatedConditions
+
+    net = network_from_geojson({"type": "FeatureCollection", "features": [_street("s", 0, 0, 100, 0)]},
+                               segment_length_m=50.0)
+    site = {"lat": 0.0, "lon": 3.0, "elev_m": 0.0}
+    scene = {"type": "FeatureCollection", "walkcomfort": {"site": site},
+             "features": [_building("across", 60, -5, 80, 5, 10.0)]}  # built over the second half
+    times = time_range("2026-03-20T11:00", "2026-03-20T12:00", "1h", "UTC")
+    weather = StatedConditions(t_air_c=25.0, rh_pct=50.0, wind_ms=2.0).conditions(times, 0.0, 3.0)
+    weather.attrs = {}
+    job = plan_job(net, times, {"base": scene}, weather, site=site)
+    assert run_job(job, tmp_path).ok
+    rows = read_segment_hours(tmp_path)
+    flagged = rows.groupby(C.SEGMENT_ID)[C.QA_INSIDE_BUILDING].all()
+    assert flagged.to_dict() == {"s#000": False, "s#001": True}

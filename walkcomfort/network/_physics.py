@@ -53,7 +53,7 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
     dict
         Arrays of shape ``(N, T)`` (points x times) or ``(T,)``: ``sun_elev_deg,
         sun_azim_deg, shade_frac, svf, t_air_c, rh_pct, wind_ms, tmrt_c, utci_c,
-        qa_low_sun, qa_utci_out_of_range``.
+        qa_low_sun, qa_utci_out_of_range, qa_inside_building``.
     """
     from walkcomfort.environment import sun as _sun
     from walkcomfort.environment import tmrt as _tmrt
@@ -86,10 +86,13 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
     scene_given = scene
     scene = _scene(part) if scene is None else scene
     low = (elev > 0.0) & (elev < float(ctx["min_sun_elev_deg"]))
+    inside = np.zeros(n, dtype=bool)
     if scene is None:
         trans = np.ones((n, t))
         svf = np.ones(n)
     else:
+        # a street point inside a footprint: the network or the scene (or a scheme) is wrong there
+        inside = np.asarray(scene.inside_buildings(x, y), dtype=bool)
         from walkcomfort.environment import shade as _shade
         from walkcomfort.environment import skyview as _skyview
 
@@ -110,7 +113,8 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
             C.T_AIR_C: t_air, C.RH_PCT: rh, C.WIND_MS: wind, C.TMRT_C: tmrt,
             C.UTCI_C: u[C.UTCI_C].to_numpy(float).reshape(n, t),
             C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool).reshape(n, t),
-            C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy()}
+            C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy(),
+            C.QA_INSIDE_BUILDING: np.broadcast_to(inside[:, None], (n, t)).copy()}
 
 
 #: Sky view factors already computed in this process, by tile content (time chunks of one

@@ -12,7 +12,8 @@ Output rows (one per segment x time x scheme), index ``time`` (UTC):
 
 ``segment_id, scheme, tile_id, sun_elev_deg, sun_azim_deg, shade_frac, svf,
 t_air_c, rh_pct, wind_ms, tmrt_c, utci_c, utci_band, p_comfortable, p_neutral,
-p_uncomfortable, comfort_class, predictor, qa_low_sun, qa_utci_out_of_range, n_points``
+p_uncomfortable, comfort_class, predictor, qa_low_sun, qa_utci_out_of_range,
+qa_inside_building, n_points``
 
 Point values are averaged over the segment's sample points (which stand for equal
 lengths of pavement); the class probabilities are the mean of the points'
@@ -46,7 +47,7 @@ P_COLUMNS = tuple(f"p_{c}" for c in C.COMFORT_CLASSES)
 #: Columns of a partition's result (after the index ``time``), in this order.
 ROW_COLUMNS = (C.SEGMENT_ID, "scheme", C.TILE_ID, C.SUN_ELEV_DEG, C.SUN_AZIM_DEG, C.SHADE_FRAC, C.SVF,
                C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.TMRT_C, C.UTCI_C, C.UTCI_BAND, *P_COLUMNS,
-               "comfort_class", "predictor", C.QA_LOW_SUN, C.QA_UTCI_RANGE, "n_points")
+               "comfort_class", "predictor", C.QA_LOW_SUN, C.QA_UTCI_RANGE, C.QA_INSIDE_BUILDING, "n_points")
 
 
 @dataclass(eq=False)
