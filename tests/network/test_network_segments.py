@@ -6,6 +6,8 @@ import json
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
@@ -114,3 +116,32 @@ def test_third_coordinate_is_ground_elevation_interpolated_to_the_points():
     seg = net.segments.loc["up#000"]
     assert (seg["elev_start_m"], seg["elev_end_m"]) == (100.0, 110.0)
     assert net.points.loc[net.points[C.SEGMENT_ID] == "flat#000", C.ELEV_M].isna().all()
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.floats(-300, 300), st.floats(-300, 300)), min_size=2, max_size=8),
+       st.floats(10.0, 120.0), st.floats(2.0, 30.0))
+def test_cutting_keeps_the_length_and_the_stated_bounds(vertices, seg_len, spacing):
+    lonlat = [[3.0 + x / 111_319.49, y / 110_574.0] for x, y in vertices]
+    feats = [_line("s", lonlat)]
+    try:
+        net = network_from_geojson({"type": "FeatureCollection", "features": feats}, segment_length_m=seg_len,
+                                   spacing_m=spacing)
+    except InputError:  # every vertex the same point: a zero-length street, refused with a message
+        return
+    seg = net.segments
+    total = float(seg["length_m"].sum())
+    # from the definition: cutting neither adds nor loses length (the line measured on its own in UTM)
+    from pyproj import Transformer
+
+    x, y = Transformer.from_crs("EPSG:4326", net.crs, always_xy=True).transform(*np.array(lonlat).T)
+    whole = float(np.hypot(np.diff(x), np.diff(y)).sum())
+    assert total == pytest.approx(whole, rel=1e-9, abs=1e-6)
+    if len(seg) > 1:
+        assert seg["length_m"].between(0.75 * seg_len - 1e-6, 1.25 * seg_len + 1e-6).all()
+    else:
+        assert total < 1.5 * seg_len + 1e-6
+    # every point stands for length / n_points of its segment, and lies on it
+    assert (net.points.groupby(C.SEGMENT_ID).size() == seg["n_points"]).all()
+    assert (seg["length_m"] / seg["n_points"] <= spacing + 1e-9).all()
+    assert all(len(g) >= 2 for g in seg["geometry_xy"])

@@ -17,8 +17,9 @@ network. Open-data street exports are commonly in this form; rename their id
 property to ``id`` before use.
 
 Every street is cut into segments close to a stated length (a street of length
-``D`` becomes ``max(1, round(D / L))`` equal pieces, so pieces are between about
-``2L/3`` and ``1.5L`` and no stub is left at the end) and every segment is
+``D`` becomes ``max(1, round(D / L))`` equal pieces: a street shorter than ``1.5L``
+stays whole, longer ones give pieces between ``0.75L`` and ``1.25L``, and no stub
+is left at the end) and every segment is
 sampled at the midpoints of ``ceil(length / spacing)`` equal sub-intervals, so a
 segment's points represent equal lengths of pavement.
 
