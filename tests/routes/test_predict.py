@@ -205,3 +205,26 @@ def test_simulate_walk_has_the_recorded_timeline_columns(street, scene):
     assert tl.attrs["session"]["wind_height_m"] == 10.0 and tl.attrs["session"]["timezone"] == TZ
     assert (tl[C.TMRT_SOURCE] == "fluxes").all() and tl[C.UTCI_C].notna().all()
     assert tl[C.PARTICIPANT].eq("simulated").all() and tl.index.is_monotonic_increasing
+
+
+def test_along_route_sections_show_where_a_scheme_helps(street, scene):
+    from walkcomfort.routes.compare import along_route
+
+    r = load_route(street, crs=scene.crs)
+    # trees on the first half of the street only
+    half = tree_row_scheme()
+    half = _scheme_named_half([e for e in half.edits if e["geometry"]["coordinates"][0] <= _street_lon(55.0)])
+    res = compare_schemes(r, [half], parse_departures("2026-07-15T17:00", timezone=TZ), HOT, scene=scene)
+    a = res.along[res.along["scheme"] == "half"].set_index("from_m")
+    assert list(a.index) == [0.0, 50.0, 100.0]
+    assert a.loc[0.0, "to_m"] == 50.0 and a.loc[100.0, "to_m"] == pytest.approx(r.length_m)
+    assert a.loc[0.0, "delta_mean_utci_c"] < -2.0 and a.loc[0.0, "delta_shade_share"] > 0.5
+    assert a.loc[100.0, "delta_mean_utci_c"] == pytest.approx(0.0, abs=0.05)
+    base = res.along[res.along["scheme"] == "base"]
+    assert (base["delta_mean_utci_c"] == 0).all()
+    with pytest.raises(InputError):
+        along_route(res.points, section_m=0)
+
+
+def _scheme_named_half(edits):
+    return scheme_from_geojson({"type": "FeatureCollection", "walkcomfort": {"scheme": "half"}, "features": edits})

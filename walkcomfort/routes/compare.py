@@ -137,6 +137,47 @@ def compare_to_base(summary: pd.DataFrame, base: str = BASE) -> pd.DataFrame:
     return others.reset_index(drop=True)
 
 
+#: Length of the route sections in :func:`along_route` [m].
+SECTION_M = 50.0
+
+
+def along_route(points: pd.DataFrame, section_m: float = SECTION_M, base: str = BASE) -> pd.DataFrame:
+    """Where along the route each scheme helps: sections of ``section_m``, averaged over departures.
+
+    Returns
+    -------
+    DataFrame
+        One row per ``route_id × scheme × section``: ``from_m, to_m`` [m], the
+        time-weighted ``mean_utci_c`` [°C], ``shade_share`` [-] (sun up) and
+        ``exp_share_comfortable`` [-] over all departures, and ``delta_<col>`` against the
+        base (NaN when there is no base).
+    """
+    if not section_m > 0:
+        raise InputError(f"section length {section_m!r} m is not positive", fix="give e.g. 50 m")
+    df = points
+    dt = df[STEP_S].to_numpy(float)
+    sun_up = df[C.SUN_ELEV_DEG].to_numpy(float) > 0 if C.SUN_ELEV_DEG in df.columns else np.ones(len(df), bool)
+    shade = (np.nan_to_num(df[C.SHADE_FRAC].to_numpy(float)) >= SHADE_STATE_FRAC) & sun_up
+    sec = np.floor(df[C.DIST_M].to_numpy(float) / section_m).astype(int)
+    w = pd.DataFrame({ROUTE_ID: df[ROUTE_ID].to_numpy(), SCHEME: df[SCHEME].to_numpy(), "section": sec, "dt": dt,
+                      "u": df[C.UTCI_C].to_numpy(float) * dt, "sh": shade * dt, "up": sun_up * dt,
+                      "pc": df[PROBA["comfortable"]].to_numpy(float) * dt})
+    g = w.groupby([ROUTE_ID, SCHEME, "section"], sort=True)
+    total = g["dt"].sum()
+    up = g["up"].sum()
+    out = pd.DataFrame({"mean_utci_c": g["u"].sum() / total,
+                        "shade_share": (g["sh"].sum() / up).where(up > 0, 0.0),
+                        "exp_share_comfortable": g["pc"].sum() / total}).reset_index()
+    out.insert(3, "from_m", out["section"] * section_m)
+    length = df.groupby(ROUTE_ID)[C.DIST_M].max()
+    out.insert(4, "to_m", np.minimum((out["section"] + 1) * section_m, length.reindex(out[ROUTE_ID]).to_numpy()))
+    b = out[out[SCHEME] == base].set_index([ROUTE_ID, "section"])
+    key = pd.MultiIndex.from_frame(out[[ROUTE_ID, "section"]])
+    for col in ("mean_utci_c", "shade_share", "exp_share_comfortable"):
+        out[f"delta_{col}"] = out[col].to_numpy() - (b[col].reindex(key).to_numpy(float) if len(b) else np.nan)
+    return out.drop(columns="section")
+
+
 def best_departures(summary: pd.DataFrame) -> pd.DataFrame:
     """The best departure of each route × scheme in a sweep.
 
@@ -205,6 +246,7 @@ class Comparison:
     comparison : non-base schemes against the base, with differences
     best : best departure per route × scheme
     cost : cost-effectiveness per route × scheme
+    along : sections of the route, each scheme against the base
     inventories : what each scheme adds (dict per scheme)
     notices : things to tell the user
     """
@@ -214,6 +256,7 @@ class Comparison:
     comparison: pd.DataFrame
     best: pd.DataFrame
     cost: pd.DataFrame
+    along: pd.DataFrame = field(default_factory=pd.DataFrame)
     inventories: dict = field(default_factory=dict)
     notices: list = field(default_factory=list)
 
@@ -272,7 +315,8 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
     best = best_departures(summary)
     cost = cost_effectiveness(comparison, inventories)
     points.attrs["notices"] = list(points.attrs.get("notices", [])) + notices
-    return Comparison(points, summary, comparison, best, cost, inventories, list(points.attrs["notices"]))
+    return Comparison(points, summary, comparison, best, cost, along_route(points), inventories,
+                      list(points.attrs["notices"]))
 
 
 def _scene_coverage_notices(route: Route, scene, margin_m: float = 50.0) -> list[str]:

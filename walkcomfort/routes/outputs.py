@@ -8,7 +8,7 @@ Layout of ``OUT/``::
     points.parquet  points.csv  points.geojson     per-point prediction table
     summary.parquet summary.csv                    one row per route x scheme x departure
     comparison.csv                                 schemes against the base (differences)
-    best_departures.csv  cost_effectiveness.csv
+    best_departures.csv  cost_effectiveness.csv  along_route.csv (50 m sections vs the base)
     summary.md  summary.html                       the same in words and tables
     comfort_along_route.png                        one panel per scheme
     provenance.json
@@ -29,7 +29,7 @@ from walkcomfort.routes.predict import PHYSICS_RULE
 from walkcomfort.routes.simulate import DEPARTURE
 
 FILES = ("points.parquet", "points.csv", "points.geojson", "summary.parquet", "summary.csv", "comparison.csv",
-         "best_departures.csv", "cost_effectiveness.csv", "summary.md", "summary.html", "comfort_along_route.png",
+         "best_departures.csv", "cost_effectiveness.csv", "along_route.csv", "summary.md", "summary.html", "comfort_along_route.png",
          "provenance.json")
 
 
@@ -130,6 +130,14 @@ def summary_markdown(result: Comparison, timezone: str | None = None, title: str
         lines += ["## What each scheme adds, and what it buys", "",
                   "Gain = expected comfortable minutes per walk over the base, averaged over departures.", "",
                   markdown_table(result.cost, COST_COLS), ""]
+    along = result.along
+    if len(along) and "delta_mean_utci_c" in along.columns and along["delta_mean_utci_c"].notna().any():
+        lines += ["## Where along the route", "",
+                  "The three sections of the route where each scheme lowers mean UTCI most (all departures).", ""]
+        others = along[along["scheme"] != "base"].dropna(subset=["delta_mean_utci_c"])
+        top = others.sort_values(["scheme", "delta_mean_utci_c"], kind="stable").groupby("scheme").head(3)
+        lines += [markdown_table(top, ["scheme", "from_m", "to_m", "delta_mean_utci_c", "delta_shade_share",
+                                       "delta_exp_share_comfortable"]), ""]
     lines += ["Minutes [min]; shares 0…1; UTCI [°C]; heat dose = time integral of UTCI above 26 °C [°C·min].", ""]
     return "\n".join(lines)
 
@@ -213,6 +221,7 @@ def write_outputs(result: Comparison, out_dir, provenance: dict, timezone: str |
     written["comparison.csv"] = _io.write_csv(out / "comparison.csv", result.comparison, index=False)
     written["best_departures.csv"] = _io.write_csv(out / "best_departures.csv", result.best, index=False)
     written["cost_effectiveness.csv"] = _io.write_csv(out / "cost_effectiveness.csv", result.cost, index=False)
+    written["along_route.csv"] = _io.write_csv(out / "along_route.csv", result.along, index=False)
     md = summary_markdown(result, timezone=timezone)
     written["summary.md"] = _io.atomic_write_text(out / "summary.md", md)
     written["summary.html"] = _io.atomic_write_text(out / "summary.html", summary_html(md))
