@@ -81,7 +81,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         rv = cli.main(args=args, prog_name="walkcomfort", standalone_mode=False)
         # click returns (not raises) a verb's ``click.exceptions.Exit`` code when not standalone
-        if isinstance(rv, int) and rv:
+        if isinstance(rv, int) and not isinstance(rv, bool) and rv:
             return rv
     except click.exceptions.Abort:
         click.echo("error: aborted.", err=True)
