@@ -52,8 +52,14 @@ def test_one_session_regenerates_byte_identical(tmp_path, session_id):
 def test_whole_folder_regenerates_byte_identical_to_the_committed_one(tmp_path):
     """The committed demo_walks is what the code makes. If this fails after a change to the simulator,
     the environment physics or a writer, regenerate (`walkcomfort demo --regenerate`) and commit demo_walks."""
+    from walkcomfort.cli import main
+
     prov = _prov()
-    scenario.generate_demo(tmp_path / "dw", seed=prov["seed"], n_walkers=prov["n_walkers"])
+    # through the command a user types: regenerate into a new folder, then ingest it
+    assert main(["demo", "--regenerate", "--seed", str(prov["seed"]), "--demo-dir", str(tmp_path / "dw"),
+                 "--out", str(tmp_path / "out"), "--only", "ingest"]) == 0
+    assert len(list((tmp_path / "out" / "timelines").glob("*/timeline.parquet"))) == len(
+        json.loads((_demo() / "truth" / "sessions.json").read_text()))
     again = json.loads((tmp_path / "dw" / "provenance.json").read_text())
     stale = sorted(k for k in set(prov["files"]) | set(again["files"])
                    if prov["files"].get(k) != again["files"].get(k))
