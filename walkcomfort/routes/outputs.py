@@ -135,9 +135,15 @@ def summary_markdown(result: Comparison, timezone: str | None = None, title: str
         lines += ["## Where along the route", "",
                   "The three sections of the route where each scheme lowers mean UTCI most (all departures).", ""]
         others = along[along["scheme"] != "base"].dropna(subset=["delta_mean_utci_c"])
-        top = others.sort_values(["scheme", "delta_mean_utci_c"], kind="stable").groupby("scheme").head(3)
-        lines += [markdown_table(top, ["scheme", "from_m", "to_m", "delta_mean_utci_c", "delta_shade_share",
-                                       "delta_exp_share_comfortable"]), ""]
+        cooler = others[others["delta_mean_utci_c"] < -0.05]
+        top = cooler.sort_values(["scheme", "delta_mean_utci_c"], kind="stable").groupby("scheme").head(3)
+        if len(top):
+            lines += [markdown_table(top, ["scheme", "from_m", "to_m", "delta_mean_utci_c", "delta_shade_share",
+                                           "delta_exp_share_comfortable"]), ""]
+        unchanged = sorted(set(others["scheme"]) - set(cooler["scheme"]))
+        if unchanged:
+            lines += [f"No section of this route is cooler by more than 0.05 °C under: {', '.join(unchanged)} "
+                      "(the scheme does not reach this route, or not at these times).", ""]
     lines += ["Minutes [min]; shares 0…1; UTCI [°C]; heat dose = time integral of UTCI above 26 °C [°C·min].", ""]
     return "\n".join(lines)
 
