@@ -186,3 +186,20 @@ def test_recorded_walk_through_ingest_and_thermal_recovers_the_truth(sid):
     assert (j["utci_c"] - j["utci_true_c"]).abs().median() < 1.5
     shade = j["shade_frac"] > 0.5
     assert j.loc[shade, "utci_c"].mean() < j.loc[~shade, "utci_c"].mean()
+
+
+def test_road_noise_falls_off_as_a_line_source():
+    # incoherent line source: −10·log10(d2/d1) dB, i.e. 3.01 dB per doubling of distance (common practice)
+    y10, y20 = T.RONDA_Y + 10.0, T.RONDA_Y + 20.0
+    assert T.road_laeq_db(0.0, y10, 12.0) - T.road_laeq_db(0.0, y20, 12.0) == pytest.approx(10 * np.log10(2), abs=1e-9)
+    # behind the first row of buildings another 6 dB of screening
+    far = T.RONDA_Y + T.RONDA_FACADE_M + 20.0
+    assert T.road_laeq_db(0.0, far, 12.0) == pytest.approx(
+        T.ROAD_LAEQ_10M_DB - 10 * np.log10((far - T.RONDA_Y) / 10) - 6.0 + (T.road_laeq_db(0.0, y10, 12.0) - T.ROAD_LAEQ_10M_DB))
+
+
+def test_invented_day_has_its_stated_extremes():
+    h = np.linspace(0, 24, 24 * 60 + 1)
+    t = S.diurnal_t_air_c(h)
+    assert h[np.argmin(t)] == pytest.approx(6.0, abs=0.02) and t.min() == pytest.approx(21.5)
+    assert h[np.argmax(t)] == pytest.approx(15.5, abs=0.02) and t.max() == pytest.approx(32.5)

@@ -14,7 +14,6 @@ The layout is a function of a seed only: the same seed always gives the same tow
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -535,7 +534,3 @@ def scheme_summary(town: Town, scheme_id: str) -> dict:
             "modified": sum(1 for e, _, _ in edits if e == "modify"),
             "removed": sum(1 for e, _, _ in edits if e == "remove")}
 
-
-def compass(x0, y0, x1, y1) -> float:
-    """Heading from (x0, y0) to (x1, y1) [°], 0 = north, clockwise."""
-    return math.degrees(math.atan2(x1 - x0, y1 - y0)) % 360.0
