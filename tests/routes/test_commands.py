@@ -113,3 +113,12 @@ def test_route_with_a_model_bundle_and_walker(files, tmp_path):
                  "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5", "-o", str(out)]) == 2
     # the synthetic model was fitted with a noise meter on most walks: a planned walk has none, and says so
     assert "cannot supply" in md
+
+
+def test_actual_year_flag_refuses_dates_outside_the_file(tmp_path, greensboro_tmy3, capsys):
+    route = tmp_path / "gso.geojson"
+    route.write_text(json.dumps({"type": "Feature", "properties": {},
+                                 "geometry": {"type": "LineString", "coordinates": [[-79.94, 36.08], [-79.939, 36.08]]}}))
+    code = main(["route", str(route), "--weather", str(greensboro_tmy3), "--actual-year",
+                 "--depart", "2026-07-09T15:00-04:00", "-o", str(tmp_path / "o")])
+    assert code == 2 and "outside the period" in capsys.readouterr().err

@@ -38,6 +38,8 @@ def _common(f):
         click.option("--route-id", default=None, help="Which line of the route file, if it holds several."),
         click.option("--dem", type=click.Path(path_type=Path), default=None,
                      help="DEM raster for elevations (needs: pip install rasterio)."),
+        click.option("--actual-year", is_flag=True,
+                     help="The weather file is an actual (not typical) year: walks must fall within its dates."),
         click.option("--max-station-km", type=float, default=50.0, show_default=True,
                      help="Refuse a weather file whose station is farther from the route [km]."),
         click.option("--logger-wind-height", type=float, default=None,
@@ -54,7 +56,8 @@ def _common(f):
 def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_path=None, timezone=None,
                    weather_path=None, conditions=None, design_day=None, season=None, model_path=None,
                    spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
-                   logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None):
+                   logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None,
+                   actual_year=False):
     """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
 
     Returns
@@ -82,7 +85,8 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     if schemes and scene is None:
         raise InputError(f"scheme '{schemes[0].name}' edits a scene, but no scene was given", where=scheme_paths[0],
                          fix="give the base scene with --scene")
-    weather = open_weather(weather_path, parse_conditions(conditions), typical=True, max_distance_km=max_station_km,
+    weather = open_weather(weather_path, parse_conditions(conditions), typical=not actual_year,
+                           max_distance_km=max_station_km,
                            wind_height_m=logger_wind_height)
     day = None
     chosen = None
