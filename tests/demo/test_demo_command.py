@@ -43,7 +43,7 @@ def test_a_missing_stage_is_skipped_with_its_reason(tmp_path, small_demo, monkey
     run = pipeline.run_demo(tmp_path / "o", demo_dir=small_demo, echo=lines.append)
     assert run.ok
     assert run.stage("ingest").status == "ran"
-    for name in ("frames", "thermal", "fit", "compare", "map", "report"):
+    for name in ("frames", "thermal", "fit", "compare", "network", "map", "report"):
         s = run.stage(name)
         assert s.status == "skipped" and s.detail
     assert any("skipped" in line for line in lines)

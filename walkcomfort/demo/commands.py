@@ -8,7 +8,8 @@ import click
 
 
 @click.command(help="Run the whole chain on the invented demo town (demo_walks/): ingest, frame cues, "
-                    "thermal environment, model fit, route comparison under shade schemes, map and reports, "
+                    "thermal environment, model fit, route comparison under shade schemes, the street network, "
+                    "map and reports, "
                     "as far as those stages exist. The data are invented; the outputs are not design advice.")
 @click.option("-o", "--out", "out_dir", type=click.Path(file_okay=False, path_type=Path),
               default=Path("walkcomfort-out"), show_default=True, help="Output folder (one sub-folder per stage).")
@@ -18,7 +19,7 @@ import click
               help="Regenerate the scenario from its seed first (byte-identical for the same seed).")
 @click.option("--seed", type=int, default=None, help="Seed for --regenerate (default: the scenario's own).")
 @click.option("--only", "only", multiple=True,
-              type=click.Choice(["ingest", "frames", "thermal", "fit", "compare", "map", "report"]),
+              type=click.Choice(["ingest", "frames", "thermal", "fit", "compare", "network", "map", "report"]),
               help="Run only this stage (repeatable).")
 def demo(out_dir, demo_dir, regenerate, seed, only):
     from walkcomfort.demo.pipeline import CAUTION, run_demo, summary_lines

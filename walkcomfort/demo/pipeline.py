@@ -27,6 +27,7 @@ CAUTION = ("Caution: the demo data are INVENTED (an invented town, invented walk
 
 ROUTES = ("estacio-escola", "mercat-parc")
 DEPARTURES = ("09:00", "19:00", "2h")     # local clock times on the design day, every 2 h
+NETWORK_HOURS = ("13:00", "17:00", "2h")  # the network batch: three afternoon hours
 
 
 @dataclass
@@ -136,6 +137,7 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
         "thermal": out / "thermal",
         "model": out / "model",
         "routes": out / "routes",
+        "network": out / "network",
         "map": out / "map",
         "reports": out / "reports",
     }
@@ -218,7 +220,20 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
 
     attempt("compare", "compare", lambda: "", compare_args, lambda: [paths["routes"] / r for r in ROUTES])
 
-    # 6. the HTML map (planned routes per scheme, recorded walks) and the session and model reports
+    # 6. the whole street network, a few afternoon hours, base and the schemes (in this process)
+    def network_args():
+        from walkcomfort.demo.scenario import DESIGN_DAY
+        from walkcomfort.demo.town import TIMEZONE
+
+        model = ["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []
+        return [[str(demo / "streets.geojson"), "--scene", str(demo / "scene.geojson"), *schemes,
+                 "--weather", str(demo / "weather" / "design-day.csv"), "--logger-wind-height", "1.1",
+                 "--start", f"{DESIGN_DAY}T{NETWORK_HOURS[0]}", "--end", f"{DESIGN_DAY}T{NETWORK_HOURS[1]}",
+                 "--step", NETWORK_HOURS[2], "--timezone", TIMEZONE, *model, "--out", str(paths["network"])]]
+
+    attempt("network", "network", lambda: "", network_args, lambda: [paths["network"]])
+
+    # 7. the HTML map (planned routes per scheme, recorded walks) and the session and model reports
     routes_done = lambda: [paths["routes"] / r for r in ROUTES if (paths["routes"] / r).is_dir()]  # noqa: E731
     walks = paths["thermal"] if _timelines_in(paths["thermal"]) else paths["timelines"]
     attempt("map", "map", lambda: "" if routes_done() or _timelines_in(walks) else "nothing to map yet",

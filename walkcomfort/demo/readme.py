@@ -129,7 +129,8 @@ history-aware model; a logistic regression on current thermal conditions sits in
 `walkcomfort demo [--out DIR]` runs, in this process, each stage's own command on this folder:
 `ingest` (with the sensor-lag correction the manifests' time constants allow) → `frames` →
 `thermal` (with `scene.geojson`) → `fit` → `compare` (routes `estacio-escola` and `mercat-parc`,
-every scheme, departures every 2 h on {S_DAY} with `weather/design-day.csv`) → `map` → `report`,
+every scheme, departures every 2 h on {S_DAY} with `weather/design-day.csv`) → `network` (every
+street segment of `streets.geojson`, three afternoon hours, every scheme) → `map` → `report`,
 skipping a stage whose module is missing, and prints where each output went.
 Regeneration is byte-identical for the same seed and the same library versions (the JPEG
 encoder and the physics libraries shape the bytes).
