@@ -313,6 +313,8 @@ class DaskEngine:
                     exc.__traceback__ = fut.traceback()
                     outcome.error = _error_text(exc)
                     outcome.attempts = self.retries + 1
+                elif fut.status != "finished":  # cancelled: the scheduler or its workers went away
+                    outcome.error = f"the task was {fut.status} by the Dask scheduler (workers lost?)"
                 else:
                     if self.write_on == "workers":
                         n_rows, w_s = fut.result()
