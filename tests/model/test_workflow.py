@@ -31,3 +31,12 @@ def test_comfort_fit_reports_groups_and_summary(small_table, tmp_path):
     html = write_fit_outputs(res, tmp_path / "b")["report"].read_text()
     assert "In plain words" in html and "never seen that walker" in html
     assert "<script" not in html
+
+
+def test_planned_feature_set_leaves_out_sensor_only_features(small_table):
+    from walkcomfort.model.features import FEATURE_SETS, SENSOR_ONLY_FEATURES
+
+    res = fit_table(small_table, n_splits=3, n_estimators=10, n_boot=0, feature_set="planned")
+    names = set(res.model.feature_names_in_)
+    assert names == set(FEATURE_SETS["planned"]) and not names & set(SENSOR_ONLY_FEATURES)
+    assert res.settings["feature_set"] == "planned"

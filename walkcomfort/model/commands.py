@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from walkcomfort.model.classifier import PRESETS, TARGETS
+from walkcomfort.model.features import FEATURE_SETS
 
 
 @click.command(help="Fit the comfort model on labelled timelines; validate it on walkers it never saw.\n\n"
@@ -28,14 +29,16 @@ from walkcomfort.model.classifier import PRESETS, TARGETS
 @click.option("--threads", type=int, default=1, show_default=True, help="LightGBM threads (fixed for reproducibility).")
 @click.option("--bootstrap", type=int, default=200, show_default=True,
               help="Walker resamples for the calibration intervals (0: none).")
-def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap):
+@click.option("--feature-set", type=click.Choice(list(FEATURE_SETS)), default="all", show_default=True,
+              help="'planned' leaves out sound, light and camera features, which planned routes cannot supply.")
+def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap, feature_set):
     from walkcomfort.model.workflow import campaign_table, fit_table, format_metrics, write_fit_outputs
 
     table, files, _ = campaign_table(timelines, target=target)
     click.echo(f"{len(table.y)} votes from {len(set(map(str, table.groups)))} walkers in {len(files)} timelines"
                + (f"; {len(table.quarantine)} votes set aside (see the report)" if len(table.quarantine) else ""))
     result = fit_table(table, preset=preset, n_splits=folds, n_estimators=rounds, seed=seed, n_jobs=threads,
-                       n_boot=bootstrap, inputs=[str(f) for f in files])
+                       n_boot=bootstrap, inputs=[str(f) for f in files], feature_set=feature_set)
     paths = write_fit_outputs(result, out)
     click.echo(f"cross-validated ({result.cv.scheme}):")
     click.echo(format_metrics(result.cv.metrics))
@@ -66,7 +69,7 @@ def evaluate(bundle, timelines, cross):
         s = (manifest.get("extra") or {}).get("settings", {})
         cv = cross_validate(table, n_splits=s.get("n_splits"), preset=s.get("preset", model.preset),
                             n_estimators=s.get("n_estimators"), random_state=s.get("seed", 0),
-                            n_jobs=s.get("n_jobs", 1))
+                            n_jobs=s.get("n_jobs", 1), features=list(model.feature_names_in_))
         click.echo(f"cross-validated ({cv.scheme}):")
         click.echo(format_metrics(cv.metrics))
         return

@@ -107,6 +107,19 @@ def _declare_all() -> tuple[str, ...]:
 #: The declared feature list, in model order.
 FEATURES: tuple[str, ...] = _declare_all()
 
+#: Features only a recorded walk can have (sound meter, light meter, camera): NaN on every
+#: point of a planned (simulated) walk.
+SENSOR_ONLY_FEATURES: tuple[str, ...] = (C.LAEQ_DB, "leq_1min", "leq_5min", "leq_10min", "log_illum",
+                                         "log_illum_mean_1min", "sky_frac_1min", "green_frac_1min",
+                                         "people_n_1min")
+
+#: Named feature sets: "all" for recorded walks; "planned" for a model meant to predict along
+#: planned routes (without the sensor-only features, so it never leans on missing branches there).
+FEATURE_SETS: dict[str, tuple[str, ...]] = {
+    "all": FEATURES,
+    "planned": tuple(f for f in FEATURES if f not in SENSOR_ONLY_FEATURES),
+}
+
 
 def build_features(timeline: pd.DataFrame, participants: dict | None = None) -> pd.DataFrame:
     """One feature row per timeline row, from current conditions and look-back windows.

@@ -88,20 +88,23 @@ def _strip(m: dict) -> dict:
 
 def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None = None,
               n_estimators: int | None = None, seed: int = 0, n_jobs: int = 1, n_boot: int = 200,
-              progress: bool | None = None, inputs=()) -> FitResult:
-    """Grouped CV of the history model and baselines, final fit on all votes, calibration analysis."""
+              progress: bool | None = None, inputs=(), feature_set: str = "all") -> FitResult:
+    """Grouped CV of the history model and baselines, final fit on all votes, calibration analysis.
+
+    ``feature_set`` names one of :data:`walkcomfort.model.features.FEATURE_SETS`.
+    """
     from walkcomfort.model.calibration import local_calibration
     from walkcomfort.model.classifier import ComfortClassifier
-    from walkcomfort.model.features import FEATURES
 
     if len(table.y) == 0:
         raise InputError("the timelines hold no usable votes", fix="ingest sessions with a votes source")
+    features = feature_list(feature_set)
     settings = {"preset": preset, "n_splits": n_splits, "n_estimators": n_estimators, "seed": seed,
-                "n_jobs": n_jobs, "target": table.target, "n_boot": n_boot}
+                "n_jobs": n_jobs, "target": table.target, "n_boot": n_boot, "feature_set": feature_set}
     cv = cross_validate(table, n_splits=n_splits, progress=progress, preset=preset, n_estimators=n_estimators,
-                        random_state=seed, n_jobs=n_jobs)
+                        random_state=seed, n_jobs=n_jobs, features=features)
     model = ComfortClassifier(preset=preset, target=table.target, n_estimators=n_estimators,
-                              features=list(FEATURES), random_state=seed, n_jobs=n_jobs)
+                              features=features, random_state=seed, n_jobs=n_jobs)
     model.fit(table.X, table.y, groups=table.groups)
     in_sample = score_model(model, table, cv.labels)
     per_walker = group_scores(cv.y, cv.pred["history"], cv.groups)
@@ -121,6 +124,15 @@ def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None 
                                     progress=progress)
     return FitResult(model=model, table=table, cv=cv, in_sample=in_sample, per_walker=per_walker,
                      per_group=per_group, calibration=calibration, settings=settings, inputs=list(inputs))
+
+
+def feature_list(feature_set: str) -> list[str]:
+    from walkcomfort.model.features import FEATURE_SETS
+
+    if feature_set not in FEATURE_SETS:
+        raise InputError(f"feature set {feature_set!r} is not known; allowed: {', '.join(FEATURE_SETS)}",
+                         fix="use 'all' for recorded walks or 'planned' for predictions along planned routes")
+    return list(FEATURE_SETS[feature_set])
 
 
 def score_model(model, table: TrainingTable, labels=None) -> dict:
