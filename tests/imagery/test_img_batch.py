@@ -92,7 +92,7 @@ def test_worker_processes_give_the_same_result(tmp_path, make_street):
 
 
 def test_large_jpeg_is_analysed_at_the_analysis_width(tmp_path, make_street):
-    rgb, truth = make_street(h=1440, w=1920)
+    rgb, truth = make_street(h=960, w=1280)
     Image.fromarray(rgb).save(tmp_path / "big.jpg", quality=92)
     img = batch.load_frame(tmp_path / "big.jpg", max_width=batch.ANALYSIS_WIDTH)
     assert img.shape == (480, 640, 3)

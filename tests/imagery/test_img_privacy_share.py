@@ -192,7 +192,7 @@ def test_share_command(tmp_path, session_with_face, capsys):
     secret.write_bytes(SECRET)
     out = tmp_path / "shared"
     code = main(["share", str(session_with_face), "-o", str(out), "--secret-file", str(secret),
-                 "--trim-radius", "50", "--no-blur"])
+                 "--trim-radius", "50", "--no-blur", "--workers", "1"])
     assert code == 0
     text = capsys.readouterr().out
     assert "track points trimmed" in text and "ethics approval" in text
