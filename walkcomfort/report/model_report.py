@@ -194,6 +194,12 @@ def write_model_report(result, out_html: str | os.PathLike) -> Path:
         cal_text.append(f"No {cal.get('level', 0.8):.0%} acceptable range: {rng_.get('note', 'no comfort votes')}.")
     cal_text.append("For comparison, the UTCI assessment scale calls 9 … 26 °C 'no thermal stress' "
                     "(Bröde et al. 2012, doi:10.1007/s00484-011-0454-1).")
+    ref_hi = cal["reference_band_c"][1]
+    if np.isfinite(rng_.get("upper_c", np.nan)) and not rng_.get("upper_open"):
+        diff = rng_["upper_c"] - ref_hi
+        cal_text.append(f"The upper end found here lies {abs(diff):.1f} °C {'above' if diff >= 0 else 'below'} "
+                        f"that band's {ref_hi:g} °C edge; a local range describes these walkers on these days, "
+                        "not a safe limit.")
 
     metric_df = pd.DataFrame(metrics_rows(m), columns=list(METRICS_HEADER))
     insample_df = pd.DataFrame(metrics_rows({"history": result.in_sample},
