@@ -148,6 +148,9 @@ def test_share_writes_a_clean_copy_that_passes_check(tmp_path, session_with_face
     assert entry["points_kept"] + entry["points_removed_near_ends"] + entry["points_removed_without_time"] == \
         entry["points_read"]
     assert shared.creator == "walkcomfort share" and not shared.waypoints
+    # heart rate (health data) is not shared unless asked for
+    assert "hr>" not in (folder / "gps" / "track.gpx").read_text(encoding="utf-8")
+    assert entry["point_extensions_removed"] == entry["points_kept"]
 
     # the face is blurred, the frame keeps only its time tags
     fr = record["frames"]
@@ -179,7 +182,9 @@ def test_share_writes_a_clean_copy_that_passes_check(tmp_path, session_with_face
 def test_share_refuses_to_write_inside_the_session_or_over_a_copy(tmp_path, session_with_face):
     with pytest.raises(InputError, match="inside the session folder"):
         share_session(session_with_face, session_with_face / "shared", SECRET)
-    folder, _ = share_session(session_with_face, tmp_path / "out", SECRET, radius_m=50.0, blur_faces=False)
+    folder, _ = share_session(session_with_face, tmp_path / "out", SECRET, radius_m=50.0, blur_faces=False,
+                              keep_extensions=True)
+    assert "hr>" in (folder / "gps" / "track.gpx").read_text(encoding="utf-8")
     with pytest.raises(InputError, match="already exists"):
         share_session(session_with_face, tmp_path / "out", SECRET, radius_m=50.0, blur_faces=False)
     with pytest.raises(InputError, match="every point"):

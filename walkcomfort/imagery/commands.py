@@ -131,11 +131,13 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
 @click.option("--trim-radius", "radius_m", type=click.FloatRange(min=0), default=200.0, show_default=True,
               help="Remove track points and frames within this distance of the start and end [m].")
 @click.option("--keep-notes", is_flag=True, help="Keep free-text notes (votes, sync events); default: emptied.")
+@click.option("--keep-extensions", is_flag=True,
+              help="Keep GPX point extensions (heart rate is health data); default: removed.")
 @click.option("--plates", is_flag=True, help="Also blur licence-plate-like regions.")
 @click.option("--no-blur", is_flag=True, help="Do not blur faces (only for copies that stay within the team).")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
               help="Worker processes for the face blurring [default: the usable cores].")
-def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, plates, no_blur, workers):
+def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, keep_extensions, plates, no_blur, workers):
     """Write a shareable copy of session folder(s): pseudonyms, track ends trimmed, faces blurred.
 
     The raw session is never modified. Each copy holds share_record.json, the list of
@@ -153,7 +155,8 @@ def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, plates, no_b
     try:
         for d in sessions:
             folder, rec = share_session(d, out_dir, secret, radius_m=radius_m, keep_notes=keep_notes,
-                                        blur_faces=not no_blur, plates=plates, pool=pool)
+                                        keep_extensions=keep_extensions, blur_faces=not no_blur, plates=plates,
+                                        pool=pool)
             fr = rec["frames"]
             trimmed = sum(v.get("points_removed_near_ends", 0) for v in rec["files"].values()
                           if v.get("kind") == "gps")

@@ -16,7 +16,8 @@ GPS track
     Points within ``radius_m`` of the first or last fix removed
     (:func:`~walkcomfort.imagery.privacy.trim_mask`), and points without a time;
     GPX: author, names, descriptions, links, waypoints and routes removed, the
-    ``creator`` replaced; CSV: comment and preamble lines removed.
+    ``creator`` replaced, point extensions (heart rate is health data) removed unless
+    ``keep_extensions``; CSV: comment and preamble lines removed.
 Frames
     Frames taken where the walker was within ``radius_m`` of the start or end — or
     where their position cannot be told (outside the track's time span) — are not
@@ -70,7 +71,8 @@ CAUTION = ("Face blurring uses cascade detectors that miss small, turned or shad
 
 
 def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, secret: bytes, *,
-                  radius_m: float = TRIM_RADIUS_M, keep_notes: bool = False, blur_faces: bool = True,
+                  radius_m: float = TRIM_RADIUS_M, keep_notes: bool = False, keep_extensions: bool = False,
+                  blur_faces: bool = True,
                   plates: bool = False, face_params: _faces.FaceParams | None = None,
                   verify: bool = True, progress: bool | None = None, workers: int = 1,
                   pool=None) -> tuple[Path, dict]:
@@ -89,6 +91,9 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
         Trimming radius around the first and last GPS fix [m].
     keep_notes : bool
         Keep free-text notes of votes and sync events (default: emptied).
+    keep_extensions : bool
+        Keep the GPX point extensions (heart rate, device temperature). Default: removed —
+        heart rate is health data, which data-protection law treats with extra care.
     blur_faces : bool
         Blur detected faces in the frames (default True; turn off only when the frames
         will not leave the team).
@@ -135,6 +140,7 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
         "pseudonyms": {"method": "HMAC-SHA256 with the project secret; 'P-'/'S-' + first 10 hex digits",
                        "replaced": ["session.id", "session.participant", "votes participant"]},
         "parameters": {"trim_radius_m": float(radius_m), "keep_notes": bool(keep_notes),
+                       "keep_extensions": bool(keep_extensions),
                        "blur_faces": bool(blur_faces), "plates": bool(plates)},
         "files": {},
         "caution": CAUTION,
@@ -146,7 +152,7 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
         copied: set[str] = {MANIFEST_NAME}
         for s in spec.sources:
             if s.kind == "gps":
-                record["files"][s.path] = _share_gps(s, spec, stage, radius_m)
+                record["files"][s.path] = _share_gps(s, spec, stage, radius_m, keep_extensions)
                 copied.add(s.path)
         for s in spec.sources:
             if s.kind == "votes":
@@ -201,16 +207,16 @@ def _verify(stage: Path) -> None:
 # --- GPS ---------------------------------------------------------------------------------------
 
 
-def _share_gps(s, spec, stage: Path, radius_m: float) -> dict:
+def _share_gps(s, spec, stage: Path, radius_m: float, keep_extensions: bool = False) -> dict:
     if s.format == "gpx":
-        text, entry = _trim_gpx(s.abs_path.read_bytes().decode("utf-8-sig"), radius_m, s.display)
+        text, entry = _trim_gpx(s.abs_path.read_bytes().decode("utf-8-sig"), radius_m, s.display, keep_extensions)
     else:
         text, entry = _trim_gps_csv(s, spec, radius_m)
     _io.atomic_write_text(stage / s.path, text)
     return entry
 
 
-def _trim_gpx(text: str, radius_m: float, where: str):
+def _trim_gpx(text: str, radius_m: float, where: str, keep_extensions: bool = False):
     import gpxpy
     import gpxpy.gpx
 
@@ -233,6 +239,7 @@ def _trim_gpx(text: str, radius_m: float, where: str):
         raise InputError(f"every point of the track lies within {radius_m:g} m of its start or end", where=where,
                          fix="use a smaller --trim-radius, or do not share this session")
     keep_ids = {id(p) for (_, _, _, p), d in zip(pts, drop) if not d}
+    n_ext = 0
     for trk in gpx.tracks:
         for seg in trk.segments:
             seg.points = [p for p in seg.points if id(p) in keep_ids]
@@ -240,6 +247,9 @@ def _trim_gpx(text: str, radius_m: float, where: str):
                 for attr in ("name", "comment", "description", "source", "link", "link_text", "link_type", "symbol"):
                     if hasattr(p, attr):
                         setattr(p, attr, None)
+                if not keep_extensions and p.extensions:
+                    n_ext += 1
+                    p.extensions = []
         trk.segments = [seg for seg in trk.segments if seg.points]
         for attr in ("name", "comment", "description", "source", "link", "link_text", "link_type"):
             setattr(trk, attr, None)
@@ -254,7 +264,7 @@ def _trim_gpx(text: str, radius_m: float, where: str):
     keep = ~drop
     entry = {"kind": "gps", "points_read": len(pts), "points_removed_near_ends": n_near,
              "points_removed_without_time": n_no_time, "points_kept": int(keep.sum()),
-             "waypoints_removed": n_wpt, "routes_removed": n_rte,
+             "waypoints_removed": n_wpt, "routes_removed": n_rte, "point_extensions_removed": n_ext,
              "metadata_removed": ["author", "names", "descriptions", "links", "keywords", "creator"]}
     return gpx.to_xml(version=gpx.version or "1.1"), entry
 
