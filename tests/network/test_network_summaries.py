@@ -64,3 +64,25 @@ def test_geojson_summary_and_small_map_layer():
     assert "d_comfortable_h" not in base_layer["features"][0]["properties"]
     with pytest.raises(Exception, match="not in the summary"):
         network_layer(full, "canopy")
+
+
+def test_tile_by_tile_summary_equals_the_whole_summary(tmp_path):
+    from walkcomfort.network.batch import time_range, plan_job
+    from walkcomfort.network.engines import read_segment_hours, run_job
+    from walkcomfort.network.summaries import summary_from_results
+    from walkcomfort.network.synthetic import grid_scene
+    from walkcomfort.routes.weather import StatedConditions
+
+    net = network_from_geojson(grid_network(3, 3, block_m=100.0), segment_length_m=50.0)
+    times = time_range("2026-07-14T15:00", "2026-07-14T18:00", "1h", "Europe/Madrid")
+    scene = grid_scene(3, 3)
+    fewer = {**scene, "features": scene["features"][:2]}
+    site = scene["walkcomfort"]["site"]
+    weather = StatedConditions(t_air_c=30.0, rh_pct=40.0, wind_ms=2.0).conditions(times, site["lat"], site["lon"])
+    weather.attrs = {}
+    job = plan_job(net, times, {"base": scene, "fewer": fewer}, weather, tile_size_m=120.0, time_chunk=2, site=site)
+    assert len({p.tile_id for p in job.partitions}) > 2
+    assert run_job(job, tmp_path).ok
+    whole = segment_summary(read_segment_hours(tmp_path))
+    pd.testing.assert_frame_equal(summary_from_results(tmp_path), whole)
+    assert whole.xs("fewer", level="scheme")["d_mean_utci_c"].max() > 0  # fewer buildings: less shade, hotter

@@ -95,8 +95,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
 def write_outputs(out_dir, network, job, report) -> dict:
     """Summaries next to the batch rows: per-segment Parquet, GeoJSON, quarantined features."""
     from walkcomfort import _io
-    from walkcomfort.network.engines import read_segment_hours
-    from walkcomfort.network.summaries import segment_summary, summary_geojson
+    from walkcomfort.network.summaries import summary_from_results, summary_geojson
 
     out_dir = Path(out_dir)
     written = {}
@@ -104,8 +103,7 @@ def write_outputs(out_dir, network, job, report) -> dict:
         written["quarantine"] = _io.write_csv(out_dir / QUARANTINE_CSV, network.quarantine, index=False)
     if not report.ok:
         return written
-    rows = read_segment_hours(out_dir)
-    summary = segment_summary(rows)
+    summary = summary_from_results(out_dir)
     meta = {"job_digest": job.digest, "parameters": job.parameters}
     written["summary"] = _io.write_parquet(out_dir / SUMMARY_PARQUET, summary, meta)
     written["geojson"] = _io.write_json(out_dir / SUMMARY_GEOJSON, summary_geojson(summary, network))

@@ -114,6 +114,38 @@ def segment_summary(rows: pd.DataFrame, base: str = BASE, step_h: float | None =
     return out
 
 
+def summary_from_results(out_dir, base: str = BASE, step_h: float | None = None) -> pd.DataFrame:
+    """:func:`segment_summary` of a batch's results, read one tile at a time.
+
+    A segment belongs to one tile, so summarising tile by tile (every scheme and time
+    chunk of the tile together) gives exactly the whole summary while holding only one
+    tile's rows in memory — a city's month of rows never has to fit at once.
+    """
+    from pathlib import Path
+
+    import pyarrow.parquet as pq
+
+    from walkcomfort.network.engines import RESULTS_DIR
+
+    root = Path(out_dir) / RESULTS_DIR
+    tiles = sorted({p.name for p in root.glob(f"scheme=*/{C.TILE_ID}=*")})
+    if not tiles:
+        raise InputError(f"no batch results under '{root}'", where=root,
+                         fix="run the network batch first (walkcomfort network ...)")
+    parts = []
+    for tile in tiles:
+        frames = []
+        for f in sorted(root.glob(f"scheme=*/{tile}/part-c*.parquet")):
+            df = pq.read_table(f).to_pandas()
+            df.insert(1, "scheme", f.parent.parent.name.split("=", 1)[1])
+            frames.append(df)
+        rows = pd.concat(frames)
+        if step_h is None:
+            step_h = time_step_h(rows)
+        parts.append(segment_summary(rows, base=base, step_h=step_h))
+    return pd.concat(parts).sort_index()
+
+
 def _props(values: pd.Series, ndigits: int = 2) -> dict:
     out = {}
     for k, v in values.items():
