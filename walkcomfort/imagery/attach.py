@@ -44,7 +44,10 @@ ADDED_COLUMNS = VALUE_COLUMNS + STATUS_COLUMNS + (C.FRAME_AGE_S,)
 
 
 def _norm(path) -> str:
-    return str(path).replace("\\", "/").lstrip("./") if isinstance(path, str) else str(path)
+    s = str(path).replace("\\", "/")
+    while s.startswith("./"):
+        s = s[2:]
+    return s
 
 
 def _frame_times(timeline: pd.DataFrame, cues: pd.DataFrame, walk: pd.Series | None) -> pd.DataFrame:

@@ -49,7 +49,8 @@ _FALSE = {"false", "0", "no", "n", "f"}
 
 
 def _key(path: str) -> str:
-    return PurePosixPath(str(path).replace("\\", "/")).as_posix().lstrip("./")
+    # PurePosixPath drops "./" parts and doubled slashes; backslashes are Windows separators
+    return PurePosixPath(str(path).replace("\\", "/")).as_posix()
 
 
 def read_frame_labels(path: str | os.PathLike, frames: pd.DataFrame | None = None, *,
