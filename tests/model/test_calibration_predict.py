@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 import pytest
 
 from walkcomfort.model.calibration import acceptable_range, bin_votes, local_calibration, neutral_utci

@@ -5,11 +5,13 @@ from __future__ import annotations
 import json
 
 import numpy as np
+import pytest
 
 from walkcomfort.model.evaluate import training_table
 from walkcomfort.model.workflow import fit_table, format_metrics, write_fit_outputs
 
 
+@pytest.mark.slow
 def test_seven_point_target_fits_validates_and_reports(small_campaign, tmp_path):
     table = training_table(small_campaign, target="tsv")
     res = fit_table(table, n_splits=3, n_estimators=20, n_boot=0)
