@@ -67,3 +67,13 @@ def test_top_reasons_are_words_about_the_point(fitted, small_table):
     assert "_" not in flat  # no raw feature names
     imp = importance_table(fitted)
     assert imp["share"].sum() == pytest.approx(1.0) and imp["gain"].is_monotonic_decreasing
+
+
+def test_reason_wording_for_units():
+    from walkcomfort.model.explain import _describe
+
+    assert _describe("sun_streak_min", 5.0) == "5.0 min in full sun before this point"
+    assert _describe("sky_frac_1min", 0.25).endswith("25 %")
+    assert _describe("log_illum", np.log10(10001.0)).endswith("10,000 lx")
+    assert _describe("utci_c", 31.26) == "UTCI here 31.3 °C"
+    assert _describe("heat_dose_10min", 42.4) == "heat dose 42 °C·min above UTCI 26 °C in the last 10 min"

@@ -63,8 +63,11 @@ def _describe(name: str, value: float) -> str:
         return f"here is {-value:.1f} °C hotter (UTCI) than the last {w} min"
     if name == "age_band_lower":
         return f"age band from {value:.0f} years"
-    if unit in ("-",) and name.endswith("_frac"):
+    if unit == "-" and "_frac" in name:
         return f"{text} {100 * value:.0f} %"
+    if unit == "log10 lx":
+        lux = 10.0 ** value - 1.0
+        return f"{text.replace(' (log10 lux)', '')} {lux:,.0f} lx"
     digits = 0 if unit in ("°C·min", "dB(A)", "%") else 1
     unit_text = "" if unit in ("-", "") else f" {unit}"
     return f"{text} {value:.{digits}f}{unit_text}"
@@ -103,7 +106,11 @@ def top_reasons(model, X: pd.DataFrame, n: int = 3, classes=None, contrib: np.nd
     for i in range(len(contrib)):
         row = contrib[i, cls_idx[i], :-1]
         order = np.argsort(-row, kind="stable")
-        reasons = [_describe(names[j], values[i, j]) for j in order[:n] if row[j] > 0]
+        # a missing sensor value can push a prediction too (LightGBM's missing branch), but
+        # "not measured" explains little: measured reasons first, missing ones only to fill up
+        measured = [j for j in order if row[j] > 0 and np.isfinite(values[i, j])]
+        missing = [j for j in order if row[j] > 0 and not np.isfinite(values[i, j])]
+        reasons = [_describe(names[j], values[i, j]) for j in (measured + missing)[:n]]
         out.append(reasons)
     return out
 
