@@ -350,3 +350,38 @@ def test_many_walks_share_one_votes_layer():
     assert [w["walk"] for w in data["walks"]] == [f"w{i}" for i in range(len(walks))]
     few = R.route_map(walks=walks[:2], layers=("votes",))
     assert [html.unescape(lay.layer_name) for lay in _layers(few)] == ["Votes · w0", "Votes · w1"]
+
+
+_HOSTILE = ["<", ">", "&", "'", '"', "`", "\\", "${", "</script", "<!--", "-->", "\u2028", "\u2029", "<img src=x onerror=",
+            "javascript:", "\x00", "]]>", "</style>", "\ufeff"]
+
+
+@pytest.mark.slow
+def test_any_note_or_label_stays_data():
+    # fuzz: whatever a participant types or a scheme is called, the page's markup does not change
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    text = st.lists(st.one_of(st.sampled_from(_HOSTILE), st.text(max_size=6)), max_size=8).map("".join)
+
+    base_tags = None
+
+    @settings(max_examples=15, deadline=None, derandomize=True)
+    @given(note=text, label=text)
+    def check(note, label):
+        nonlocal base_tags
+        fmap = R.route_map(S.predictions(schemes=("trees",), departures=("2026-07-14T07:00Z",), n=20),
+                           schemes=[S.scheme(label=label or "x")], walks=[S.timeline(n=320, note=note)],
+                           layers=("comfort", "votes"))
+        page = R.render_map_html(fmap)
+        tags = [t for t, _ in _tags(page)]
+        if base_tags is None:
+            base_tags = tags
+        assert tags == base_tags  # same elements, in the same order, whatever the text
+        # the JSON payloads still parse and carry the text exactly
+        data = _payloads(fmap)
+        walk = [d for d in data if "walks" in d][0]["walks"][0]
+        assert (note or None) in walk["votes"]["note"]
+        assert any(d.get("label", "").startswith(label or "x") for d in data)
+
+    check()
