@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 
+import pandas as pd
 import pytest
 
 from walkcomfort import _io
@@ -60,3 +61,34 @@ def test_fit_without_thermal_columns_is_a_one_line_error(tmp_path, capsys):
     assert main(["fit", str(tmp_path / "t"), "-o", str(tmp_path / "b")]) == 2
     err = capsys.readouterr().err
     assert "utci_c" in err and "walkcomfort thermal" in err and len(err.strip().splitlines()) == 1
+
+
+def test_fit_refuses_a_single_walker_or_no_votes(tmp_path, capsys):
+    camp = synthetic_campaign(n_participants=1, walks_per_participant=2, duration_s=600, vote_every_s=60, seed=2)
+    for wid, df in camp.groupby("walk_id"):
+        _io.write_parquet(tmp_path / "one" / wid / "timeline.parquet", df,
+                          {"session": {"walk_id": wid, "participant": "P01"}})
+    assert main(["fit", str(tmp_path / "one"), "-o", str(tmp_path / "b")]) == 2
+    assert "at least 2 walkers" in capsys.readouterr().err
+    silent = camp[camp["walk_id"] == "P01-w1"].assign(vote_comfort=pd.NA)
+    _io.write_parquet(tmp_path / "none" / "P01-w1" / "timeline.parquet", silent,
+                      {"session": {"walk_id": "P01-w1", "participant": "P01"}})
+    assert main(["fit", str(tmp_path / "none"), "-o", str(tmp_path / "c")]) == 2
+    assert "no usable votes" in capsys.readouterr().err
+    assert not (tmp_path / "b").exists() and not (tmp_path / "c").exists()
+
+
+@pytest.mark.slow
+def test_evaluate_on_walkers_the_bundle_never_saw(timeline_dir, tmp_path, capsys):
+    train = tmp_path / "train"
+    for p in sorted(timeline_dir.iterdir()):
+        if not p.name.startswith("P05"):
+            (train / p.name).mkdir(parents=True)
+            (train / p.name / "timeline.parquet").write_bytes((p / "timeline.parquet").read_bytes())
+    assert main(["fit", str(train), "-o", str(tmp_path / "b"), "--folds", "2", "--rounds", "20",
+                 "--bootstrap", "0"]) == 0
+    capsys.readouterr()
+    held_out = [str(p) for p in sorted(timeline_dir.iterdir()) if p.name.startswith("P05")]
+    assert main(["evaluate", str(tmp_path / "b"), *held_out]) == 0
+    out = capsys.readouterr().out
+    assert "from 1 walker in" in out and "in-sample" not in out and "bundle model on these votes" in out

@@ -10,6 +10,15 @@ from walkcomfort.model.classifier import PRESETS, TARGETS
 from walkcomfort.model.features import FEATURE_SETS
 
 
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _counts(table, files) -> str:
+    return (f"{_plural(len(table.y), 'vote')} from {_plural(len(set(map(str, table.groups))), 'walker')} "
+            f"in {_plural(len(files), 'timeline')}")
+
+
 @click.command(help="Fit the comfort model on labelled timelines; validate it on walkers it never saw.\n\n"
                     "TIMELINES are timeline.parquet files, walk folders or output folders of "
                     "`walkcomfort thermal` (OUT/<walk_id>/timeline.parquet). Writes the bundle "
@@ -35,7 +44,7 @@ def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap,
     from walkcomfort.model.workflow import campaign_table, fit_table, format_metrics, write_fit_outputs
 
     table, files, _ = campaign_table(timelines, target=target)
-    click.echo(f"{len(table.y)} votes from {len(set(map(str, table.groups)))} walkers in {len(files)} timelines"
+    click.echo(_counts(table, files)
                + (f"; {len(table.quarantine)} votes set aside (see the report)" if len(table.quarantine) else ""))
     result = fit_table(table, preset=preset, n_splits=folds, n_estimators=rounds, seed=seed, n_jobs=threads,
                        n_boot=bootstrap, inputs=[str(f) for f in files], feature_set=feature_set)
@@ -63,7 +72,7 @@ def evaluate(bundle, timelines, cross):
     model = load_bundle(bundle)
     manifest = model.manifest_
     table, files, _ = campaign_table(timelines, target=model.target)
-    click.echo(f"{len(table.y)} votes from {len(set(map(str, table.groups)))} walkers in {len(files)} timelines")
+    click.echo(_counts(table, files))
     same = table.digest == manifest.get("training_digest")
     if cross:
         s = (manifest.get("extra") or {}).get("settings", {})
