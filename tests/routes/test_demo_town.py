@@ -33,3 +33,13 @@ def test_compare_on_the_demo_market_route(demo_dir, tmp_path):
     assert cost.loc["pruned-passeig", "trees_removed"] == 2
     gj = json.loads((out / "points.geojson").read_text())
     assert {f["properties"]["scheme"] for f in gj["features"]} == {"base", "canopy-placa", "pruned-passeig"}
+
+
+def test_demo_route_reads_the_same_from_gpx_and_geojson(demo_dir):
+    from walkcomfort.routes.geometry import load_route
+
+    a = load_route(demo_dir / "routes" / "estacio-escola.geojson")
+    b = load_route(demo_dir / "routes" / "estacio-escola.gpx")
+    assert a.length_m == pytest.approx(b.length_m, abs=0.01)
+    assert a.points["elev_m"].to_numpy() == pytest.approx(b.points["elev_m"].to_numpy(), abs=0.05)
+    assert a.elevation_source == b.elevation_source == "file"
