@@ -146,3 +146,16 @@ def test_bad_inputs():
         SR.load_session("/nonexistent/walk")
     with pytest.raises(InputError, match="IANA"):
         SR.session_report_html(w, {}, timezone="Nowhere/Land")
+
+
+def test_scene_is_drawn_under_the_track():
+    from zoneinfo import ZoneInfo
+
+    w = S.timeline()
+    plain = SR.track_figure(w, ZoneInfo("UTC"))
+    with_scene = SR.track_figure(w, ZoneInfo("UTC"), S.scene())
+    # the invented scene has one building, one tree crown and one canopy near the track
+    assert len(plain.axes[0].patches) == 0
+    assert len(with_scene.axes[0].patches) == 3
+    with pytest.raises(InputError, match="not valid JSON"):
+        SR.session_report_html(w, {}, scene=__file__)

@@ -210,7 +210,9 @@ def _model_report(bundle: Path, out: Path) -> Path:
               help="Output: an .html file (one input) or a folder; default beside each input.")
 @click.option("--timezone", default=None, help="IANA zone for local times (default: each session's own).")
 @click.option("--title", default=None, help="Page title (one input only).")
-def report(paths, out, timezone, title):
+@click.option("--scene", "scene_path", type=click.Path(path_type=Path), default=None,
+              help="Scene GeoJSON drawn under each walk's track in the session reports.")
+def report(paths, out, timezone, title, scene_path):
     """Write HTML reports: a session report for each walk, a model report for a model bundle.
 
     PATHS are walk folders / timeline.parquet from 'walkcomfort ingest' (or 'thermal'), folders
@@ -240,5 +242,5 @@ def report(paths, out, timezone, title):
             target = out if single_file else (out / folder.name / SESSION_REPORT_FILE if out
                                               else folder / SESSION_REPORT_FILE)
             written = write_session_report(src if src.name != TIMELINE_FILE else folder, out_html=target,
-                                           title=title, timezone=timezone)
+                                           title=title, timezone=timezone, scene=scene_path)
         click.echo(f"wrote {written}")

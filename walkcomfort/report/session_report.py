@@ -303,8 +303,35 @@ def timeseries_figure(df: pd.DataFrame, zone, title: str = ""):
     return fig
 
 
-def track_figure(df: pd.DataFrame, zone):
-    """Small map of the track (equirectangular, metres scale bar) coloured by UTCI, votes on top."""
+def _draw_scene(ax, scene_gj: dict, lon0: float, lat0: float, kx: float, ky: float, extent) -> None:
+    """Buildings, canopies and tree crowns of a scene GeoJSON under the track (display only)."""
+    from matplotlib.patches import Circle, Polygon
+
+    (x0, x1), (y0, y1) = extent
+    for feat in scene_gj.get("features", []):
+        props = feat.get("properties") or {}
+        geom = feat.get("geometry") or {}
+        kind = props.get("kind", "building")
+        colour = P.SCENE_COLOURS.get(kind, P.MISSING_COLOUR)
+        if geom.get("type") == "Point":
+            lon, lat = geom["coordinates"][:2]
+            cx, cy = (lon - lon0) * kx, (lat - lat0) * ky
+            if x0 <= cx <= x1 and y0 <= cy <= y1:
+                r = float(props.get("crown_radius_m") or 2.0)
+                ax.add_patch(Circle((cx, cy), r, facecolor=colour, edgecolor="none", alpha=0.45, zorder=0))
+        elif geom.get("type") in ("Polygon", "MultiPolygon"):
+            polys = [geom["coordinates"]] if geom["type"] == "Polygon" else geom["coordinates"]
+            for poly in polys:
+                ring = np.asarray(poly[0], dtype=float)[:, :2]
+                xy = np.c_[(ring[:, 0] - lon0) * kx, (ring[:, 1] - lat0) * ky]
+                if xy[:, 0].max() < x0 or xy[:, 0].min() > x1 or xy[:, 1].max() < y0 or xy[:, 1].min() > y1:
+                    continue
+                ax.add_patch(Polygon(xy, closed=True, facecolor=colour, edgecolor="#555555", lw=0.3,
+                                     alpha=0.5, zorder=0))
+
+
+def track_figure(df: pd.DataFrame, zone, scene: dict | None = None):
+    """Small map of the track (local metres) coloured by UTCI, votes on top, the scene underneath if given."""
     ok = df[C.LAT].notna() & df[C.LON].notna()
     tr = df[ok]
     lat0 = float(tr[C.LAT].mean())
@@ -335,6 +362,10 @@ def track_figure(df: pd.DataFrame, zone):
                    edgecolor=P.HALO_COLOUR, linewidth=1.0, zorder=4)
     ax.scatter([x[0]], [y[0]], marker="^", s=60, color="#ffffff", edgecolor="#000000", zorder=5, label="start")
     ax.scatter([x[-1]], [y[-1]], marker="s", s=50, color="#000000", zorder=5, label="end")
+    if scene is not None:
+        pad = 30.0
+        extent = ((x.min() - pad, x.max() + pad), (y.min() - pad, y.max() + pad))
+        _draw_scene(ax, scene, float(tr[C.LON].mean()), lat0, kx, ky, extent)
     ax.set_aspect("equal", adjustable="datalim")
     ax.set_xlabel("east [m]", fontsize=8)
     ax.set_ylabel("north [m]", fontsize=8)
@@ -380,7 +411,7 @@ def quarantine_counts(qa: dict, quarantine: pd.DataFrame | None) -> pd.DataFrame
 
 
 def session_report_html(data: pd.DataFrame, qa: dict, quarantine: pd.DataFrame | None = None,
-                        title: str | None = None, timezone: str | None = None) -> str:
+                        title: str | None = None, timezone: str | None = None, scene=None) -> str:
     """The session report page as a string (see :func:`write_session_report`)."""
     from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
@@ -469,7 +500,7 @@ def session_report_html(data: pd.DataFrame, qa: dict, quarantine: pd.DataFrame |
     parts.append(f'<img class="plot" alt="Time series of air temperature, Tmrt, UTCI, noise, light, speed and '
                  f'elevation with votes" src="data:image/png;base64,{_png(ts)}">')
     if C.LAT in data.columns and C.LON in data.columns and data[[C.LAT, C.LON]].notna().all(axis=1).sum() >= 2:
-        tf = track_figure(data, zone)
+        tf = track_figure(data, zone, _scene_geojson(scene))
         parts.append(f'<img class="map" alt="Map of the track coloured by UTCI with the votes" '
                      f'src="data:image/png;base64,{_png(tf)}">')
 
@@ -525,8 +556,17 @@ img.plot{width:100%;height:auto}img.map{max-width:560px;width:100%;height:auto}
 """
 
 
+def _scene_geojson(scene) -> dict | None:
+    if scene is None:
+        return None
+    from walkcomfort.report.routemap import _load_geojson
+
+    return _load_geojson(scene, "scene")[0]
+
+
 def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "session_report.html", *,
-                         quarantine=None, title: str | None = None, timezone: str | None = None) -> Path:
+                         quarantine=None, title: str | None = None, timezone: str | None = None,
+                         scene=None) -> Path:
     """Write the HTML session report of one walk (atomically).
 
     Parameters
@@ -544,6 +584,8 @@ def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "sessi
         Page title (default "Session <walk_id>").
     timezone : str, optional
         IANA zone for local times (default the session's zone).
+    scene : path, dict or Scene, optional
+        Scene GeoJSON drawn under the track in the small map.
 
     Returns
     -------
@@ -551,5 +593,5 @@ def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "sessi
         The written file.
     """
     data, qa_d, quar = load_session(timeline, qa, quarantine)
-    page = session_report_html(data, qa_d, quar, title=title, timezone=timezone)
+    page = session_report_html(data, qa_d, quar, title=title, timezone=timezone, scene=scene)
     return atomic_write_text(out_html, page)
