@@ -89,6 +89,15 @@ def _run_verb(verb: str, args: list[str], echo: Callable[[str], None]) -> None:
     cli.main(args=[verb, *args], prog_name="walkcomfort", standalone_mode=False, obj={"verbose": False})
 
 
+def _fit_has_option(name: str) -> bool:
+    """Whether the model stage's fit command takes an option (stages grow while the demo runs them)."""
+    try:
+        from walkcomfort.model.commands import fit
+    except ImportError:
+        return False
+    return any(name in p.opts for p in fit.params)
+
+
 def _timelines_in(folder: Path) -> list[Path]:
     return sorted(folder.glob("*/timeline.parquet")) if folder.is_dir() else []
 
@@ -136,6 +145,7 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
         "frames": out / "frames",
         "thermal": out / "thermal",
         "model": out / "model",
+        "model_planned": out / "model-planned",
         "routes": out / "routes",
         "network": out / "network",
         "map": out / "map",
@@ -199,16 +209,29 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
             lambda: [paths["thermal"]])
     have_thermal = lambda: "" if _timelines_in(paths["thermal"]) else "no timelines with UTCI (thermal did not run)"  # noqa: E731
 
-    # 4. comfort model, validated on walkers it never saw
-    attempt("fit", "fit", have_thermal,
-            lambda: [[str(paths["thermal"]), "-o", str(paths["model"])]],
-            lambda: [paths["model"]])
+    # 4. comfort model, validated on walkers it never saw: one on every feature (for the recorded
+    #    walks and the model report) and one on what a planned walk can supply (no sound, light or
+    #    camera), which the route and network predictions use
+    def fit_args():
+        runs = [[str(paths["thermal"]), "-o", str(paths["model"])]]
+        if _fit_has_option("--feature-set"):
+            runs.append([str(paths["thermal"]), "-o", str(paths["model_planned"]), "--feature-set", "planned"])
+        return runs
+
+    attempt("fit", "fit", have_thermal, fit_args,
+            lambda: [p for p in (paths["model"], paths["model_planned"]) if p.is_dir()])
+
+    def route_model():
+        for p in (paths["model_planned"], paths["model"]):
+            if (p / "manifest.json").is_file():
+                return ["--model", str(p)]
+        return []
 
     # 5. planned routes under each shade scheme, on the invented design day
     schemes = [a for p in sorted((demo / "schemes").glob("*.geojson")) for a in ("--scheme", str(p))]
 
     def compare_args():
-        model = ["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []
+        model = route_model()
         from walkcomfort.demo.scenario import DESIGN_DAY
         from walkcomfort.demo.town import TIMEZONE
 
@@ -225,7 +248,7 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
         from walkcomfort.demo.scenario import DESIGN_DAY
         from walkcomfort.demo.town import TIMEZONE
 
-        model = ["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []
+        model = route_model()
         return [[str(demo / "streets.geojson"), "--scene", str(demo / "scene.geojson"), *schemes,
                  "--weather", str(demo / "weather" / "design-day.csv"), "--logger-wind-height", "1.1",
                  "--start", f"{DESIGN_DAY}T{NETWORK_HOURS[0]}", "--end", f"{DESIGN_DAY}T{NETWORK_HOURS[1]}",
