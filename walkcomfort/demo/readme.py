@@ -128,7 +128,8 @@ history-aware model; a logistic regression on current thermal conditions sits in
 
 `walkcomfort demo [--out DIR]` runs, in this process, each stage's own command on this folder:
 `ingest` (with the sensor-lag correction the manifests' time constants allow) → `frames` →
-`thermal` (with `scene.geojson`) → `fit` → `compare` (routes `estacio-escola` and `mercat-parc`,
+`thermal` (with `scene.geojson`) → `fit` (one model on every feature, one on what a planned walk
+can supply, used for the routes and the network) → `compare` (routes `estacio-escola` and `mercat-parc`,
 every scheme, departures every 2 h on {S_DAY} with `weather/design-day.csv`) → `network` (every
 street segment of `streets.geojson`, three afternoon hours, every scheme) → `map` → `report`,
 skipping a stage whose module is missing, and prints where each output went.
