@@ -84,6 +84,7 @@ def test_unusable_votes_are_quarantined_not_dropped(small_campaign):
     t = training_table(tl)
     assert len(t.y) + len(t.quarantine) == len(rows)
     assert t.quarantine["row"].tolist() == [int(rows[3])] and "meh" in t.quarantine["raw"].tolist()
+    assert t.quarantine["walk_id"].iloc[0] == tl["walk_id"].iloc[rows[3]]
 
 
 @pytest.mark.slow

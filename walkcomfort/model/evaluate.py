@@ -59,7 +59,9 @@ class TrainingTable:
 
 
 def vote_column(target: str) -> str:
-    return C.VOTE_COMFORT if check_target(target) and target == "comfort" else C.VOTE_TSV
+    """The timeline column holding the votes of ``target``."""
+    check_target(target)
+    return C.VOTE_COMFORT if target == "comfort" else C.VOTE_TSV
 
 
 def training_table(timeline: pd.DataFrame, target: str = "comfort", features: pd.DataFrame | None = None,
@@ -86,18 +88,20 @@ def training_table(timeline: pd.DataFrame, target: str = "comfort", features: pd
         num = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
         ok = ~np.isnan(num) & (np.round(num) == num) & (np.abs(num) <= 3)
     good = np.flatnonzero(voted & ok)
-    bad = [(int(r), str(raw.iloc[r]), f"vote not one of {', '.join(map(str, allowed))}")
-           for r in np.flatnonzero(voted & ~ok)]
+    walks_all = (timeline[C.WALK_ID].astype("string").fillna("").to_numpy(dtype=object)
+                 if C.WALK_ID in timeline.columns else np.full(len(timeline), "walk", dtype=object))
+    # the row number alone means little in a stacked campaign: keep the walk and time with it
+    bad = [(int(r), walks_all[r], timeline.index[r].isoformat(), str(raw.iloc[r]),
+            f"vote not one of {', '.join(map(str, allowed))}") for r in np.flatnonzero(voted & ~ok)]
     y = labels_from_votes(raw.iloc[good].to_numpy(), target) if len(good) else np.array([], dtype=object)
-    walk = (timeline[C.WALK_ID].astype("string").fillna("").to_numpy(dtype=object)[good]
-            if C.WALK_ID in timeline.columns else np.full(len(good), "walk", dtype=object))
+    walk = walks_all[good]
     if C.PARTICIPANT in timeline.columns:
         grp = timeline[C.PARTICIPANT].astype("string").to_numpy(dtype=object, na_value=None)[good]
         grp = np.where(pd.isna(grp), walk, grp)
     else:
         grp = walk
     attrs = participant_attributes(timeline, participants).iloc[good]
-    quarantine = pd.DataFrame(bad, columns=["row", "raw", "reason"])
+    quarantine = pd.DataFrame(bad, columns=["row", C.WALK_ID, "time", "raw", "reason"])
     quarantine.insert(0, "source", where)
     tsv = None
     if C.VOTE_TSV in timeline.columns:
