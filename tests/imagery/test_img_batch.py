@@ -85,8 +85,8 @@ def test_worker_processes_give_the_same_result(tmp_path, make_street):
     # enough frames to use the pool (spawned workers take a couple of seconds to start)
     n = batch.MIN_FRAMES_FOR_POOL + 6
     frames, _ = _write_frames(tmp_path / "camera", make_street, n)
-    serial, _ = batch.compute_frame_cues(frames, tmp_path, workers=1)
-    pooled, meta = batch.compute_frame_cues(frames, tmp_path, workers=2)
+    serial, _ = batch.compute_frame_cues(frames, tmp_path, workers=1, detect_people=False)
+    pooled, meta = batch.compute_frame_cues(frames, tmp_path, workers=2, detect_people=False)
     pd.testing.assert_frame_equal(serial, pooled)
     assert meta["counts"]["computed"] == n
 
@@ -127,3 +127,20 @@ def test_people_are_not_counted_on_bad_frames(tmp_path, make_street):
     cues, _ = batch.compute_frame_cues([tmp_path / "sharp.png", tmp_path / "blurred.png"], workers=1)
     assert cues[C.FRAME_OK].tolist() == [True, False]
     assert cues[C.PEOPLE_N].iloc[0] == 0 and pd.isna(cues[C.PEOPLE_N].iloc[1])
+
+
+@pytest.mark.slow
+def test_broken_worker_pool_falls_back_to_this_process(tmp_path, make_street):
+    import multiprocessing as mp
+    import os
+    from concurrent.futures import ProcessPoolExecutor
+
+    n = batch.MIN_FRAMES_FOR_POOL
+    frames, _ = _write_frames(tmp_path / "camera", make_street, n)
+    dead = ProcessPoolExecutor(max_workers=1, mp_context=mp.get_context("spawn"), initializer=os.abort)
+    try:
+        with pytest.warns(RuntimeWarning, match="worker processes failed"):
+            cues, meta = batch.compute_frame_cues(frames, tmp_path, detect_people=False, pool=dead)
+    finally:
+        dead.shutdown()
+    assert len(cues) == n and meta["counts"]["computed"] == n

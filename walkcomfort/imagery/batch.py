@@ -30,6 +30,7 @@ import hashlib
 import json
 import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable, Sequence
@@ -42,11 +43,11 @@ from walkcomfort._io import file_digest, to_json_text, write_json
 from walkcomfort._progress import track
 from walkcomfort.errors import InputError
 from walkcomfort.imagery.cues import CueParams, frame_cues
-from walkcomfort.imagery.people import PeopleParams, count_people
+from walkcomfort.imagery.people import MIN_SOURCE_WIDTH, PeopleParams, count_people
 from walkcomfort.imagery.quality import QualityParams, quality_flags
 
 #: Bump when a rule changes in a way that changes results: old cache entries stop matching.
-ANALYSIS_VERSION = 3
+ANALYSIS_VERSION = 4
 #: Width [px] frames are analysed at.
 ANALYSIS_WIDTH = 640
 #: Below this many frames to compute, worker processes cost more than they save.
@@ -120,14 +121,16 @@ def load_frame(path: str | os.PathLike, max_width: int | None = None) -> np.ndar
 def analyse_image(rgb: np.ndarray, params: AnalysisParams | None = None) -> dict:
     """All cues and quality flags of one decoded frame (see the module notes).
 
-    ``people_n`` is None (NaN in the table) when people are not detected or the frame
-    failed a quality check (the HOG detector is not run on it).
+    ``people_n`` is None (NaN in the table) when people are not detected, when the frame
+    failed a quality check (the HOG detector is not run on it), or when it is narrower
+    than :data:`walkcomfort.imagery.people.MIN_SOURCE_WIDTH`.
     """
     p = params or AnalysisParams()
     out, masks = frame_cues(rgb, p.cues, return_masks=True)
     out.update(quality_flags(rgb, p.quality, sky=masks["sky"], sky_frac=out[C.SKY_FRAC], gray=masks["gray"]))
     # the detector is the slow part, and a bad frame's cues never reach the timeline: skip it there
-    out[C.PEOPLE_N] = count_people(rgb, p.people) if p.detect_people and out[C.FRAME_OK] else None
+    searchable = p.detect_people and out[C.FRAME_OK] and rgb.shape[1] >= MIN_SOURCE_WIDTH
+    out[C.PEOPLE_N] = count_people(rgb, p.people) if searchable else None
     return out
 
 
@@ -209,10 +212,23 @@ def _iter_results(paths: list[str], params: AnalysisParams, workers: int,
     chunks = [paths[i:i + chunk] for i in range(0, len(paths), chunk)]
     own = pool is None
     pool = make_pool(workers) if own else pool
+    done: set[str] = set()
     try:
         futures = [pool.submit(_analyse_chunk, c, params) for c in chunks]
         for fut in as_completed(futures):
-            yield from fut.result()
+            for item in fut.result():
+                done.add(item[0])
+                yield item
+    except BrokenProcessPool as exc:
+        # workers could not start (e.g. a script read from stdin cannot be re-imported by
+        # "spawn") or died: finish here rather than lose the run, and say so
+        import warnings
+
+        warnings.warn(f"frame-cue worker processes failed ({exc}); analysing the remaining frames in this "
+                      f"process", RuntimeWarning, stacklevel=3)
+        for path in paths:
+            if path not in done:
+                yield from _analyse_chunk([path], params)
     finally:
         if own:
             pool.shutdown()

@@ -13,9 +13,11 @@ and it runs on the CPU. What follows from that training:
   intersection over union exceeds :data:`NMS_IOU` keep only the strongest);
 * weak responses (SVM score below :data:`MIN_SCORE`) are dropped.
 
-Frames wider than :data:`DETECT_WIDTH` px are reduced to it first, so the cost per frame
-is bounded and the size range above holds for high-resolution cameras too; smaller frames
-are searched as they are (enlarging would cost time and invent no detail).
+Frames are resized to :data:`DETECT_WIDTH` px wide first — reduced from high-resolution
+cameras, so the cost per frame is bounded, and enlarged from small ones, because the
+detector's window is 64×128 px: a person 40 px tall in a 160 px frame is found only
+after enlarging. Frames narrower than :data:`MIN_SOURCE_WIDTH` px hold too little to
+count anyone; the batch leaves their count unknown.
 
 References
 ----------
@@ -34,6 +36,8 @@ from walkcomfort.imagery.cues import check_rgb
 
 #: Width [px] frames are resized to before detection.
 DETECT_WIDTH = 640
+#: Frames narrower than this [px] are not searched by the batch (people_n unknown).
+MIN_SOURCE_WIDTH = 120
 #: Minimum SVM score of a kept detection (our choice; OpenCV's own default keeps all > 0).
 MIN_SCORE = 0.3
 #: Intersection over union above which two boxes are the same person.
@@ -132,9 +136,10 @@ def detect_people(rgb, params: PeopleParams | None = None) -> tuple[np.ndarray, 
     p = params or PeopleParams()
     img = check_rgb(rgb)
     h, w = img.shape[:2]
-    factor = min(1.0, p.width / w)
-    if factor < 1.0:
-        img = cv2.resize(img, (p.width, max(1, int(round(h * factor)))), interpolation=cv2.INTER_AREA)
+    factor = p.width / w
+    if w != p.width:
+        interp = cv2.INTER_AREA if factor < 1.0 else cv2.INTER_LINEAR
+        img = cv2.resize(img, (p.width, max(1, int(round(h * factor)))), interpolation=interp)
     if img.shape[0] < 128 or img.shape[1] < 64:
         return np.zeros((0, 4), dtype=int), np.zeros(0)
     # the detector works on gradients, which do not care about channel order
