@@ -71,9 +71,10 @@ class JobReport:
     seconds: float = 0.0
     parameters: dict = field(default_factory=dict)
     #: wall-clock split [s]: ``start`` (cluster up / client connected), ``compute`` (partition
-    #: functions, summed over partitions in-process), ``write`` (Parquet, in this process).
+    #: functions, summed over partitions in-process), ``write`` (Parquet, summed), and ``cpu``:
+    #: CPU seconds of the threads that ran the partitions (compute + write), summed over workers.
     #: Kept in memory for benchmarks, never written (outputs stay byte-stable).
-    timings: dict = field(default_factory=lambda: {"start": 0.0, "compute": 0.0, "write": 0.0})
+    timings: dict = field(default_factory=lambda: {"start": 0.0, "compute": 0.0, "write": 0.0, "cpu": 0.0})
 
     @property
     def expected_rows(self) -> int:
@@ -111,15 +112,24 @@ def run_partition(fn, part: Partition) -> pd.DataFrame:
     return check_partition_result(part, fn(part))
 
 
-def run_and_write_partition(fn, part: Partition, out_dir: str, digest: str) -> tuple[int, float]:
+def run_and_write_partition(fn, part: Partition, out_dir: str, digest: str) -> tuple[int, float, float]:
     """Run, check and write one partition where it runs (workers sharing the output folder).
 
-    Returns the number of rows written and the seconds spent writing.
+    Returns the number of rows written, the seconds spent writing and the CPU seconds of
+    the thread that did it all.
     """
+    c0 = _time.thread_time()
     rows = run_partition(fn, part)
     tw = _time.perf_counter()
     _write(out_dir, digest, part, rows)
-    return len(rows), _time.perf_counter() - tw
+    return len(rows), _time.perf_counter() - tw, _time.thread_time() - c0
+
+
+def run_partition_timed(fn, part: Partition) -> tuple[pd.DataFrame, float]:
+    """:func:`run_partition` and the CPU seconds of the thread that ran it."""
+    c0 = _time.thread_time()
+    rows = run_partition(fn, part)
+    return rows, _time.thread_time() - c0
 
 
 def _write(out_dir, digest: str, part: Partition, rows: pd.DataFrame) -> Path:
@@ -174,7 +184,7 @@ class InProcessEngine:
             outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
             for attempt in range(1, self.retries + 2):
                 outcome.attempts = attempt
-                tc = _time.perf_counter()
+                tc, cc = _time.perf_counter(), _time.thread_time()
                 try:
                     rows = run_partition(job.partition_fn, part)
                 except Exception as exc:  # reported by partition id, never swallowed
@@ -182,7 +192,8 @@ class InProcessEngine:
                     continue
                 finally:
                     report.timings["compute"] += _time.perf_counter() - tc
-                tw = _time.perf_counter()
+                    report.timings["cpu"] += _time.thread_time() - cc
+                tw, cw = _time.perf_counter(), _time.thread_time()
                 try:
                     path = _write(out_dir, job.digest, part, rows)
                 except OSError as exc:  # a full disk fails this partition, reported like any other
@@ -190,6 +201,7 @@ class InProcessEngine:
                     continue
                 finally:
                     report.timings["write"] += _time.perf_counter() - tw
+                    report.timings["cpu"] += _time.thread_time() - cw
                 outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
                 outcome.path = path.relative_to(out_dir).as_posix()
                 break
@@ -301,8 +313,8 @@ class DaskEngine:
                     fut = client.submit(run_and_write_partition, job.partition_fn, part, out_abs, job.digest,
                                         key=key, retries=self.retries, pure=False)
                 else:
-                    fut = client.submit(run_partition, job.partition_fn, part, key=key, retries=self.retries,
-                                        pure=False)
+                    fut = client.submit(run_partition_timed, job.partition_fn, part, key=key,
+                                        retries=self.retries, pure=False)
                 by_key[fut.key] = part
                 futures.append(fut)
             for fut in track(as_completed(futures), "network partitions", total=len(futures), enabled=progress):
@@ -317,10 +329,12 @@ class DaskEngine:
                     outcome.error = f"the task was {fut.status} by the Dask scheduler (workers lost?)"
                 else:
                     if self.write_on == "workers":
-                        n_rows, w_s = fut.result()
+                        n_rows, w_s, cpu_s = fut.result()
                         report.timings["write"] += w_s  # summed over workers (not wall time here)
+                        report.timings["cpu"] += cpu_s
                     else:
-                        rows = fut.result()
+                        rows, cpu_s = fut.result()
+                        report.timings["cpu"] += cpu_s
                         tw = _time.perf_counter()
                         _write(out_dir, job.digest, part, rows)
                         report.timings["write"] += _time.perf_counter() - tw
