@@ -490,12 +490,25 @@ def _copy_frames(todo, blur, params, workers, pool):
         return
     from walkcomfort.imagery.batch import make_pool
 
+    from concurrent.futures.process import BrokenProcessPool
+
     own = pool is None
     pool = make_pool(workers) if own else pool
+    done: set[str] = set()
     try:
         futures = [pool.submit(_copy_chunk, todo[i:i + 4], blur, params) for i in range(0, len(todo), 4)]
         for fut in as_completed(futures):
-            yield from fut.result()
+            for item in fut.result():
+                done.add(item[0])
+                yield item
+    except BrokenProcessPool as exc:
+        import warnings
+
+        warnings.warn(f"share worker processes failed ({exc}); blurring the remaining frames in this process",
+                      RuntimeWarning, stacklevel=3)
+        for item in todo:
+            if item[0] not in done:
+                yield from _copy_chunk([item], blur, params)
     finally:
         if own:
             pool.shutdown()
