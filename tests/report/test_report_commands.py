@@ -48,6 +48,12 @@ def test_map_command_writes_offline_html(tmp_path, points, capsys):
     assert "Votes · tw-a" in page and "Votes · tw-b" in page
 
 
+def test_map_command_size_warning_is_one_line(tmp_path, points, capsys):
+    assert main(["map", str(points), "--budget-mb", "0.01", "-o", str(tmp_path / "m.html")]) == 0
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("warning: m.html is") and "budget" in err[0]
+
+
 def test_map_command_errors_are_one_line(tmp_path, points, capsys):
     rc = main(["map", str(points), "--tiles", "https://t.example/{z}/{x}/{y}.png", "-o", str(tmp_path / "m.html")])
     assert rc == 2

@@ -176,7 +176,18 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, off
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,
                      simplify_m=simplify_m, error_cell_m=error_cell_m, title=title)
-    path = write_map(fmap, out_html, offline=offline, size_budget_bytes=int(budget_mb * 1e6))
+    import warnings
+
+    from walkcomfort.errors import DataQualityWarning
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", DataQualityWarning)
+        path = write_map(fmap, out_html, offline=offline, size_budget_bytes=int(budget_mb * 1e6))
+    for w in caught:
+        if issubclass(w.category, DataQualityWarning):
+            click.echo(f"warning: {w.message}", err=True)
+        else:  # not ours to reword: pass it on unchanged
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
     click.echo(f"wrote {path} ({path.stat().st_size / 1e3:.0f} kB{', offline' if offline else ''})")
 
 
