@@ -242,3 +242,29 @@ def test_offline_map_with_local_tile_folder(browser, tmp_path, artifacts_dir):
     browser.console_errors = [e for e in browser.console_errors if "ERR_FILE_NOT_FOUND" not in e]
     _clean(browser)
     shutil.rmtree(tiles)
+
+
+def test_named_tile_provider_passes_the_page_policy(browser, served, tmp_path, artifacts_dir):
+    # tiles from a provider are allowed by the page's CSP and credited; here the provider is
+    # stood in for by a local answer (no request leaves the machine)
+    import io
+
+    from PIL import Image
+
+    buf = io.BytesIO()
+    Image.new("RGB", (256, 256), (222, 226, 214)).save(buf, format="PNG")
+    tiles_seen = []
+
+    def tile(route):
+        tiles_seen.append(route.request.url)
+        route.fulfill(status=200, body=buf.getvalue(), content_type="image/png",
+                      headers={"Access-Control-Allow-Origin": "*"})
+
+    browser.context.route("https://tile.openstreetmap.org/**", tile)
+    R.write_map(R.route_map(S.predictions(), tiles="osm"), tmp_path / "osm.html")
+    page = _open(browser, served, "osm.html")
+    page.wait_for_function("() => document.querySelectorAll('img.leaflet-tile-loaded').length > 0", timeout=10_000)
+    assert tiles_seen and all(u.startswith("https://tile.openstreetmap.org/") for u in tiles_seen)
+    assert "OpenStreetMap contributors" in page.locator(".leaflet-control-attribution").inner_text()
+    page.screenshot(path=str(artifacts_dir / "routemap_tile_provider.png"))
+    _clean(browser)
