@@ -215,18 +215,36 @@ def render_frame(svf: float, sky_crowns: float, sunlit: bool, people_n: int, rng
         d.line([(0, r), (w, r)], fill=joint)
     for cx in range(int(rng.integers(0, 14)), w, 14):
         d.line([(cx, horizon + 16), (cx + (cx - w // 2) // 3, h)], fill=joint)
-    for i in range(people_n):
-        px = int(rng.integers(wall + 4, max(wall + 5, w - wall - 8)))
-        ph = int(rng.integers(14, 24))
-        top = horizon + 6 - ph // 2
-        d.rectangle([px, top + 5, px + 4, top + ph], fill=(45, 45, 60))
-        d.ellipse([px, top, px + 4, top + 5], fill=(170, 125, 95))
-        label[max(top, 0): top + ph + 1, px: px + 5] = 5
+    # other pedestrians: standing silhouettes (head, torso, arms, legs) spread over the view,
+    # each in its own slot so they do not overlap
+    slots = rng.permutation(max(1, (w - 2 * wall - 16) // 18))[:people_n]
+    for slot in sorted(int(v) for v in slots):
+        px = wall + 12 + 18 * slot
+        ph = int(rng.integers(28, 41))
+        top = horizon + 8 - ph // 2
+        _person(d, px, top, ph, rng)
+        label[max(top, 0): top + ph + 1, max(px - ph // 4, 0): px + ph // 4 + 1] = 5
+    people_n = len(slots)
     arr = np.asarray(img, np.int16) + rng.normal(0, 4.0, (h, w, 3)).astype(np.int16)
     img = Image.fromarray(np.clip(arr, 0, 255).astype(np.uint8))
     truth = {"sky_frac": float((label == 1).mean()), "green_frac": float((label == 2).mean()),
              "people_n": int(people_n)}
     return img, truth
+
+
+def _person(d, cx: int, top: int, height: int, rng) -> None:
+    """A standing pedestrian seen from a few metres: head, torso, arms and two legs."""
+    head = height * 0.13
+    half = height * 0.13
+    arm = height * 0.06
+    coat = tuple(int(v) for v in rng.integers(25, 90, 3))
+    trousers = tuple(int(v) for v in rng.integers(20, 70, 3))
+    d.ellipse([cx - head / 2, top, cx + head / 2, top + head], fill=(170, 125, 95))
+    d.rectangle([cx - half, top + head, cx + half, top + height * 0.55], fill=coat)
+    d.rectangle([cx - half - arm, top + head + 1, cx - half, top + height * 0.5], fill=coat)
+    d.rectangle([cx + half, top + head + 1, cx + half + arm, top + height * 0.5], fill=coat)
+    d.rectangle([cx - half, top + height * 0.55, cx - 1, top + height], fill=trousers)
+    d.rectangle([cx + 1, top + height * 0.55, cx + half, top + height], fill=trousers)
 
 
 def jpeg_bytes(img, local_time: pd.Timestamp) -> bytes:
