@@ -203,3 +203,15 @@ def test_invented_day_has_its_stated_extremes():
     t = S.diurnal_t_air_c(h)
     assert h[np.argmin(t)] == pytest.approx(6.0, abs=0.02) and t.min() == pytest.approx(21.5)
     assert h[np.argmax(t)] == pytest.approx(15.5, abs=0.02) and t.max() == pytest.approx(32.5)
+
+
+def test_image_cues_find_what_was_drawn_into_the_frames():
+    """The imagery stage's cues recover the sky, greenery and people drawn from the surroundings."""
+    batch = pytest.importorskip("walkcomfort.imagery.batch")
+    f = pd.read_csv(DEMO / "truth" / "frames.csv")
+    pick = f[f["session"].isin(["sv-p01-1", "sv-p06-1"])].iloc[::5]
+    got = pd.DataFrame([batch.analyse_frame(DEMO / "sessions" / r.session / r.file) for r in pick.itertuples()])
+    assert np.corrcoef(pick["sky_frac"], got["sky_frac"])[0, 1] > 0.9
+    assert np.corrcoef(pick["green_frac"], got["green_frac"])[0, 1] > 0.9
+    assert np.corrcoef(pick["people_n"], got["people_n"].astype(float))[0, 1] > 0.8
+    assert got["frame_ok"].all()
