@@ -140,8 +140,11 @@ def test_frames_follow_the_surroundings():
 
 def test_votes_come_from_the_documented_process():
     v = pd.read_csv(DEMO / "truth" / "votes.csv")
-    cls = latent.comfort_class(v["latent_noisy"].to_numpy())
-    assert (cls == v["comfort"].to_numpy()).all()
+    score = v["latent_noisy"].to_numpy()
+    # the truth file keeps 4 decimals: leave out scores within rounding of a threshold
+    clear = np.minimum(np.abs(score - latent.COMFORTABLE_BELOW), np.abs(score - latent.UNCOMFORTABLE_ABOVE)) > 1e-3
+    assert clear.mean() > 0.95
+    assert (latent.comfort_class(score[clear]) == v["comfort"].to_numpy()[clear]).all()
     assert set(v["kind"]) == {"prompted", "spontaneous"}
     counts = v["comfort"].value_counts(normalize=True)
     assert counts.min() > 0.15          # every class is represented
