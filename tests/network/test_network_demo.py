@@ -66,6 +66,10 @@ def test_network_command_on_the_demo_town(demo_dir, tmp_path):
     assert rc == 0
     report = json.loads((out / "job.json").read_text())
     assert report["ok"] and report["rows_expected"] == report["rows_written"]
+    for scheme in ("base", "trees-costa"):
+        layer = json.loads((out / f"network_layer_{scheme}.geojson").read_text())
+        assert len(layer["features"]) == 80 and layer["walkcomfort"]["scheme"] == scheme
+    assert (out / "network_layer_base.geojson").stat().st_size < (out / "segment_summary.geojson").stat().st_size / 3
     gj = json.loads((out / "segment_summary.geojson").read_text())
     costa = [f for f in gj["features"] if f["properties"]["street_id"] == "s-costa"]
     assert costa and all("trees-costa" in f["properties"]["schemes"] for f in costa)

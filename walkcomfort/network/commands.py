@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import time as _time
 from pathlib import Path
 
@@ -12,6 +13,7 @@ from walkcomfort.errors import InputError
 
 SUMMARY_PARQUET = "segment_summary.parquet"
 SUMMARY_GEOJSON = "segment_summary.geojson"
+LAYER_GEOJSON = "network_layer_{scheme}.geojson"
 QUARANTINE_CSV = "network_quarantine.csv"
 
 #: Exit code when one or more partitions failed after their retries.
@@ -95,7 +97,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
 def write_outputs(out_dir, network, job, report) -> dict:
     """Summaries next to the batch rows: per-segment Parquet, GeoJSON, quarantined features."""
     from walkcomfort import _io
-    from walkcomfort.network.summaries import summary_from_results, summary_geojson
+    from walkcomfort.network.summaries import network_layer, summary_from_results, summary_geojson
 
     out_dir = Path(out_dir)
     written = {}
@@ -106,7 +108,12 @@ def write_outputs(out_dir, network, job, report) -> dict:
     summary = summary_from_results(out_dir)
     meta = {"job_digest": job.digest, "parameters": job.parameters}
     written["summary"] = _io.write_parquet(out_dir / SUMMARY_PARQUET, summary, meta)
-    written["geojson"] = _io.write_json(out_dir / SUMMARY_GEOJSON, summary_geojson(summary, network))
+    full = summary_geojson(summary, network)
+    written["geojson"] = _io.write_json(out_dir / SUMMARY_GEOJSON, full)
+    for scheme in job.schemes:
+        # compact JSON: these small files are meant to be embedded in the HTML map
+        text = json.dumps(network_layer(full, scheme), sort_keys=True, separators=(",", ":"), allow_nan=False)
+        written[f"layer:{scheme}"] = _io.atomic_write_text(out_dir / LAYER_GEOJSON.format(scheme=scheme), text + "\n")
     return written
 
 
