@@ -7,7 +7,9 @@ computation is ``walkcomfort.network.batch.compute_partition``.
 
 from __future__ import annotations
 
+import os
 import threading
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -17,7 +19,7 @@ from walkcomfort import _io
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.network import engines
-from walkcomfort.network.batch import P_COLUMNS, aggregate_points, time_range, plan_job
+from walkcomfort.network.batch import P_COLUMNS, aggregate_points, plan_job, time_range
 from walkcomfort.network.segments import network_from_geojson
 from walkcomfort.network.synthetic import grid_network, grid_scene
 
@@ -217,3 +219,40 @@ def test_a_write_that_fails_fails_its_partition_only(small_net, tmp_path):
     assert failed == {"fewer"} and not report.ok
     assert report.written_rows == sum(p.expected_rows for p in job.partitions if p.scheme == "base")
     assert all(o.error.startswith(("FileExistsError", "NotADirectoryError")) for o in report.failed)
+
+
+@pytest.mark.slow
+def test_a_lost_worker_fails_its_partition_not_the_job(small_net, tmp_path):
+    import dask
+    from distributed import LocalCluster
+
+    from walkcomfort.routes.weather import StatedConditions
+
+    here = str(Path(__file__).resolve().parent)
+    import sys
+
+    sys.path.insert(0, here)
+    try:
+        import _crashing
+    finally:
+        sys.path.remove(here)
+    times = time_range("2026-07-14T10:00", "2026-07-14T11:00", "1h", "Europe/Madrid")
+    site = {"lat": 40.42, "lon": -3.70, "elev_m": 650.0}
+    weather = StatedConditions(t_air_c=30.0, rh_pct=40.0, wind_ms=2.0).conditions(times, site["lat"], site["lon"])
+    weather.attrs = {}
+    job = plan_job(small_net, times, {"base": None}, weather, tile_size_m=200.0, site=site,
+                   partition_fn=_crashing.kill_worker_on_first_tile)
+    env = {"PYTHONPATH": os.pathsep.join([here, os.environ.get("PYTHONPATH", "")])}
+    with dask.config.set({"distributed.scheduler.allowed-failures": 0}), \
+            LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1",
+                         dashboard_address="127.0.0.1:0", env=env) as cluster:
+        report = engines.run_job(job, tmp_path, "dask", scheduler=cluster.scheduler_address, retries=0,
+                                 timeout_s=60)
+    # the partition that killed its worker fails; tasks queued on that worker when it died may be
+    # counted as suspects too (allowed-failures 0) — all of them are reported, none is silently missing
+    failed = {o.partition_id for o in report.failed}
+    assert "base/t000_000/c0000" in failed and not report.ok
+    assert all("KilledWorker" in o.error for o in report.failed)
+    written = {o.partition_id for o in report.outcomes if o.status == "written"}
+    assert written | failed == {p.partition_id for p in job.partitions} and written
+    assert report.written_rows == sum(job.partition(p).expected_rows for p in written)
