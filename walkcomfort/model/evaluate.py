@@ -46,6 +46,7 @@ class TrainingTable:
     target: str = "comfort"
     quarantine: pd.DataFrame = field(default_factory=pd.DataFrame)
     tsv: np.ndarray | None = None  # sensation votes at the same rows (NaN where not given), if any
+    position: pd.DataFrame | None = None  # lat, lon [°] at the vote rows (index = time), when the timeline has them
 
     @property
     def digest(self) -> str:
@@ -107,9 +108,12 @@ def training_table(timeline: pd.DataFrame, target: str = "comfort", features: pd
     if C.VOTE_TSV in timeline.columns:
         tsv = pd.to_numeric(timeline[C.VOTE_TSV].iloc[good], errors="coerce").to_numpy(dtype=float,
                                                                                          na_value=np.nan)
+    position = None
+    if C.LAT in timeline.columns and C.LON in timeline.columns:
+        position = timeline[[C.LAT, C.LON]].iloc[good].astype(float)
     return TrainingTable(X=feats.iloc[good], y=y, groups=np.asarray(grp, dtype=object),
                          walk_id=np.asarray(walk, dtype=object), attributes=attrs, target=target,
-                         quarantine=quarantine, tsv=tsv)
+                         quarantine=quarantine, tsv=tsv, position=position)
 
 
 def concat_tables(tables: list[TrainingTable]) -> TrainingTable:
@@ -120,7 +124,8 @@ def concat_tables(tables: list[TrainingTable]) -> TrainingTable:
         groups=np.concatenate([t.groups for t in tables]), walk_id=np.concatenate([t.walk_id for t in tables]),
         attributes=pd.concat([t.attributes for t in tables]), target=tables[0].target,
         quarantine=pd.concat([t.quarantine for t in tables], ignore_index=True),
-        tsv=None if any(t.tsv is None for t in tables) else np.concatenate([t.tsv for t in tables]))
+        tsv=None if any(t.tsv is None for t in tables) else np.concatenate([t.tsv for t in tables]),
+        position=None if any(t.position is None for t in tables) else pd.concat([t.position for t in tables]))
 
 
 # --- grouped folds -------------------------------------------------------------------------------

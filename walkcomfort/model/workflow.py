@@ -22,6 +22,7 @@ from walkcomfort.model.evaluate import (MODEL_NAMES, CVResult, TrainingTable, cl
 TIMELINE_FILE = "timeline.parquet"
 REPORT_FILE = "report.html"
 METRICS_FILE = "metrics.json"
+OOF_FILE = "oof_predictions.parquet"
 
 
 def find_timelines(paths) -> list[Path]:
@@ -145,21 +146,97 @@ def score_model(model, table: TrainingTable, labels=None) -> dict:
     return classification_metrics(table.y, pred, proba, labels)
 
 
+def read_oof_predictions(folder: str | os.PathLike) -> pd.DataFrame | None:
+    """The bundle's out-of-fold predictions, or None when the bundle has none (fitted before they were kept).
+
+    Raises
+    ------
+    InputError
+        The file is there but is not the one the manifest describes (digest differs).
+    """
+    from walkcomfort.model.bundle import read_manifest
+
+    folder = Path(folder)
+    info = (read_manifest(folder).get("extra") or {}).get("oof_predictions")
+    path = folder / OOF_FILE
+    if not info or not path.is_file():
+        return None
+    digest = _io.file_digest(path)
+    if digest != info.get("digest"):
+        raise InputError(f"{OOF_FILE} digest {digest} differs from the manifest's {info.get('digest')}",
+                         where=path, fix="re-run 'walkcomfort fit' to write the bundle again")
+    return pd.read_parquet(path)
+
+
 def campaign_table(paths, target: str = "comfort") -> tuple[TrainingTable, list[Path], pd.DataFrame]:
     campaign, files = load_campaign(paths)
     table = training_table(campaign, target=target)
     return table, files, campaign
 
 
+def oof_predictions(result: FitResult, model: str = "history") -> pd.DataFrame:
+    """Out-of-fold predictions of every usable vote: each from the fold that held out its walker.
+
+    Parameters
+    ----------
+    result : FitResult
+        What :func:`fit_table` returns.
+    model : str
+        Which compared model's predictions (key of ``result.cv.pred``; the history model by default).
+
+    Returns
+    -------
+    DataFrame
+        One row per usable vote, in training-table order (index ``time`` UTC):
+        ``walk_id, participant`` (the walker the folds group by), ``lat, lon`` [°] (NaN when
+        the timelines had no position), ``vote, predicted``, ``p_<class>`` for each class of
+        the validation, and ``fold`` (0-based index into the manifest's ``cv.folds``, whose
+        ``test_groups`` name the walkers that fold held out).
+    """
+    cv, table = result.cv, result.table
+    fold_of = {}
+    for k, f in enumerate(cv.folds):
+        for g in f["test_groups"]:
+            fold_of[g] = k
+    groups = np.asarray([str(g) for g in cv.groups], dtype=object)
+    n = len(groups)
+    index = table.X.index
+    pos = table.position
+    lat = pos[C.LAT].to_numpy(float) if pos is not None else np.full(n, np.nan)
+    lon = pos[C.LON].to_numpy(float) if pos is not None else np.full(n, np.nan)
+    labels = [str(v) for v in cv.labels]
+    out = pd.DataFrame({C.WALK_ID: pd.array([str(w) for w in table.walk_id], dtype="string"),
+                        C.PARTICIPANT: pd.array(groups, dtype="string"), C.LAT: lat, C.LON: lon,
+                        "vote": pd.array([str(v) for v in cv.y], dtype="string"),
+                        "predicted": pd.array([str(v) for v in cv.pred[model]], dtype="string")},
+                       index=pd.DatetimeIndex(index, name="time"))
+    proba = cv.proba[model]
+    for j, lab in enumerate(labels):
+        out[f"p_{lab}"] = proba[:, j]
+    out["fold"] = np.array([fold_of[g] for g in groups], dtype="int64")
+    return out
+
+
 def write_fit_outputs(result: FitResult, folder: str | os.PathLike) -> dict:
-    """Bundle (model.txt, manifest.json), metrics.json and report.html in ``folder``."""
+    """Bundle (model.txt, manifest.json), ``oof_predictions.parquet``, metrics.json and report.html in ``folder``.
+
+    The manifest records the out-of-fold file's digest and row count under
+    ``extra.oof_predictions``, so a reader can tell it belongs to this bundle.
+    """
     from walkcomfort.model.bundle import save_bundle
     from walkcomfort.report.model_report import write_model_report
 
     folder = Path(folder)
     cv_json = result.cv.to_json()
+    oof = oof_predictions(result)
+    oof_path = _io.write_parquet(folder / OOF_FILE, oof, metadata={
+        "what": "out-of-fold predictions (walker-grouped cross-validation)", "scheme": result.cv.scheme,
+        "model": "history", "training_digest": result.table.digest})
+    extra = result.manifest_extra()
+    extra["oof_predictions"] = {"file": OOF_FILE, "digest": _io.file_digest(oof_path), "rows": int(len(oof)),
+                                "scheme": result.cv.scheme, "model": "history"}
     manifest = save_bundle(result.model, folder, training_digest=result.table.digest, cv_metrics=cv_json,
-                           extra=result.manifest_extra())
+                           extra=extra)
     metrics = _io.write_json(folder / METRICS_FILE, {
         "cv": cv_json, "in_sample": result.in_sample,
         "per_walker": result.per_walker.to_dict(orient="records"),
@@ -167,7 +244,7 @@ def write_fit_outputs(result: FitResult, folder: str | os.PathLike) -> dict:
         "calibration": result.calibration,
     })
     report = write_model_report(result, folder / REPORT_FILE)
-    return {"manifest": manifest, "metrics": metrics, "report": report}
+    return {"manifest": manifest, "metrics": metrics, "report": report, "oof": oof_path}
 
 
 def metrics_rows(metrics: dict, names: dict | None = None) -> list[tuple[str, str, str, str, str, str]]:
