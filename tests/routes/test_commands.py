@@ -122,3 +122,13 @@ def test_actual_year_flag_refuses_dates_outside_the_file(tmp_path, greensboro_tm
     code = main(["route", str(route), "--weather", str(greensboro_tmy3), "--actual-year",
                  "--depart", "2026-07-09T15:00-04:00", "-o", str(tmp_path / "o")])
     assert code == 2 and "outside the period" in capsys.readouterr().err
+
+
+def test_a_zero_step_sweep_is_an_input_error_not_a_crash(files, tmp_path, capsys):
+    # a zero STEP once divided by zero (internal error, exit 1); now one line, exit 2
+    route, _, _ = files
+    code = main(["route", str(route), "--depart", "2026-07-15T08:00..2026-07-15T10:00/0h", "--timezone", "UTC",
+                 "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5", "-o", str(tmp_path / "z")])
+    assert code == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("error: --depart: ") and "zero step" in err[0] and "Fix:" in err[0]

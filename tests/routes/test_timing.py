@@ -86,6 +86,7 @@ def test_departure_sweep_and_single_times():
 @pytest.mark.parametrize("spec, kw", [("2026-07-15T15:00", {}), ("15:00", {"timezone": "UTC"}),
                                       ("not a time", {"timezone": "UTC"}),
                                       ("2026-07-15T10:00..2026-07-15T08:00/1h", {"timezone": "UTC"}),
+                                      ("2026-07-15T08:00..2026-07-15T10:00/0h", {"timezone": "UTC"}),
                                       ("2026-03-29T02:30", {"timezone": "Europe/Madrid"})])
 def test_bad_departures_are_one_line_errors(spec, kw):
     with pytest.raises(InputError) as exc:

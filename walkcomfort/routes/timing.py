@@ -207,6 +207,9 @@ def parse_departures(specs, timezone: str | None = None, day=None) -> pd.Datetim
             start = _to_utc(_with_day(m["start"], day), timezone, "sweep start")
             end = _to_utc(_with_day(m["end"], day), timezone, "sweep end")
             step = pd.Timedelta(m["step"].replace(" ", ""))
+            if step <= pd.Timedelta(0):
+                raise InputError(f"sweep {text!r} has a zero step", where="--depart",
+                                 fix="write a positive STEP, e.g. 08:00..18:00/1h")
             if end < start:
                 raise InputError(f"sweep {text!r} ends before it starts", fix="write START..END/STEP with END ≥ START")
             n = int((end - start) / step)
