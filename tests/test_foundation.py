@@ -39,6 +39,10 @@ def test_utci_bands_cover_the_line_without_overlap():
     assert len(UTCI_BANDS) == 10
     for upper, lower in zip(UTCI_BANDS, UTCI_BANDS[1:]):
         assert upper[0] == lower[1]
+    # the published category limits [°C] (Bröde et al. 2012, doi:10.1007/s00484-011-0454-1, table of the
+    # assessment scale): 46, 38, 32, 26, 9, 0, -13, -27, -40
+    assert [b[0] for b in UTCI_BANDS[:-1]] == [46.0, 38.0, 32.0, 26.0, 9.0, 0.0, -13.0, -27.0, -40.0]
+    assert UTCI_BANDS[4][2] == "no thermal stress" and UTCI_BANDS[-1][0] == float("-inf")
 
 
 def test_cli_help_lists_every_verb(capsys):
@@ -52,3 +56,13 @@ def test_cli_unknown_verb_is_one_line_exit_2(capsys):
     assert main(["no-such-verb"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("error:") and err.count("\n") == 1
+
+
+@pytest.mark.parametrize("argv, verb", [(["ingest", "somewhere"], "ingest"),            # a required option left out
+                                        (["network", "x.geojson", "--engine", "spark"], "network"),  # bad choice
+                                        (["fit", "--no-such-option"], "fit")])
+def test_cli_usage_errors_name_the_verb_and_point_to_its_help(capsys, argv, verb):
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1
+    assert err.startswith(f"error: walkcomfort {verb}: ") and f"Fix: see `walkcomfort {verb} --help`." in err

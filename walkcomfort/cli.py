@@ -88,6 +88,11 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except click.exceptions.Exit as exc:
         return exc.exit_code
+    except click.UsageError as exc:  # a missing or bad option: say which verb and where its help is
+        path = exc.ctx.command_path if exc.ctx is not None else "walkcomfort"
+        msg = " ".join(exc.format_message().split()).rstrip(".")
+        click.echo(f"error: {path}: {msg}. Fix: see `{path} --help`.", err=True)
+        return 2
     except click.ClickException as exc:
         click.echo(f"error: {exc.format_message()}", err=True)
         return 2
