@@ -94,3 +94,19 @@ def test_cues_follow_the_demo_frames_drawn_shares(demo_dir):
     # people: the HOG detector misses many of the small drawn walkers, but its count rises with theirs
     a, b = j[C.PEOPLE_N].astype(float), j[C.PEOPLE_N + "_true"].astype(float)
     assert np.corrcoef(a, b)[0, 1] > 0.2 and a.sum() <= 1.5 * b.sum()
+
+
+def test_frames_on_a_session_whose_camera_folder_is_empty_is_a_one_line_error(tmp_path, session, capsys):
+    # an empty frames folder once wrote an empty cue table and exited 0; now it is an InputError
+    manifest = (session / "session.toml").read_text()
+    assert 'kind = "frames"' in manifest
+    import tomllib
+
+    folder = next(s["path"] for s in tomllib.loads(manifest)["source"] if s["kind"] == "frames")
+    shutil.rmtree(session / folder)
+    (session / folder).mkdir()
+    code = main(["frames", str(session), "-o", str(tmp_path / "out"), "--workers", "1"])
+    assert code == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "no camera frames found" in err[0] and "Fix:" in err[0]
+    assert not (tmp_path / "out").exists()

@@ -71,6 +71,12 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
 
     for d in sessions:
         table, reader_q, spec = session_frames(d)
+        if len(table) == 0 and len(reader_q) == 0:   # nothing read and nothing set aside: say so
+            folders = [str(s.path) for s in spec.sources_of("frames")]
+            raise InputError(f"no camera frames found (frames folders: {folders or 'none in the manifest'})",
+                             where=spec.session_dir,
+                             fix="put the frame images in the folder of the 'frames' source of session.toml, "
+                                 "or leave this session out of `walkcomfort frames`")
         tl_path = Path(out_dir) / spec.id / TIMELINE_FILE
         if tl_path.is_file() and not replace:
             import pyarrow.parquet as pq
