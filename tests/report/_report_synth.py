@@ -138,3 +138,40 @@ def summaries(points: pd.DataFrame) -> pd.DataFrame:
                      "shade_share": float((g[C.SHADE_FRAC] >= 0.5).mean()), "mean_utci_c": g[C.UTCI_C].mean(),
                      "peak_utci_c": g[C.UTCI_C].max(), "heat_dose_cmin": 42.0})
     return pd.DataFrame(rows)
+
+
+def network_summary(n_streets=3, n_seg=4, seg_m=50.0, hours=10.0, street_name=XSS_LABEL) -> dict:
+    """A ``segment_summary.geojson`` as ``walkcomfort network`` writes it: base + "trees" per segment.
+
+    Comfortable hours rise along each street (0 .. ``hours``); the trees scheme gains 2 h on the
+    first street, loses 1 h on the second and changes nothing on the third.
+    """
+    feats = []
+    change = {0: 2.0, 1: -1.0, 2: 0.0}
+    for s in range(n_streets):
+        for k in range(n_seg):
+            x = np.array([k * seg_m, k * seg_m + seg_m / 2, (k + 1) * seg_m])
+            lat, lon = offset(x, np.full(3, -40.0 - 40.0 * s))
+            comf = hours * k / max(n_seg - 1, 1)
+            base = {"hours_h": hours, "comfortable_h": comf, "expected_comfortable_h": comf * 0.9,
+                    "uncomfortable_h": hours - comf, "heat_stress_h": hours - comf, "mean_utci_c": 30.0 + s,
+                    "max_utci_c": 35.0, "mean_shade_frac": 0.1 * k}
+            d = change[s % 3]
+            new = min(hours, max(0.0, comf + d)) - comf
+            trees = dict(base, comfortable_h=comf + new, d_comfortable_h=new, d_expected_comfortable_h=new,
+                         d_heat_stress_h=-new, d_mean_utci_c=-0.5 * new, gained_comfortable_h=max(new, 0.0),
+                         lost_comfortable_h=max(-new, 0.0), uncomfortable_to_comfortable_h=max(new, 0.0))
+            feats.append({"type": "Feature", "properties": {
+                C.SEGMENT_ID: f"st{s}#{k:03d}", C.STREET_ID: f"st{s}", "name": street_name if s == 0 else f"Street {s}",
+                "length_m": seg_m, "schemes": {"base": base, "trees": trees}},
+                "geometry": {"type": "LineString", "coordinates": [[float(a), float(b)] for a, b in zip(lon, lat)]}})
+    return {"type": "FeatureCollection", "walkcomfort": {"network": "synthetic", "summary": "segments", "base": "base"},
+            "features": feats}
+
+
+def network_layers() -> list[dict]:
+    """The base and trees map layers of :func:`network_summary` (through the network stage's own function)."""
+    from walkcomfort.network.summaries import network_layer
+
+    summary = network_summary()
+    return [network_layer(summary, "base"), network_layer(summary, "trees")]

@@ -79,8 +79,41 @@ def find_walks(paths) -> list[Path]:
     return out
 
 
-def predicted_walks(paths, model_path: Path) -> list:
-    """Recorded timelines with the model's prediction columns added (for the model-error layer)."""
+PREDICTION_COLUMNS = ("comfort_class", "p_comfortable", "p_neutral", "p_uncomfortable", "predictor", "reasons")
+
+
+def _walk_key(timeline) -> tuple[str | None, str | None]:
+    """(walk_id, participant) of a timeline: its session attributes, else its columns."""
+    from walkcomfort import columns as C
+
+    session = (timeline.attrs or {}).get("session") or {}
+    out = []
+    for attr in (C.WALK_ID, C.PARTICIPANT):
+        v = session.get(attr)
+        if not v and attr in timeline.columns and timeline[attr].notna().any():
+            v = timeline[attr].dropna().iloc[0]
+        out.append(str(v) if v else None)
+    return out[0], out[1]
+
+
+def predicted_walks(paths, model_path: Path) -> tuple[list, str]:
+    """Recorded timelines with the model's prediction columns added (for the model-error layer).
+
+    When the bundle holds the out-of-fold predictions of its fit (``oof_predictions.parquet``,
+    comfort target), a walk that trained the model gets those at its votes: each predicted by
+    a model that never saw that walker. A walk whose walker did not train the model is
+    predicted by the bundle (also held out). Otherwise the bundle predicts every walk.
+
+    Returns
+    -------
+    (list of DataFrame, str)
+        The walks, and ``"held-out"`` when every vote's prediction comes from a model that
+        never saw its walker, else ``"in-sample"``.
+    """
+    import numpy as np
+    import pandas as pd
+
+    from walkcomfort import columns as C
     from walkcomfort.model.bundle import load_bundle
     from walkcomfort.model.predict import predict_timeline
     from walkcomfort.session.timeline import read_timeline
@@ -88,16 +121,72 @@ def predicted_walks(paths, model_path: Path) -> list:
     if not is_model_bundle(Path(model_path)):
         raise InputError("not a model bundle (no manifest.json of a walkcomfort model)", where=model_path,
                          fix="pass the folder written by 'walkcomfort fit'")
-    model = load_bundle(model_path)
+    oof = None
+    try:
+        from walkcomfort.model.workflow import read_oof_predictions
+    except ImportError:  # pragma: no cover - model stage not installed
+        read_oof_predictions = None
+    if read_oof_predictions is not None:
+        oof = read_oof_predictions(model_path)
+        if oof is not None and not set(oof["vote"].dropna()) <= set(C.COMFORT_CLASSES):
+            oof = None  # a sensation-vote bundle: its classes are not the map's comfort classes
+    trained_walkers = set(oof[C.PARTICIPANT].dropna()) if oof is not None else set()
+    model = None
+    source = "held-out" if oof is not None else "in-sample"
     out = []
     for p in paths:
         timeline = read_timeline(p)
-        pred = predict_timeline(model, timeline, reasons=False)
-        clash = [c for c in pred.columns if c in timeline.columns]
-        walk = timeline.drop(columns=clash).join(pred)  # the model's view replaces any older one
+        walk_id, participant = _walk_key(timeline)
+        mine = oof[oof[C.WALK_ID] == walk_id] if oof is not None and walk_id is not None else None
+        if mine is not None and len(mine):
+            walk = timeline.drop(columns=[c for c in PREDICTION_COLUMNS if c in timeline.columns])
+            at = walk.index.get_indexer(mine.index)
+            found = at >= 0
+            cls = np.full(len(walk), None, dtype=object)
+            cls[at[found]] = mine["predicted"].to_numpy(dtype=object)[found]
+            walk["comfort_class"] = cls
+            for c in C.COMFORT_CLASSES:
+                col = np.full(len(walk), np.nan)
+                if f"p_{c}" in mine.columns:
+                    col[at[found]] = mine[f"p_{c}"].to_numpy(float)[found]
+                walk[f"p_{c}"] = col
+            walk["predictor"] = pd.array(np.where(pd.isna(cls), None, "held-out fold of the fit"), dtype="string")
+        else:
+            if participant is None or participant in trained_walkers:
+                source = "in-sample"  # the bundle has seen this walker (or cannot tell)
+            model = model if model is not None else load_bundle(model_path)
+            pred = predict_timeline(model, timeline, reasons=False)
+            clash = [c for c in pred.columns if c in timeline.columns]
+            walk = timeline.drop(columns=clash).join(pred)  # the model's view replaces any older one
         walk.attrs = dict(timeline.attrs)
         out.append(walk)
-    return out
+    return out, source
+
+
+NETWORK_LAYER_GLOB = "network_layer_*.geojson"  # written by walkcomfort.network.commands (LAYER_GEOJSON)
+
+
+def read_network_layers(folder: str | os.PathLike, schemes=()) -> list[Path]:
+    """The network map-layer files of a ``walkcomfort network`` output folder, the base scheme first.
+
+    ``schemes`` keeps only those scheme names (in that order); empty keeps all.
+    """
+    folder = Path(folder)
+    if folder.is_file():
+        return [folder]
+    files = sorted(folder.glob(NETWORK_LAYER_GLOB)) if folder.is_dir() else []
+    if not files:
+        raise InputError(f"no {NETWORK_LAYER_GLOB} here", where=folder,
+                         fix="pass the output folder of 'walkcomfort network'")
+    by_name = {f.name[len("network_layer_"):-len(".geojson")]: f for f in files}
+    if schemes:
+        missing = [s for s in schemes if s not in by_name]
+        if missing:
+            raise InputError(f"no network layer for scheme(s) {', '.join(missing)}; there are {', '.join(by_name)}",
+                             where=folder, fix="pick from those schemes")
+        return [by_name[s] for s in schemes]
+    order = sorted(by_name, key=lambda s: (s != "base", s))
+    return [by_name[s] for s in order]
 
 
 def is_model_bundle(path: Path) -> bool:
@@ -126,14 +215,22 @@ def is_model_bundle(path: Path) -> bool:
               help="Recorded walk: timeline.parquet, its folder, or a folder of walk folders. Repeatable.")
 @click.option("--model", "model_path", type=click.Path(path_type=Path), default=None,
               help="Model bundle: predict each recorded walk, so the map shows where the model disagrees "
-                   "with the votes.")
+                   "with the votes (held-out walkers: the fit's out-of-fold predictions, when the bundle has them).")
+@click.option("--network", "network_dir", type=click.Path(path_type=Path), default=None,
+              help="Output folder of 'walkcomfort network' (or one network_layer_<scheme>.geojson): "
+                   "one layer of street segments per scheme.")
+@click.option("--network-scheme", "network_schemes", multiple=True,
+              help="Only these schemes of --network (repeatable; default all, the base first).")
+@click.option("--network-colour", type=click.Choice(["auto", "hours"]), default="auto", show_default=True,
+              help="'auto': the base by comfortable hours, other schemes by the change against it; "
+                   "'hours': every scheme by comfortable hours.")
 @click.option("--offline", is_flag=True, help="Inline Leaflet: one self-contained file that opens without network.")
 @click.option("--tiles", default="none", show_default=True,
               help="Base map: 'none', 'osm', an http(s) {z}/{x}/{y} URL template, or a local tile folder.")
 @click.option("--attribution", default=None, help="Attribution text the tile source requires.")
 @click.option("--max-zoom", type=int, default=None, help="Highest zoom level of the tiles.")
 @click.option("--timezone", default=None, help="IANA zone for times in popups (default: the table's, else UTC).")
-@click.option("--layers", default=",".join(("comfort", "utci", "shade", "scene", "votes", "errors")),
+@click.option("--layers", default=",".join(("comfort", "utci", "shade", "scene", "votes", "errors", "network")),
               show_default=True, help="Comma-separated kinds of layer to draw.")
 @click.option("--decimals", type=int, default=5, show_default=True, help="Decimal places kept in coordinates.")
 @click.option("--simplify-m", type=float, default=1.0, show_default=True,
@@ -142,8 +239,8 @@ def is_model_bundle(path: Path) -> bool:
               help="Grid size of the model-error layer [m].")
 @click.option("--budget-mb", type=float, default=5.0, show_default=True, help="Warn when the file is larger [MB].")
 @click.option("--title", default=None, help="Title on the map (default: 'Predicted walking comfort').")
-def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, offline, tiles, attribution, max_zoom, timezone,
-         layers, decimals, simplify_m, error_cell_m, budget_mb, title):
+def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, network_dir, network_schemes, network_colour,
+         offline, tiles, attribution, max_zoom, timezone, layers, decimals, simplify_m, error_cell_m, budget_mb, title):
     """Write the HTML route map from prediction tables (POINTS) and/or recorded walks.
 
     POINTS are points.parquet files (or their folders) from 'walkcomfort route' / 'compare';
@@ -153,9 +250,9 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, off
 
     from walkcomfort.report.routemap import route_map, write_map
 
-    if not points and not walk_paths and scene_path is None:
+    if not points and not walk_paths and scene_path is None and network_dir is None:
         raise InputError("nothing to map", where="walkcomfort map",
-                         fix="give points.parquet, --walk folders or a --scene")
+                         fix="give points.parquet, --walk folders, a --scene or --network")
     tables, summaries, attrs = [], [], {}
     for p in points:
         df, meta = read_points(p)
@@ -169,9 +266,12 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, off
                         else None) or "UTC"
     schemes = list(scheme_paths)
     walks = find_walks(walk_paths)
+    error_source = "in-sample"
     if model_path is not None:
-        walks = predicted_walks(walks, model_path)
-    fmap = route_map(predictions, scene=scene_path, schemes=schemes, walks=walks,
+        walks, error_source = predicted_walks(walks, model_path)
+    network_layers = read_network_layers(network_dir, network_schemes) if network_dir is not None else None
+    fmap = route_map(predictions, scene=scene_path, schemes=schemes, walks=walks, error_source=error_source,
+                     network=network_layers, network_colour=network_colour,
                      summaries=pd.concat(summaries, ignore_index=True) if summaries else None,
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,

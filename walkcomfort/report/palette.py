@@ -66,6 +66,10 @@ assert set(UTCI_BAND_COLOURS) == {band[2] for band in C.UTCI_BANDS}
 SHADE_STOPS = ("#f7ec9c", "#b9c18c", "#6f8b88", "#3b5268", "#1d2a40")
 # model error rate in a map cell: 0 = always right (pale) ... 1 = always wrong (deep violet)
 ERROR_STOPS = ("#f3eef8", "#cbb8dd", "#9c7bbf", "#6c3d9a", "#3f0f6e")
+# comfortable hours of a street segment: few (warm sand, as "uncomfortable" leans) ... many (deep blue)
+NETWORK_HOURS_STOPS = ("#f1dfb8", "#c8cfb9", "#8fb2c9", "#4f82b6", "#1f4a87")
+# change in comfortable hours against the base: lost (brown) ... none (light grey) ... gained (blue)
+NETWORK_CHANGE_STOPS = ("#8c3b12", "#d9925c", "#e4e4e4", "#79a9d6", "#1d5aa6")
 
 # --- scene (buildings, trees, canopies) ----------------------------------------------------
 SCENE_COLOURS: dict[str, str] = {

@@ -70,10 +70,10 @@ PREDICTOR = "predictor"
 REASONS = "reasons"
 PROBA = tuple(f"p_{c}" for c in C.COMFORT_CLASSES)
 
-LAYER_KINDS = ("comfort", "utci", "shade", "scene", "votes", "errors")
+LAYER_KINDS = ("comfort", "utci", "shade", "scene", "votes", "errors", "network")
 # overlays that recolour the shown route layers (one switch each, not one layer per walk)
 MODE_LABELS = {"utci": "Colour routes by UTCI band", "shade": "Colour routes by shade"}
-DEFAULT_LAYERS = ("comfort", "utci", "shade", "scene", "votes", "errors")
+DEFAULT_LAYERS = ("comfort", "utci", "shade", "scene", "votes", "errors", "network")
 DEFAULT_SIZE_BUDGET_BYTES = 5_000_000
 MAX_WALK_LAYERS = 6  # more recorded walks than this share one votes layer
 SHADE_BINS = 5
@@ -85,6 +85,17 @@ CAUTION = ("Estimates for discussing design options, not a guarantee of heat saf
 
 ERRORS_NOTE = ("Cells group the votes of recorded walks; if those walks trained the model, these are "
                "in-sample errors and look smaller than on new walkers.")
+ERRORS_NOTE_HELD_OUT = ("Cells group the votes of recorded walks, each predicted by a model that never saw "
+                        "that walker (the fit's walker-grouped cross-validation): what to expect on new walkers.")
+ERROR_SOURCES = ("in-sample", "held-out")
+
+NETWORK_NOTE = ("Street segments: hours in the batch's time range, each hour a short walk along the "
+                "segment with no exposure before it; estimates for comparing schemes, not heat safety.")
+NETWORK_BINS = 5
+NETWORK_COLOURINGS = ("auto", "hours")
+# hours a segment's change must reach to count as a change (the layer files keep 2 decimals)
+NETWORK_NO_CHANGE_H = 0.005
+NETWORK_MIN_CHANGE_SCALE_H = 1.0  # [h] smallest full scale of the change colouring
 
 
 class MapSizeWarning(DataQualityWarning):
@@ -695,6 +706,102 @@ def model_error_cells(walks: Sequence[pd.DataFrame], cell_m: float = 50.0) -> pd
 
 
 # --------------------------------------------------------------------------------------
+# street network (layers of walkcomfort.network.summaries.network_layer)
+# --------------------------------------------------------------------------------------
+NETWORK_VALUES = ("hours_h", "comfortable_h", "expected_comfortable_h", "uncomfortable_h", "heat_stress_h",
+                  "mean_utci_c", "max_utci_c", "mean_shade_frac")
+NETWORK_CHANGES = ("d_comfortable_h", "gained_comfortable_h", "lost_comfortable_h", "d_heat_stress_h",
+                   "d_mean_utci_c")
+
+
+def _network_docs(network) -> list[dict]:
+    docs = []
+    for i, layer in enumerate(network or ()):
+        doc, where = _load_geojson(layer, "network layer")
+        meta = doc.get("walkcomfort") or {}
+        if not _text(meta.get("scheme")) or not isinstance(doc.get("features"), list):
+            raise InputError("not a network map layer (no walkcomfort.scheme or no features)", where=where or f"layer {i}",
+                             fix="pass network_layer_<scheme>.geojson written by 'walkcomfort network'")
+        docs.append(doc)
+    return docs
+
+
+def _is_change(doc: dict) -> bool:
+    """A layer of a scheme other than the base carries the change columns."""
+    feats = doc.get("features") or []
+    return bool(feats) and "d_comfortable_h" in (feats[0].get("properties") or {})
+
+
+def _fmt_h(v: float) -> str:
+    return f"{v:.1f}".rstrip("0").rstrip(".") if v < 10 else f"{v:.0f}"
+
+
+def network_keys(docs: Sequence[dict], colour: str = "auto") -> dict:
+    """Colour bins of the network layers, shared by every layer so switching schemes compares like with like.
+
+    ``hours``: comfortable hours in :data:`NETWORK_BINS` equal bins from 0 to the
+    longest time range of any segment. ``change`` (colour ``auto``, schemes other than the base):
+    comfortable hours gained or lost against the base, split at half the largest change, with
+    "no change" in the middle.
+
+    Returns
+    -------
+    dict
+        ``{"hours": [{"label", "colour", "hi"}...], "change": [...], "max_hours": H, "max_change": D}``.
+    """
+    if colour not in NETWORK_COLOURINGS:
+        raise InputError(f"network colouring {colour!r} is not one of {', '.join(NETWORK_COLOURINGS)}",
+                         where="--network-colour", fix="use 'auto' or 'hours'")
+    hours = [float(f["properties"].get("hours_h") or 0.0) for d in docs for f in d["features"]]
+    top = max(hours, default=0.0) or 1.0
+    edges = np.linspace(0.0, top, NETWORK_BINS + 1)
+    keys = {"hours": [{"label": f"{_fmt_h(edges[i])}–{_fmt_h(edges[i + 1])} h comfortable",
+                       "colour": P.ramp(P.NETWORK_HOURS_STOPS, i / (NETWORK_BINS - 1))}
+                      for i in range(NETWORK_BINS)], "max_hours": float(top), "change": [], "max_change": 0.0}
+    if colour == "auto" and any(_is_change(d) for d in docs):
+        d = [abs(float(f["properties"].get("d_comfortable_h") or 0.0)) for doc in docs if _is_change(doc)
+             for f in doc["features"]]
+        # with no change anywhere the scale still spans an hour, so the legend reads sensibly
+        big = max(max(d, default=0.0), NETWORK_MIN_CHANGE_SCALE_H)
+        half = _fmt_h(big / 2)
+        labels = (f"more than {half} h fewer comfortable", f"up to {half} h fewer", "no change",
+                  f"up to {half} h more", f"more than {half} h more comfortable")
+        keys["change"] = [{"label": lab, "colour": P.NETWORK_CHANGE_STOPS[i]} for i, lab in enumerate(labels)]
+        keys["max_change"] = float(big)
+    return keys
+
+
+def _network_bin(props: dict, change: bool, keys: dict) -> int:
+    if change:
+        v = float(props.get("d_comfortable_h") or 0.0)
+        if abs(v) < NETWORK_NO_CHANGE_H:
+            return 2
+        half = keys["max_change"] / 2
+        return (4 if v > half else 3) if v > 0 else (0 if -v > half else 1)
+    v = float(props.get("comfortable_h") or 0.0)
+    return int(min(NETWORK_BINS - 1, max(0, math.floor(v / keys["max_hours"] * NETWORK_BINS))))
+
+
+def _network_payload(doc: dict, label: str, change: bool, keys: dict, decimals: int) -> dict:
+    """Columnar data of one network layer (coordinates as [lat, lon], values to 2 decimals)."""
+    feats = [f for f in doc["features"] if (f.get("geometry") or {}).get("type") == "LineString"]
+    cols = NETWORK_VALUES + (NETWORK_CHANGES if change else ())
+    out = {"label": label, "change": bool(change), "id": [], "name": [], "k": [], "c": [],
+           "v": {c: [] for c in cols}}
+    for f in feats:
+        props = f.get("properties") or {}
+        out["id"].append(_text(props.get(C.SEGMENT_ID)) or "")
+        out["name"].append(_text(props.get("name")) or "")
+        out["k"].append(_network_bin(props, change, keys))
+        out["c"].append([[round(float(b), decimals), round(float(a), decimals)] for a, b, *_ in
+                         f["geometry"]["coordinates"]])
+        for c in cols:
+            v = props.get(c)
+            out["v"][c].append(None if v is None or not math.isfinite(float(v)) else round(float(v), 2))
+    return out
+
+
+# --------------------------------------------------------------------------------------
 # folium elements
 # --------------------------------------------------------------------------------------
 def _folium():
@@ -705,8 +812,11 @@ def _folium():
     return folium, Layer, Template
 
 
-def _legend_config() -> dict:
+def _legend_config(network_keys: dict | None = None, error_source: str = "in-sample") -> dict:
     return {
+        "network": (network_keys or {}).get("hours", []),
+        "network_change": (network_keys or {}).get("change", []),
+        "network_note": NETWORK_NOTE,
         "comfort": [{"name": c, "label": P.COMFORT_LABELS[c], "colour": P.COMFORT_COLOURS[c]}
                     for c in C.COMFORT_CLASSES],
         "utci": [{"name": b[2], "label": b[2][0].upper() + b[2][1:],
@@ -722,7 +832,9 @@ def _legend_config() -> dict:
         "halo": P.HALO_COLOUR,
         "tsv": {str(k): v for k, v in C.TSV_SCALE.items()},
         "caution": CAUTION,
-        "errors_note": ERRORS_NOTE,
+        "errors_note": ERRORS_NOTE_HELD_OUT if error_source == "held-out" else ERRORS_NOTE,
+        "errors_title": ("Where the model errs on held-out walkers" if error_source == "held-out"
+                         else "Where the model errs (in-sample)"),
     }
 
 
@@ -869,7 +981,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
               walks: Iterable = (), summaries: pd.DataFrame | None = None, timezone: str = "UTC",
               tiles=None, attribution: str | None = None,
               max_zoom: int | None = None, layers: Iterable[str] = DEFAULT_LAYERS, decimals: int = 5,
-              simplify_m: float = 1.0, error_cell_m: float = 50.0, title: str | None = None):
+              simplify_m: float = 1.0, error_cell_m: float = 50.0, title: str | None = None,
+              error_source: str = "in-sample", network: Iterable = (), network_colour: str = "auto"):
     """Build the interactive route map.
 
     Parameters
@@ -904,6 +1017,17 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     title : str, optional
         Title shown on the map and in the page title (default: "Predicted walking
         comfort", or "Recorded walks" for a map without predictions).
+    error_source : {"in-sample", "held-out"}
+        Where the walks' predictions come from: ``"held-out"`` when every vote was predicted
+        by a model that never saw its walker (the fit's out-of-fold predictions), which
+        names the error layer and its legend accordingly.
+    network : iterable of path or dict
+        Street-network layers (``network_layer_<scheme>.geojson`` of ``walkcomfort network``,
+        or :func:`walkcomfort.network.summaries.network_layer` dicts): one switchable layer
+        each, segments coloured by comfortable hours.
+    network_colour : {"auto", "hours"}
+        ``auto``: the base by comfortable hours, other schemes by the change against the
+        base; ``hours``: every scheme by comfortable hours.
 
     Returns
     -------
@@ -921,7 +1045,12 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         raise InputError(f"simplify_m={simplify_m} is negative", where="--simplify-m", fix="use 0 or more")
     zone = _zone(timezone)
     walk_frames = _walk_frames(walks)
-    if predictions is None and not walk_frames and scene is None:
+    if error_source not in ERROR_SOURCES:
+        raise InputError(f"error_source={error_source!r} is not one of {', '.join(ERROR_SOURCES)}",
+                         where="route_map", fix="use 'in-sample' or 'held-out'")
+    net_docs = _network_docs(network)
+    net_keys = network_keys(net_docs, network_colour) if net_docs else None
+    if predictions is None and not walk_frames and scene is None and not net_docs:
         raise InputError("nothing to map: no predictions, walks or scene given", where="route_map",
                          fix="pass a prediction table, recorded walks or a scene")
     if title is None:
@@ -929,7 +1058,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     E = _Elements.get()
     fmap = E["ComfortMap"](location=None, tiles=None, zoom_start=16, control_scale=True, prefer_canvas=False)
     fmap.get_root().title = html_lib.escape(title, quote=True)
-    fmap.add_child(E["Runtime"](_legend_config()), name="walkcomfort_runtime")
+    fmap.add_child(E["Runtime"](_legend_config(net_keys, error_source)), name="walkcomfort_runtime")
     source = tile_source(tiles, attribution, max_zoom)
     if source is not None:
         fmap.add_child(E["Tiles"](source), name="walkcomfort_tiles")
@@ -1011,6 +1140,21 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
             fmap.add_child(payload)
             fmap.add_child(E["DataLayer"]("scene", payload, _unique(label, seen), show=(j == 0)))
 
+    if net_docs and "network" in layers:
+        for j, doc in enumerate(net_docs):
+            name = str(doc["walkcomfort"]["scheme"])
+            change = network_colour == "auto" and _is_change(doc)
+            label = f"Streets · {label_of(name)} · " + ("change in comfortable hours" if change
+                                                        else "comfortable hours")
+            data = _network_payload(doc, label, change, net_keys, int(decimals))
+            for line in data["c"]:
+                lat_all += [p[0] for p in line]
+                lon_all += [p[1] for p in line]
+            payload = E["Payload"](data)
+            fmap.add_child(payload)
+            fmap.add_child(E["DataLayer"]("network-change" if change else "network", payload,
+                                          _unique(label, seen), show=(j == 0 and predictions is None)))
+
     if walk_frames and ("votes" in layers or "errors" in layers):
         walk_data = [_walk_payload(w, i, str(timezone), int(decimals), float(simplify_m))
                      for i, w in enumerate(walk_frames)]
@@ -1036,8 +1180,9 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
                                "n": int(r.n_votes), "w": int(r.n_wrong),
                                "rate": round(float(r.error_rate), 3), "top": _text(r.top_confusion)} for r in cells.itertuples()]})
                 fmap.add_child(payload)
-                fmap.add_child(E["DataLayer"]("errors", payload,
-                                              _unique(f"Model errors ({error_cell_m:g} m cells)", seen),
+                err_label = (f"Model errors, held-out walkers ({error_cell_m:g} m cells)" if error_source == "held-out"
+                             else f"Model errors ({error_cell_m:g} m cells)")
+                fmap.add_child(E["DataLayer"]("errors", payload, _unique(err_label, seen),
                                               show=predictions is None))
 
     folium, _, _ = _folium()
@@ -1449,6 +1594,50 @@ var WC = (function () {
     return group;
   }
 
+  function networkPopup(d, i) {
+    var box = el("div", "wc-popup"), t = el("table"), v = d.v, h = function (c) { return num(v[c][i], 1, "h"); };
+    box.appendChild(el("div", "wc-title", d.name[i] || d.id[i]));
+    box.appendChild(el("div", null, d.label));
+    row(t, "Segment", d.id[i]);
+    row(t, "Hours counted", h("hours_h"));
+    row(t, "Comfortable", h("comfortable_h") + " (expected " + h("expected_comfortable_h") + ")");
+    row(t, "Uncomfortable", h("uncomfortable_h"));
+    row(t, "UTCI above 32 \u00b0C", h("heat_stress_h"));
+    row(t, "UTCI mean / max", num(v.mean_utci_c[i], 1) + " / " + num(v.max_utci_c[i], 1, "\u00b0C"));
+    row(t, "Shade (mean)", pct(v.mean_shade_frac[i]));
+    box.appendChild(t);
+    if (d.change) {
+      var ct = el("table"), sign = function (x, unit) { return (x > 0 ? "+" : "") + num(x, 1, unit); };
+      box.appendChild(el("div", "wc-sub", "Against the base:"));
+      row(ct, "Comfortable", sign(v.d_comfortable_h[i], "h"));
+      row(ct, "Hours turned comfortable", h("gained_comfortable_h"));
+      row(ct, "Hours no longer comfortable", h("lost_comfortable_h"));
+      row(ct, "UTCI above 32 \u00b0C", sign(v.d_heat_stress_h[i], "h"));
+      row(ct, "Mean UTCI", sign(v.d_mean_utci_c[i], "\u00b0C"));
+      box.appendChild(ct);
+    }
+    return box;
+  }
+
+  function networkLayer(d) {
+    var group = L.featureGroup(), keys = d.change ? api.cfg.network_change : api.cfg.network;
+    group.wcLines = [];
+    group.wcHalos = [];
+    d.c.forEach(function (pts, i) {
+      var w = lineWeight();
+      // a dark casing keeps pale colours readable on a light base map
+      group.wcHalos.push(L.polyline(pts, {color: api.cfg.halo, weight: haloWeight(w), opacity: 0.55, interactive: false,
+                                          lineCap: "round", pane: "wcNetwork"}).addTo(group));
+      var line = L.polyline(pts, {color: keys[d.k[i]].colour, weight: w, opacity: 1,
+                                  lineCap: "round", className: "wc-street wc-street-k" + d.k[i], pane: "wcNetwork"});
+      line.bindTooltip(el("span", null, (d.name[i] || d.id[i]) + " \u2014 " + keys[d.k[i]].label), {sticky: true});
+      line.bindPopup(function () { return networkPopup(d, i); }, {maxWidth: 320});
+      group.wcLines.push(line);
+      line.addTo(group);
+    });
+    return group;
+  }
+
   function key(colour, text, dot) {
     var k = el("div", "wc-key"), s = el("span", "wc-swatch" + (dot ? " wc-dot" : ""));
     s.style.background = colour;
@@ -1475,7 +1664,15 @@ var WC = (function () {
     box.appendChild(section("shade", "Direct-sun shade", c.shade.map(function (x) { return key(x.colour, x.label); })));
     box.appendChild(section("votes", "Comfort votes", c.comfort.map(function (x) {
       return key(x.colour, x.label, true); }).concat([el("div", null, "fill = vote, ring = model's class")])));
-    box.appendChild(section("errors", "Where the model errs", c.errors.map(function (x) { return key(x.colour, x.label); })
+    if (c.network.length) {
+      box.appendChild(section("network", "Streets: comfortable hours", c.network.map(function (x) {
+        return key(x.colour, x.label); }).concat([el("div", "wc-caution", c.network_note)])));
+    }
+    if (c.network_change.length) {
+      box.appendChild(section("network-change", "Streets: change against the base", c.network_change.map(function (x) {
+        return key(x.colour, x.label); }).concat([el("div", "wc-caution", c.network_note)])));
+    }
+    box.appendChild(section("errors", c.errors_title, c.errors.map(function (x) { return key(x.colour, x.label); })
       .concat([el("div", "wc-caution", c.errors_note)])));
     box.appendChild(section("scene", "Scene", [key(c.scene.building, "building"), key(c.scene.tree, "tree crown"),
       key(c.scene.canopy, "canopy"), el("div", null, c.edit_legend)]));
@@ -1517,8 +1714,9 @@ var WC = (function () {
   api.init = function (map, cfg) {
     api.map = map;
     api.cfg = cfg;
-    // fixed drawing order whatever is switched on when: scene < error cells < routes < votes
+    // fixed drawing order whatever is switched on when: scene < streets < error cells < routes < votes
     map.createPane("wcScene").style.zIndex = 350;
+    map.createPane("wcNetwork").style.zIndex = 360;
     map.createPane("wcErrors").style.zIndex = 380;
     map.createPane("wcVotes").style.zIndex = 450;
     window.walkcomfortMap = map;
@@ -1539,6 +1737,7 @@ var WC = (function () {
     }
     else if (kind === "scene") { layer = sceneLayer(data); }
     else if (kind === "votes") { layer = votesLayer(data); }
+    else if (kind === "network" || kind === "network-change") { layer = networkLayer(data); }
     else { layer = errorsLayer(data); }
     layer.wcTop = true;
     api.registry.push({kind: kind, label: label, layer: layer});
