@@ -35,10 +35,13 @@ def test_to_steps_interpolates_within_the_max_gap_only():
     t = np.array([0, 2, 8], dtype=np.int64) * 10**9
     v = np.array([[10.0], [12.0], [18.0]])
     out, gap = _to_steps(t, v, s, 10**9, max_gap_s=3.0)
+    # linear interpolation between 10 at 0 s and 12 at 2 s gives 11 at 1 s; the 6 s gap to the
+    # next sample exceeds max_gap_s, so it stays NaN and flagged (from the definition of the resampling)
     np.testing.assert_allclose(out[:3, 0], [10, 11, 12])
     assert np.isnan(out[3:8, 0]).all() and out[8, 0] == 18 and np.isnan(out[9, 0])
     assert list(gap) == [False, False, False, True, True, True, True, True, False, True]
     out, gap = _to_steps(t, v, s, 10**9, max_gap_s=6.0)
+    # a 6 s gap within max_gap_s: linear from 12 to 18, 1 per second (from the definition)
     np.testing.assert_allclose(out[2:9, 0], [12, 13, 14, 15, 16, 17, 18])
 
 

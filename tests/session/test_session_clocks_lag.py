@@ -60,11 +60,15 @@ def test_correct_lag_series_restarts_after_gaps():
     s = pd.Series(y, index=idx).drop(idx[40:45])
     out = correct_lag(s, 5.0, smooth_s=0.0, max_gap_s=3.0)
     assert out.index.equals(s.index)
+    # the exact inverse of the first-order lag recovers the 20 -> 25 °C step before the gap
+    # (from the definition of the first-order response)
     np.testing.assert_allclose(out.iloc[:40], x[:40], atol=1e-9)
 
 
 def test_moving_average_nan_aware():
     out = moving_average([1.0, np.nan, 3.0, 5.0], 3)
+    # centred 3-sample mean over the finite values: [1] -> 1, [3, 5] -> 4; a NaN input stays NaN
+    # (from the definition)
     assert np.isnan(out[1]) and out[0] == 1.0 and out[2] == 4.0
 
 
@@ -103,6 +107,8 @@ def test_clock_fit_reports_residual():
     jitter = rng.normal(0, 0.5, len(true))   # reading a clock display to ±0.5 s
     device = true + pd.to_timedelta(-3.0 + jitter, unit="s")
     fit = fit_clock(device, true)
+    # least squares on N(0, 0.5 s) jitter: offset within a few standard errors (0.5/√40 ≈ 0.08 s),
+    # residual RMS near the jitter's 0.5 s (from the definition of the normal spread)
     assert fit.offset_s == pytest.approx(-3.0, abs=0.3)
     assert fit.residual_rms_s == pytest.approx(0.5, rel=0.35)
     assert fit.residual_max_s >= fit.residual_rms_s
@@ -111,6 +117,7 @@ def test_clock_fit_reports_residual():
 def test_one_event_fits_offset_only():
     t = pd.DatetimeIndex([pd.Timestamp("2026-07-14T08:00:00Z")])
     fit = fit_clock(t + pd.Timedelta(seconds=7), t)
+    # one event fixes the offset only (device − true = 7 s) and leaves no degree of freedom (from the definition)
     assert fit.method == "sync-offset" and fit.offset_s == 7.0 and fit.dof == 0
 
 

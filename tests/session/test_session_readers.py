@@ -102,6 +102,7 @@ def test_fall_back_local_times_follow_row_order(tmp_path):
     rows = ["2026-10-25 02:30:00", "2026-10-25 02:59:59", "2026-10-25 02:00:00", "2026-10-25 02:30:00"]
     spec, src = _weather_session(tmp_path, rows)
     df, meta = read_weather(src.abs_path, src, spec)
+    # 02:30 CEST = 00:30 UTC, 02:59:59 CEST = 00:59:59 UTC, then 02:00 CET = 01:00 UTC (IANA tz database)
     assert list(df.index) == [pd.Timestamp("2026-10-25T00:30:00Z"), pd.Timestamp("2026-10-25T00:59:59Z"),
                               pd.Timestamp("2026-10-25T01:00:00Z"), pd.Timestamp("2026-10-25T01:30:00Z")]
     assert meta["rows_quarantined"] == 0
@@ -111,6 +112,7 @@ def test_ambiguous_hour_without_order_is_quarantined(tmp_path):
     rows = ["2026-10-25 01:59:00", "2026-10-25 02:30:00", "2026-10-25 03:30:00"]
     spec, src = _weather_session(tmp_path, rows)
     df, meta = read_weather(src.abs_path, src, spec)
+    # 02:30 on 2026-10-25 occurs twice in Europe/Madrid (IANA tz database); with no order to tell, it is set aside
     assert list(meta["quarantine"]["reason"]) == ["ambiguous_local_time"]
     assert len(df) == 2
 
@@ -156,6 +158,7 @@ def test_gpx10():
     df, meta = _gps(SESSIONS / "broken" / "gpx10_ok")
     assert meta["gpx_version"] == "1.0" and len(df) == 60
     assert df[C.ELEV_M].notna().all()
+    # the fixture's first GPX 1.0 point is written at 08:00:00Z (tests/fixtures/sessions/make_fixtures.py)
     assert df.index[0] == pd.Timestamp("2026-07-14T08:00:00Z")
 
 
@@ -185,6 +188,7 @@ def test_gps_csv(tmp_path):
     (d / "session.toml").write_text((d / "session.toml").read_text().replace('path = "track.gpx"',
                                                                               'path = "track.csv"'))
     df, meta = _gps(d)
+    # latitude is bounded by ±90° (WGS 84 definition); 0,0 is the usual null fix of a receiver (common practice)
     assert len(df) == 2 and list(meta["quarantine"]["reason"]) == ["out_of_range:lat", "null_position"]
 
 
@@ -193,6 +197,7 @@ def test_weather_fixture_units_and_counts():
     spec = load_manifest(WALK_OK)
     src = spec.sources_of("weather")[0]
     df, meta = read_weather(src.abs_path, src, spec)
+    # the counts the fixture generator writes (tests/fixtures/sessions/make_fixtures.py)
     assert meta["rows_read"] == meta["rows_used"] + meta["rows_quarantined"] == 320
     assert list(df.columns) == [C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.T_GLOBE_C]
     assert meta["wind_height_m"] == 1.1
@@ -230,6 +235,7 @@ def test_frames_from_filename_pattern_and_without_exif(tmp_path):
     spec = load_manifest(d)
     a, b = spec.sources_of("frames")
     df, meta = read_frames(a.abs_path, a, spec)
+    # 10:00:05 and 10:00:17 CEST (UTC+2 in July, IANA tz database) in the file names
     assert list(df.index) == [pd.Timestamp("2026-07-14T08:00:05Z"), pd.Timestamp("2026-07-14T08:00:17Z")]
     assert list(meta["quarantine"]["reason"]) == ["name_does_not_match"]
     df, meta = read_frames(b.abs_path, b, spec)
@@ -284,6 +290,7 @@ def test_date_and_time_in_separate_columns_with_decimal_comma(tmp_path):
     df, meta = read_weather(src.abs_path, src, spec)
     assert list(df.index) == [pd.Timestamp("2026-07-14T08:00:00Z"), pd.Timestamp("2026-07-14T08:00:02Z")]
     assert list(df[C.T_AIR_C]) == [30.5, 30.7]
+    # 1 km/h = 1/3.6 m/s (from the definition); 10:00 CEST = 08:00 UTC
     assert list(df[C.WIND_MS]) == pytest.approx([1.0, 2.0])   # 3.6 and 7.2 km/h
 
 

@@ -23,6 +23,7 @@ def tl():
 def test_timeline_grid_and_columns(tl):
     d = tl.data
     assert d.index.name == C.TIME and str(d.index.tz) == "UTC"
+    # a 1 s grid: build_timeline's default step_s = 1.0 (contract in DEVELOPERS.md); times from the fixture generator
     assert (np.diff(d.index.asi8) == 1_000_000_000).all()
     # the track runs 08:00:00 ... 08:09:59 UTC (10:00 local, CEST)
     assert d.index[0] == pd.Timestamp("2026-07-14T08:00:00Z")
