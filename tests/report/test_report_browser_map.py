@@ -268,3 +268,51 @@ def test_named_tile_provider_passes_the_page_policy(browser, served, tmp_path, a
     assert "OpenStreetMap contributors" in page.locator(".leaflet-control-attribution").inner_text()
     page.screenshot(path=str(artifacts_dir / "routemap_tile_provider.png"))
     _clean(browser)
+
+
+@pytest.fixture
+def network_page(tmp_path):
+    fmap = R.route_map(S.predictions(), schemes=[S.scheme()], network=S.network_layers(), timezone="Europe/Madrid")
+    R.write_map(fmap, tmp_path / "network.html")
+    return "network.html"
+
+
+def test_network_layers_exist_toggle_and_explain_themselves(browser, served, network_page, artifacts_dir):
+    page = _open(browser, served, network_page)
+    _expand_layers(page)
+    labels = [t.strip() for t in page.locator(".leaflet-control-layers-overlays label").all_inner_texts()]
+    base_label = f"Streets · {R._base_label('base')} · comfortable hours"
+    change_label = "Streets · More street trees · change in comfortable hours"
+    assert base_label in labels and change_label in labels
+    # over predicted routes the streets start switched off
+    assert page.locator("path.wc-street").count() == 0
+    assert not page.locator('.wc-sec[data-kind="network"]').is_visible()
+    _toggle(page, base_label)
+    _wait_drawn(page, "path.wc-street")
+    assert page.locator("path.wc-street").count() == 12
+    colours = set(page.locator("path.wc-street").evaluate_all("els => els.map(e => e.getAttribute('stroke'))"))
+    hours_colours = {R.P.ramp(R.P.NETWORK_HOURS_STOPS, i / (R.NETWORK_BINS - 1)) for i in range(R.NETWORK_BINS)}
+    assert colours <= hours_colours and len(colours) >= 3
+    assert page.locator('.wc-sec[data-kind="network"]').is_visible()
+    assert page.locator('.wc-sec[data-kind="network"] .wc-key').count() == R.NETWORK_BINS
+    # the change layer: gained, lost and unchanged streets in their own colours, its own legend
+    _toggle(page, base_label)
+    page.wait_for_function("() => document.querySelectorAll('path.wc-street').length === 0")
+    assert not page.locator('.wc-sec[data-kind="network"]').is_visible()
+    _toggle(page, change_label)
+    _wait_drawn(page, "path.wc-street")
+    colours = set(page.locator("path.wc-street").evaluate_all("els => els.map(e => e.getAttribute('stroke'))"))
+    assert {R.P.NETWORK_CHANGE_STOPS[4], R.P.NETWORK_CHANGE_STOPS[2]} <= colours
+    assert colours & {R.P.NETWORK_CHANGE_STOPS[0], R.P.NETWORK_CHANGE_STOPS[1]}
+    assert page.locator('.wc-sec[data-kind="network-change"]').is_visible()
+    # a popup names the street as text (the first street's name is markup-like) and the change
+    page.mouse.move(640, 840)
+    _click_path(page, page.locator("path.wc-street-k4").first)
+    popup = page.locator(".leaflet-popup-content .wc-popup")
+    popup.wait_for(timeout=5_000)
+    text = popup.inner_text()
+    assert S.XSS_LABEL.split(" ")[0] in text and "<img" in text  # shown, not run
+    assert "Against the base" in text and "+2.0" in text
+    assert page.evaluate("typeof window.__pwned") == "undefined"
+    page.screenshot(path=str(artifacts_dir / "routemap_network_change.png"))
+    _clean(browser)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import pandas as pd
 import pytest
 
@@ -125,3 +127,70 @@ def test_map_command_predicts_walks_with_a_model(tmp_path, monkeypatch, capsys):
     assert "in-sample" in page
     assert main(["map", "--walk", str(walks), "--model", str(tmp_path), "-o", str(out)]) == 2
     assert "not a model bundle" in capsys.readouterr().err
+
+
+def _oof_bundle(folder, walk_id, timeline, predicted="comfortable"):
+    """A bundle folder holding out-of-fold predictions of the votes of one walk (manifest digest set)."""
+    import numpy as np
+
+    from walkcomfort import columns as C
+    from walkcomfort.model.bundle import SCHEMA
+    from walkcomfort.model.workflow import OOF_FILE
+
+    votes = timeline[timeline[C.VOTE_COMFORT].notna()]
+    n = len(votes)
+    oof = pd.DataFrame({C.WALK_ID: pd.array([walk_id] * n, dtype="string"),
+                        C.PARTICIPANT: pd.array(["P01"] * n, dtype="string"),
+                        C.LAT: votes[C.LAT].to_numpy(), C.LON: votes[C.LON].to_numpy(),
+                        "vote": pd.array(votes[C.VOTE_COMFORT].astype(str), dtype="string"),
+                        "predicted": pd.array([predicted] * n, dtype="string"),
+                        "p_comfortable": 0.7, "p_neutral": 0.2, "p_uncomfortable": 0.1,
+                        "fold": np.zeros(n, dtype="int64")}, index=votes.index)
+    path = _io.write_parquet(folder / OOF_FILE, oof)
+    _io.write_json(folder / "manifest.json", {"schema": SCHEMA, "extra": {"oof_predictions": {
+        "file": OOF_FILE, "digest": _io.file_digest(path), "rows": n}}})
+    return folder
+
+
+def test_map_command_uses_the_held_out_predictions_of_the_bundle(tmp_path, monkeypatch):
+    """A walk that trained the model gets the fit's out-of-fold classes, and the layer says held-out."""
+    import walkcomfort.model.bundle as bundle
+
+    walks = tmp_path / "ingest"
+    _write_walk(walks / "tw-a", with_prediction=False)
+    model_dir = _oof_bundle(tmp_path / "bundle", "tw-a", S.timeline(with_prediction=False))
+
+    def no_bundle(folder):
+        raise AssertionError("the held-out predictions need no refitted model")
+
+    monkeypatch.setattr(bundle, "load_bundle", no_bundle)
+    out = tmp_path / "m.html"
+    assert main(["map", "--walk", str(walks), "--model", str(model_dir), "-o", str(out)]) == 0
+    page = out.read_text()
+    assert "Model errors, held-out walkers (50 m cells)" in page
+    assert "never saw that walker" in page and "in-sample errors" not in page
+    # 5 votes, all predicted "comfortable": 4 disagree (one vote is comfortable)
+    cells = re.findall(r'"n":(\d+),"w":(\d+)', page)
+    assert sum(int(n) for n, _ in cells) == 5 and sum(int(w) for _, w in cells) == 4
+
+
+def test_map_command_falls_back_to_in_sample_for_a_walker_who_trained_it(tmp_path, monkeypatch):
+    """A walk missing from the out-of-fold file, by a walker who trained the model: in-sample, with its caveat."""
+    import walkcomfort.model.bundle as bundle
+    import walkcomfort.model.predict as predict
+
+    walks = tmp_path / "ingest"
+    _write_walk(walks / "tw-b", with_prediction=False)  # participant P01, as in the bundle's folds
+    model_dir = _oof_bundle(tmp_path / "bundle", "tw-a", S.timeline(with_prediction=False))
+
+    def fake_predict(model, timeline, reasons=True, **kw):
+        out = pd.DataFrame(index=timeline.index)
+        out["comfort_class"] = "neutral"
+        return out
+
+    monkeypatch.setattr(bundle, "load_bundle", lambda folder: "model")
+    monkeypatch.setattr(predict, "predict_timeline", fake_predict)
+    out = tmp_path / "m.html"
+    assert main(["map", "--walk", str(walks), "--model", str(model_dir), "-o", str(out)]) == 0
+    page = out.read_text()
+    assert "Model errors (50 m cells)" in page and "in-sample errors" in page
