@@ -56,6 +56,7 @@ def test_elevations_give_the_slope(line_factory):
     lon1 = Geod(ellps="WGS84").fwd(-3.70, 40.40, 90.0, 100.0)[0]
     r = load_route(line_factory([[-3.70, 40.40, 600.0], [lon1, 40.40, 610.0]]))
     assert r.elevation_source == "file"
+    # grade = rise/run = 10 m / 100 m (from the definition); the 100 m is laid out with pyproj.Geod (reference library)
     assert r.points["slope_pct"].to_numpy() == pytest.approx(10.0, rel=2e-3)
 
 
@@ -66,6 +67,7 @@ def test_stops_from_properties_and_points(line_factory):
                                 {"stops": [{"dist_m": 10, "wait_s": 30, "label": "crossing"}]}, [stop_pt]))
     assert r.stops["label"].tolist() == ["crossing", "bus"]
     assert r.stops["wait_s"].tolist() == [30.0, 20.0]
+    # the stop point sits at the middle longitude of a straight east-west line: half its length (from the geometry)
     assert r.stops["dist_m"].iloc[1] == pytest.approx(r.length_m / 2, abs=1.0)
 
 

@@ -72,6 +72,7 @@ def test_point_table_has_the_contract_columns(street, scene):
     assert list(pts.columns[:len(POINT_COLUMNS)]) == list(POINT_COLUMNS)
     assert str(pts.index.tz) == "UTC" and pts.index.name == "time"
     p = pts[["p_comfortable", "p_neutral", "p_uncomfortable"]].sum(axis=1)
+    # the three class probabilities sum to one (from the definition of a probability)
     assert np.allclose(p, 1.0)
     assert (pts["predictor"] == PHYSICS_RULE).all()
     assert pts["reasons"].str.contains("UTCI-band rule").all()
@@ -83,6 +84,8 @@ def test_tree_row_gains_shade_and_lowers_utci(street, scene):
     deps = parse_departures("2026-07-15T17:00", timezone=TZ)  # summer afternoon, sun to the south-west
     res = compare_schemes(r, [tree_row_scheme()], deps, HOT, scene=scene)
     s = res.summary.set_index("scheme")
+    # open street vs a dense tree row at 17:00 CEST: shade cuts the beam and so Tmrt and UTCI
+    # (physical expectation; the 0.1 / 0.5 / 2 K margins are test thresholds, not published values)
     assert s.loc["base", "shade_share"] < 0.1
     assert s.loc["tree-row", "shade_share"] > 0.5
     assert s.loc["tree-row", "mean_utci_c"] < s.loc["base", "mean_utci_c"] - 2.0
@@ -90,6 +93,7 @@ def test_tree_row_gains_shade_and_lowers_utci(street, scene):
     assert c["delta_mean_utci_c"] < -2.0 and c["delta_shade_share"] > 0.5
     cost = res.cost.iloc[0]
     assert cost["trees_added"] == len(tree_row_scheme().edits)
+    # per-tree gain is the gain over the count (from the definition)
     assert cost["gain_min_per_tree"] == pytest.approx(cost["gain_comfortable_min"] / cost["trees_added"])
 
 
@@ -100,6 +104,7 @@ def test_empty_scheme_is_identical_to_base(street, scene):
     res = compare_schemes(r, [empty], deps, HOT, scene=scene)
     a = res.points[res.points["scheme"] == "base"].drop(columns="scheme")
     b = res.points[res.points["scheme"] == "nothing"].drop(columns="scheme")
+    # a scheme with no edits leaves the scene as it is: identical rows (from the definition)
     pd.testing.assert_frame_equal(a, b, check_exact=True)
     assert (res.comparison.filter(like="delta_") == 0).all().all()
 

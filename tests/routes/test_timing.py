@@ -26,6 +26,7 @@ def test_tobler_uphill_slower_downhill_fastest():
 
 
 def test_scaled_to_flat_speed():
+    # Tobler (1993) scaled so that flat ground walks at the given speed: v(S) = v0·W(S)/W(0)
     v = walking_speed_ms(np.array([0.0, 0.10, -0.05]), flat_speed_ms=1.3)
     assert v[0] == pytest.approx(1.3)
     assert v[1] == pytest.approx(1.3 * np.exp(-3.5 * 0.15) / np.exp(-3.5 * 0.05))
@@ -41,6 +42,7 @@ def _points(length_m=100.0, spacing=5.0, slope_pct=0.0):
 
 
 def test_flat_schedule_takes_length_over_speed_and_steps_sum_to_walk_time():
+    # 100 m at 1.25 m/s takes 80 s (from the definition of speed)
     s = walk_schedule(_points(100.0), flat_speed_ms=1.25)
     assert s["t_s"].iloc[-1] == pytest.approx(80.0)
     assert s["step_s"].sum() == pytest.approx(80.0)
@@ -48,6 +50,7 @@ def test_flat_schedule_takes_length_over_speed_and_steps_sum_to_walk_time():
 
 
 def test_uphill_takes_longer_than_downhill():
+    # Tobler (1993): a 5 % downhill is fastest and a 10 % uphill slower than flat
     up = walk_schedule(_points(100.0, slope_pct=10.0))["t_s"].iloc[-1]
     down = walk_schedule(_points(100.0, slope_pct=-5.0))["t_s"].iloc[-1]
     flat = walk_schedule(_points(100.0))["t_s"].iloc[-1]
@@ -56,6 +59,7 @@ def test_uphill_takes_longer_than_downhill():
 
 
 def test_stop_adds_its_wait_and_rows_at_its_place():
+    # 100 m at 1 m/s = 100 s, plus the 30 s wait = 130 s (from the definition)
     stops = pd.DataFrame({"dist_m": [42.0], "wait_s": [30.0], "label": ["crossing"]})
     s = walk_schedule(_points(100.0), stops, flat_speed_ms=1.0, stop_step_s=5.0)
     assert s["t_s"].iloc[-1] == pytest.approx(130.0)
@@ -68,6 +72,7 @@ def test_stop_adds_its_wait_and_rows_at_its_place():
 
 
 def test_stop_on_a_route_point_does_not_duplicate_the_instant():
+    # 100 s walking + 10 s wait = 110 s (from the definition)
     stops = pd.DataFrame({"dist_m": [50.0], "wait_s": [10.0], "label": ["light"]})
     s = walk_schedule(_points(100.0), stops, flat_speed_ms=1.0, stop_step_s=5.0)
     assert not s["t_s"].duplicated().any()
@@ -75,6 +80,7 @@ def test_stop_on_a_route_point_does_not_duplicate_the_instant():
 
 
 def test_departure_sweep_and_single_times():
+    # 08:00..10:00 every 30 min is 5 departures, plus 15:00 = 6 (from the definition of the sweep)
     deps = parse_departures(["2026-07-15T08:00..2026-07-15T10:00/30min", "2026-07-15T15:00"], timezone="Europe/Madrid")
     assert len(deps) == 6
     assert str(deps.tz) == "UTC"

@@ -33,6 +33,8 @@ def test_temperature_at_the_hour_is_the_files_value(greensboro_tmy3, gso_file):
     c = w.conditions(t, *GSO)
     at15 = float(raw.loc["2001-07-09 15:00", "temp_air"])
     at16 = float(raw.loc["2001-07-09 16:00", "temp_air"])
+    # reference: pvlib.iotools.read_tmy3 reads the same file; between hours the value is linear
+    # (15:30 = mean of 15:00 and 16:00, from the definition of linear interpolation)
     assert c[C.T_AIR_C].iloc[0] == pytest.approx(at15)
     assert c[C.T_AIR_C].iloc[1] == pytest.approx((at15 + at16) / 2)
 
@@ -130,6 +132,7 @@ def test_design_day_rules(greensboro_tmy3, gso_file):
     # independent daily maxima: each hour-ending value belongs to the day its hour starts in
     start = raw.index.tz_localize(None) - pd.Timedelta(hours=1)
     tmax = raw["temp_air"].groupby(start.normalize()).max()
+    # reference values computed here from pvlib.iotools.read_tmy3's reading of the same file
     assert daily_max_temperature(w).max() == pytest.approx(tmax.max())
     hot = design_day(w, "hottest")
     assert hot.t_max_c == pytest.approx(tmax.max())
@@ -171,6 +174,7 @@ def test_logger_series_interpolates_and_refuses_outside(tmp_path):
     df.to_csv(p, index=False)
     src = open_weather(p, wind_height_m=1.1)
     assert isinstance(src, LoggerSeries) and src.notices  # no pyranometer: says so
+    # 12:05 is half-way between 30 °C at 12:00 and 31 °C at 12:10: 30.5 °C (linear interpolation, from the definition)
     c = src.conditions(pd.DatetimeIndex(["2026-07-15T12:05Z"]), 40.4, -3.7)
     assert c[C.T_AIR_C].iloc[0] == pytest.approx(30.5)
     with pytest.raises(InputError, match="outside the logger"):
@@ -199,6 +203,7 @@ def test_missing_markers_are_quarantined_not_dropped(greensboro_tmy3, tmp_path):
     with pytest.warns(DataQualityWarning, match="1 weather values"):
         data, meta = read_weather_file(bad)
     q = meta["quarantine"]
+    # TMY3 has two header lines before the 8760 hourly records (NREL TMY3 user's manual, from memory)
     assert len(q) == 1 and q["row"].iloc[0] == 4500 - 2 and "t_air_c" in q["reason"].iloc[0]
     assert len(data) == 8760 and data[C.T_AIR_C].isna().sum() == 1
     truncated = tmp_path / "cut.csv"
@@ -216,6 +221,7 @@ def test_logger_from_an_ingested_timeline_parquet(tmp_path):
     p = _io.write_parquet(tmp_path / "timeline.parquet", df, {"session": {"wind_height_m": 1.1}})
     src = open_weather(p)
     assert isinstance(src, LoggerSeries) and src.wind_height_m == 1.1 and not src.notices
+    # linspace(30, 31) over 10 min: 30.5 °C at 12:05 (from the definition of the test series)
     c = src.conditions(pd.DatetimeIndex(["2026-07-15T12:05Z"]), 40.4, -3.7)
     assert c[C.T_AIR_C].iloc[0] == pytest.approx(30.5)
     # the measured global irradiance is kept and split into beam and diffuse (Erbs)
