@@ -37,12 +37,14 @@ def test_planted_neutral_utci_and_range_are_recovered_with_walker_intervals():
     u, tsv, comfort, g = _votes()
     res = local_calibration(u, tsv, comfort, groups=g, n_boot=60, seed=1)
     # rounding to the 7-point scale biases the line little near the middle; 1.5 °C is generous
+    # 24 °C neutral and the 18..30 °C acceptable range are planted in _votes() (invented test data)
     assert res["neutral"]["neutral_utci_c"] == pytest.approx(24.0, abs=1.5)
     lo, hi = res["ci"]["neutral_utci_c"]
     assert lo <= res["neutral"]["neutral_utci_c"] <= hi
     assert res["range"]["lower_c"] == pytest.approx(18.0, abs=2.0)
     assert res["range"]["upper_c"] == pytest.approx(30.0, abs=2.0)
     assert not res["range"]["lower_open"] and not res["range"]["upper_open"]
+    # 9..26 °C is the UTCI 'no thermal stress' band (Bröde et al. 2012, doi:10.1007/s00484-011-0454-1)
     assert res["reference_band_c"] == [9.0, 26.0] and res["n_walkers"] == 12
 
 
@@ -51,6 +53,7 @@ def test_a_range_beyond_the_data_is_marked_open():
     u = rng.uniform(28, 42, 400)  # hot days only: acceptability only falls
     acc = rng.random(400) < 1 / (1 + np.exp(-(0.6 * (34 - u) + np.log(4))))
     r = acceptable_range(u, np.where(acc, "neutral", "uncomfortable"))
+    # the planted logistic crosses 50 % acceptability at 34 °C (invented test data); below the data the range is open
     assert r["lower_open"] and not r["upper_open"]
     assert r["lower_c"] == pytest.approx(u.min()) and r["upper_c"] == pytest.approx(34.0, abs=1.5)
 
@@ -82,6 +85,7 @@ def test_newton_logistic_matches_scikit_learn_unpenalised():
     rng = np.random.default_rng(4)
     z = rng.normal(size=(500, 2))
     y = (rng.random(500) < 1 / (1 + np.exp(-(0.5 + 1.2 * z[:, 0] - 0.7 * z[:, 1])))).astype(float)
+    # reference: scikit-learn LogisticRegression with a negligible penalty (C = 1e8)
     beta = _logistic_newton(z, y)
     ref = LogisticRegression(C=1e8, tol=1e-10, max_iter=10000).fit(z, y)
     np.testing.assert_allclose(beta, np.r_[ref.intercept_, ref.coef_[0]], rtol=1e-4, atol=1e-5)

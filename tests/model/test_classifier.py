@@ -40,6 +40,7 @@ def test_two_fits_give_identical_predictions(small_table):
 def test_balanced_weights_match_scikit_learn():
     from sklearn.utils.class_weight import compute_sample_weight
 
+    # reference: scikit-learn compute_sample_weight('balanced'): n / (k · n_class)
     codes = np.array([0, 0, 0, 1, 2, 2, 0, 1])
     np.testing.assert_allclose(balanced_weights(codes, 3), compute_sample_weight("balanced", codes))
 

@@ -32,7 +32,9 @@ def test_fit_then_evaluate_give_the_same_numbers(timeline_dir, tmp_path, capsys)
     assert main(["fit", str(timeline_dir), "-o", str(bundle), "--folds", "3", "--rounds", "30",
                  "--bootstrap", "20"]) == 0
     fit_out = capsys.readouterr().out
-    assert {p.name for p in bundle.iterdir()} == {"model.txt", "manifest.json", "metrics.json", "report.html"}
+    # the bundle's files (DEVELOPERS.md contract); out-of-fold predictions since e9ce00e
+    assert {p.name for p in bundle.iterdir()} == {"model.txt", "manifest.json", "metrics.json", "report.html",
+                                                  "oof_predictions.parquet"}
     report = (bundle / "report.html").read_text()
     assert "not a heat-safety tool" in report and report.count("data:image/png;base64,") >= 6
     metrics = json.loads((bundle / "metrics.json").read_text())

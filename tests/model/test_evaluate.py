@@ -36,6 +36,7 @@ def test_metrics_on_a_hand_checked_confusion_matrix():
 
 def test_a_class_never_predicted_scores_like_scikit_learn_zero_division():
     yt, yp = [c, n, u, u], [c, c, u, u]
+    # reference: scikit-learn f1_score with zero_division=0
     m = classification_metrics(yt, yp, np.full((4, 3), 1 / 3), LABELS)
     assert m["macro_f1"] == pytest.approx(skm.f1_score(yt, yp, labels=LABELS, average="macro", zero_division=0))
 
@@ -44,6 +45,7 @@ def test_log_loss_brier_and_reliability_match_scikit_learn():
     rng = np.random.default_rng(0)
     p = rng.dirichlet([1, 1, 1], size=200)
     y = np.array(LABELS, dtype=object)[rng.integers(0, 3, 200)]
+    # reference: scikit-learn log_loss, brier_score_loss and calibration_curve
     assert log_loss(y, p, LABELS) == pytest.approx(skm.log_loss(y, p, labels=LABELS))
     assert brier(y, p, LABELS) == pytest.approx(skm.brier_score_loss(y, p, labels=LABELS, scale_by_half=False))
     rel = reliability(y, p, LABELS, n_bins=10)
@@ -72,6 +74,7 @@ def test_cross_validation_scores_every_row_once_and_reports_groups(small_table):
     for k in cv.metrics:
         assert not np.isnan(cv.proba[k]).any()
         assert cv.metrics[k]["n"] == len(small_table.y)
+    # grouped folds test every row exactly once (from the definition of cross-validation)
     assert sum(f["n_test"] for f in cv.folds) == len(small_table.y)
     per_walker = group_scores(cv.y, cv.pred["history"], cv.groups)
     assert per_walker["n"].sum() == len(cv.y) and len(per_walker) == 8

@@ -32,6 +32,7 @@ def test_missing_sources_give_nan_not_errors():
     X = build_features(_walk(120))  # no sensor columns at all
     assert X.shape == (120, len(FEATURES))
     assert X[C.UTCI_C].isna().all() and X["leq_5min"].isna().all()
+    # 120 rows at 1 s: the last is 119 s = 119/60 min after the start (from the definition)
     assert np.allclose(X["walk_elapsed_min"].iloc[-1], 119 / 60)
 
 
@@ -44,6 +45,7 @@ def test_history_looks_back_only():
     changed.iloc[500:, changed.columns.get_loc(C.UTCI_C)] += 15.0
     changed.iloc[500:, changed.columns.get_loc(C.SHADE_FRAC)] = 0.0
     after = build_features(changed)
+    # causal windows: a change at row 500 cannot reach earlier rows (from the definition of a trailing window)
     pd.testing.assert_frame_equal(base.iloc[:500], after.iloc[:500])
     assert not np.allclose(base["utci_ewm_10min"].iloc[500:], after["utci_ewm_10min"].iloc[500:])
 
@@ -57,6 +59,7 @@ def test_windows_never_reach_into_the_previous_walk_and_order_is_kept():
     assert Xs.index.equals(stacked.index)
     Xb = build_features(b)
     got = Xs[stacked[C.WALK_ID].to_numpy() == "b"].sort_index()
+    # windows are per walk: b's features are the same with or without a stacked beside it (from the definition)
     np.testing.assert_allclose(got.to_numpy(), Xb.sort_index().to_numpy(), rtol=1e-12, atol=1e-9)
 
 
@@ -103,6 +106,7 @@ def test_participant_attributes_from_session_attrs():
     tl = _walk(30, utci_c=28.0)
     tl.attrs["session"] = {"clo": 0.6, "acclimatised": True, "age_band": "35-49"}
     X = build_features(tl)
+    # copied from the session attributes; an age band's lower bound is its first number (from the definition)
     assert (X["clo"] == 0.6).all() and (X["acclimatised"] == 1.0).all() and (X["age_band_lower"] == 35).all()
     X2 = build_features(_walk(30), participants={"P01": {"clo": 0.4, "age_band": "65+"}})
     assert (X2["clo"] == 0.4).all() and (X2["age_band_lower"] == 65).all() and X2["acclimatised"].isna().all()
@@ -145,4 +149,5 @@ def test_duplicate_times_inside_a_walk_do_not_break_the_windows():
     tl = pd.DataFrame({C.WALK_ID: "w", C.UTCI_C: [30.0, 32.0, 34.0]}, index=idx)
     X = build_features(tl)
     assert X["utci_mean_1min"].notna().all() and X["utci_ewm_5min"].notna().all()
+    # the maximum of 30, 32, 34 over the last minute (from the definition)
     assert X["utci_max_1min"].iloc[-1] == 34.0
