@@ -69,7 +69,12 @@ class _LazyGroup(click.Group):
 @click.option("--verbose", "-v", is_flag=True, help="Show full tracebacks on errors.")
 @click.pass_context
 def cli(ctx, verbose):
-    """Pedestrian outdoor comfort: field walks in, comfort along planned routes out."""
+    """Pedestrian outdoor comfort: field walks in, comfort along planned routes out.
+
+    Heat caution: field walks in heat follow field_protocol/safety.md and local
+    occupational-health guidance. Predictions are planning estimates, not a
+    heat-safety assessment: design decisions follow local codes and licensed practice.
+    """
     ctx.ensure_object(dict)
     ctx.obj["verbose"] = verbose
 

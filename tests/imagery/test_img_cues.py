@@ -33,6 +33,8 @@ def test_chromatic_coordinates_sum_to_one():
 
 def test_fast_path_matches_definition(street):
     rgb, _ = street
+    # excess green ExG = 2g − r − b on chromatic coordinates (Woebbecke et al. 1995, from memory):
+    # the fast uint8 path must equal the definition
     fast, _total = cues._exg_u8(rgb)
     np.testing.assert_allclose(fast, cues.excess_green(rgb), atol=1e-6)
 
@@ -78,6 +80,7 @@ def test_green_otsu_floor_keeps_bare_frames_bare():
 def test_sky_fraction_recovered(make_street, sky):
     for seed in range(3):
         rgb, truth = make_street(seed, sky=sky)
+        # the synthetic frame's sky share is known exactly (drawn in conftest); 2 % is the test's tolerance
         assert cues.sky_fraction(rgb) == pytest.approx(truth["sky_frac"], abs=0.02)
 
 

@@ -25,6 +25,7 @@ def _line(fid, coords, name=None):
 def test_grid_is_cut_into_block_segments_of_the_stated_length():
     net = network_from_geojson(grid_network(4, 3, block_m=100.0), segment_length_m=100.0, spacing_m=11.0)
     # 4 north-south streets of 2 blocks and 3 east-west streets of 3 blocks
+    # counted by hand from the grid (from the definition of a block segment)
     assert net.n_segments == 4 * 2 + 3 * 3
     # the grid is laid out on a sphere and measured in UTM: lengths agree to well under 1 %
     assert np.allclose(net.segments["length_m"], 100.0, rtol=5e-3)

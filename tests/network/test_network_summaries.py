@@ -29,6 +29,8 @@ def _rows():
 def test_counts_and_changes_by_hand():
     s = segment_summary(_rows())
     b, t = s.loc[("ns000#000", "base")], s.loc[("ns000#000", "trees")]
+    # hand counts over the rows built in _rows() (from the definition of each summary column);
+    # heat stress is UTCI > 32 °C, the strong-heat-stress limit (Bröde et al. 2012)
     # 4 steps of 30 min
     assert b["hours_h"] == 2.0 and b["comfortable_h"] == 0.5 and b["uncomfortable_h"] == 1.0
     assert b["expected_comfortable_h"] == 1.0

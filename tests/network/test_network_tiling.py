@@ -55,6 +55,8 @@ def test_tall_building_outside_a_tile_travels_with_it_low_one_does_not():
     west = [t for t in tiles.values() if "w#000" in t.segment_ids][0]
     east = [t for t in tiles.values() if "e#000" in t.segment_ids][0]
     assert west.tile_id != east.tile_id
+    # shadow reach = (H − z) / tan(e) with z = 1.1 m: (40 − 1.1) / tan 5° = 444.6 m,
+    # (3 − 1.1) / tan 5° = 21.7 m, (40 − 1.1) / tan 30° = 67.4 m (from the geometry)
     assert west.obstacle_ids == ["tower"]            # outside the tile, but its shadow reaches in
     assert east.obstacle_ids == ["tower", "wall"]    # the wall is 10 m from the east street
     sub = subset_scene(scene, west.obstacle_ids)
@@ -74,6 +76,7 @@ def test_point_tree_is_its_crown_disc():
                                                "crown_base_m": 3.0, "transmissivity": 0.2},
             "geometry": {"type": "Point", "coordinates": _ll(25, 10)}}
     obst = obstacle_table({"type": "FeatureCollection", "features": [tree]}, net.crs)
+    # a crown of radius 4 m is a disc of area π·4² m² (from the definition)
     assert obst["geometry"].iloc[0].area == pytest.approx(math.pi * 16, rel=0.01)
     assert obst.loc[0, "height_m"] == 10.0
     assert make_tiles(net, obst)[0].obstacle_ids == ["oak"]

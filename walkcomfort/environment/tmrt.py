@@ -167,7 +167,7 @@ def projected_area_factor(sun_elev_deg):
     .. math:: f_p = 0.308 \\cos\\left(\\gamma\\,(0.998 - \\gamma^2/50000)\\right)
 
     with the sun altitude :math:`\\gamma` in degrees (Jendritzky et al. 1990, used in
-    VDI 3787-2 and RayMan, Matzarakis et al. 2007 — formula from memory). The test
+    VDI 3787-2 and by Matzarakis et al. 2007 [4] — formula from memory). The test
     suite checks it against the azimuth-averaged standing table of ASHRAE 55
     Appendix C (SolarCal) to ±0.03. Below the horizon the value is 0.
 
