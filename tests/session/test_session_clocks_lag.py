@@ -121,6 +121,17 @@ def test_one_event_fits_offset_only():
     assert fit.method == "sync-offset" and fit.offset_s == 7.0 and fit.dof == 0
 
 
+def test_missing_times_stay_missing_both_ways():
+    # a NaT reading once came back from to_device as a date in 1677 (int64 minimum); NaT stays NaT
+    fit = ClockFit("x", offset_s=5.0)
+    idx = pd.DatetimeIndex(["2026-07-14T08:00:00Z", None], name="time")
+    for out in (fit.to_true(idx), fit.to_device(idx)):
+        assert out.isna().tolist() == [False, True] and out.name == "time"
+    # device = true + 5 s (from the definition of the offset)
+    assert fit.to_device(idx)[0] == pd.Timestamp("2026-07-14T08:00:05Z")
+    assert fit.to_true(idx)[0] == pd.Timestamp("2026-07-14T07:59:55Z")
+
+
 def test_identity_clock():
     idx = pd.date_range("2026-07-14", periods=3, freq="1s", tz="UTC")
     assert ClockFit("x").to_true(idx).equals(idx)

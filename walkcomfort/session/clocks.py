@@ -76,11 +76,7 @@ class ClockFit:
         k = self.drift_ppm * 1e-6
         rel = (d - r).astype(np.float64) - self.offset_s * 1e9
         t = r + np.round(rel / (1.0 + k)).astype(np.int64)
-        nat = np.asarray(idx.isna())
-        out = pd.DatetimeIndex(t.view("datetime64[ns]")).tz_localize("UTC")
-        if nat.any():
-            out = out.where(~nat)
-        return out.rename(idx.name)
+        return _utc_index_like(t, idx)
 
     def to_device(self, true_times: pd.DatetimeIndex) -> pd.DatetimeIndex:
         """True UTC times → what the device clock shows."""
@@ -91,7 +87,7 @@ class ClockFit:
         r = self._ref_ns(t)
         k = self.drift_ppm * 1e-6
         d = t + np.round(self.offset_s * 1e9 + k * (t - r).astype(np.float64)).astype(np.int64)
-        return pd.DatetimeIndex(d.view("datetime64[ns]")).tz_localize("UTC").rename(idx.name)
+        return _utc_index_like(d, idx)
 
     def _ref_ns(self, values: np.ndarray) -> int:
         if self.t_ref is not None:
@@ -227,3 +223,12 @@ def fit_clocks(session, devices, frame_times: dict[str, pd.Timestamp] | None = N
         fits[dev] = ClockFit(device=dev, offset_s=decl.offset_s, drift_ppm=decl.drift_ppm,
                              t_ref=session.start, method="manifest")
     return fits
+
+
+def _utc_index_like(ns: np.ndarray, like: pd.DatetimeIndex) -> pd.DatetimeIndex:
+    """UTC index from int64 nanoseconds, keeping ``like``'s missing times (NaT) and name."""
+    out = pd.DatetimeIndex(ns.view("datetime64[ns]")).tz_localize("UTC")
+    nat = np.asarray(like.isna())
+    if nat.any():
+        out = out.where(~nat)
+    return out.rename(like.name)
