@@ -163,15 +163,21 @@ def chromatic_coordinates(rgb) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     ----------
     Woebbecke et al. (1995), doi:10.13031/2013.27838.
     """
-    arr = np.asarray(rgb, dtype=np.float32)
-    if arr.shape[-1] != 3:
-        raise InputError(f"colour array has last dimension {arr.shape[-1]}; 3 channels (R, G, B) are needed",
-                         fix="pass an RGB array of shape (..., 3)")
+    arr = _rgb_float(rgb)
     total = arr.sum(axis=-1)
     safe = np.where(total > 0, total, 1.0)
     out = arr / safe[..., None]
     out[total <= 0] = 0.0
     return out[..., 0], out[..., 1], out[..., 2]
+
+
+def _rgb_float(rgb) -> np.ndarray:
+    """``rgb`` as float32 with a last axis of 3 channels, or a one-line InputError."""
+    arr = np.asarray(rgb, dtype=np.float32)
+    if arr.shape[-1] != 3:
+        raise InputError(f"colour array has last dimension {arr.shape[-1]}; 3 channels (R, G, B) are needed",
+                         fix="pass an RGB array of shape (..., 3)")
+    return arr
 
 
 def excess_green(rgb) -> np.ndarray:
@@ -191,10 +197,7 @@ def excess_green(rgb) -> np.ndarray:
     ----------
     Woebbecke et al. (1995), doi:10.13031/2013.27838.
     """
-    arr = np.asarray(rgb, dtype=np.float32)
-    if arr.shape[-1] != 3:
-        raise InputError(f"colour array has last dimension {arr.shape[-1]}; 3 channels (R, G, B) are needed",
-                         fix="pass an RGB array of shape (..., 3)")
+    arr = _rgb_float(rgb)
     total = arr.sum(axis=-1)
     # 2g - r - b = (2G - R - B) / (R + G + B): one division instead of three
     num = 2.0 * arr[..., 1] - arr[..., 0] - arr[..., 2]
