@@ -138,3 +138,19 @@ def test_any_malformed_feature_gives_input_error_not_a_crash(kind, geom, props):
         Scene.from_geojson(_fc(feat))
     except InputError as exc:
         assert "\n" not in str(exc) and "Fix:" in str(exc)
+
+
+def test_coordinates_outside_lon_lat_are_refused_in_scenes_and_schemes():
+    # |lon| <= 180°, |lat| <= 90° (WGS84 definition): projected metres pasted as lon/lat are refused
+    from walkcomfort.environment.geo import require_lonlat
+    from walkcomfort.routes.schemes import scheme_from_geojson
+
+    square = {"type": "Polygon", "coordinates": [[[440000, 4470000], [440010, 4470000], [440010, 4470010],
+                                                  [440000, 4470000]]]}
+    feat = {"type": "Feature", "geometry": square, "properties": {"id": "b1", "kind": "building", "height_m": 10.0}}
+    with pytest.raises(InputError, match="not WGS84 lon/lat"):
+        Scene.from_geojson(json.dumps({"type": "FeatureCollection", "features": [feat]}))
+    add = {"type": "Feature", "geometry": square, "properties": {"edit": "add", "kind": "canopy", "height_m": 4.0}}
+    with pytest.raises(InputError, match="not WGS84 lon/lat"):
+        scheme_from_geojson({"type": "FeatureCollection", "walkcomfort": {"scheme": "canopy"}, "features": [add]})
+    require_lonlat(Point(-3.7, 40.4), "here")   # a lon/lat point passes

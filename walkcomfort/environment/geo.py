@@ -17,6 +17,27 @@ import pyproj
 from walkcomfort.errors import InputError
 
 
+def require_lonlat(geom, where, fix: str = "write coordinates as longitude, latitude in degrees (EPSG:4326)"):
+    """Refuse a shapely geometry whose bounds are not WGS84 lon/lat degrees.
+
+    Parameters
+    ----------
+    geom : shapely geometry
+    where : str
+        The place named in the error (file and feature).
+    fix : str
+        How to fix it, for the error.
+
+    Raises
+    ------
+    InputError
+        When a longitude is outside [-180, 180] or a latitude outside [-90, 90] [°].
+    """
+    x0, y0, x1, y1 = geom.bounds
+    if not (-180 <= x0 <= x1 <= 180 and -90 <= y0 <= y1 <= 90):
+        raise InputError(f"coordinates {geom.bounds} are not WGS84 lon/lat", where=where, fix=fix)
+
+
 def utm_crs(lon: float, lat: float) -> pyproj.CRS:
     """The WGS84 / UTM zone CRS containing ``(lon, lat)``.
 

@@ -43,7 +43,7 @@ import numpy as np
 import shapely
 from shapely.geometry import mapping, shape
 
-from walkcomfort.environment.geo import LocalFrame
+from walkcomfort.environment.geo import LocalFrame, require_lonlat
 from walkcomfort.errors import InputError
 
 KINDS = ("building", "tree", "canopy")
@@ -327,10 +327,7 @@ def _validate_feature(f, i: int, source: str):
     if not shapely.is_valid(geom):
         raise InputError(f"invalid geometry: {shapely.is_valid_reason(geom)}", where=where,
                          fix="repair the polygon (no self-intersections, closed rings)")
-    x0, y0, x1, y1 = geom.bounds
-    if not (-180 <= x0 <= x1 <= 180 and -90 <= y0 <= y1 <= 90):
-        raise InputError(f"coordinates {geom.bounds} are not WGS84 lon/lat", where=where,
-                         fix="export the scene in EPSG:4326 (lon, lat) as GeoJSON requires")
+    require_lonlat(geom, where, fix="export the scene in EPSG:4326 (lon, lat) as GeoJSON requires")
     if kind == "building":
         if gtype not in _POLY:
             raise InputError(f"a building needs a Polygon footprint, got {gtype}", where=where,

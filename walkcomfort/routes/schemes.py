@@ -36,6 +36,7 @@ from pathlib import Path
 
 import numpy as np
 
+from walkcomfort.environment.geo import require_lonlat
 from walkcomfort.errors import InputError
 
 EDITS = ("add", "remove", "modify")
@@ -156,10 +157,7 @@ def _check_geometry(geom: dict, loc: str) -> None:
     if g.is_empty or not g.is_valid:
         raise InputError(f"geometry is invalid ({'empty' if g.is_empty else explain_validity(g)})", where=loc,
                          fix="repair the outline (no self-intersections, closed rings)")
-    x0, y0, x1, y1 = g.bounds
-    if not (-180 <= x0 <= x1 <= 180 and -90 <= y0 <= y1 <= 90):
-        raise InputError(f"coordinates {g.bounds} are not WGS84 lon/lat", where=loc,
-                         fix="write coordinates as longitude, latitude in degrees")
+    require_lonlat(g, loc, fix="write coordinates as longitude, latitude in degrees")
 
 
 def load_scheme(path: str | os.PathLike) -> Scheme:
