@@ -183,6 +183,14 @@ def test_thermal_command_errors(tmp_path, capsys):
     bad.write_text("time,ghi_wm2\n2026-07-14T12:00:00,800\n")
     assert main(["thermal", str(walk), "--irradiance", str(bad)]) == 2
     assert "no UTC offset" in capsys.readouterr().err
+    # a cut or foreign timeline.parquet once surfaced as an internal ArrowInvalid error (exit 1)
+    cut = tmp_path / "cut"
+    cut.mkdir()
+    (cut / "timeline.parquet").write_bytes(b"not parquet at all")
+    assert main(["thermal", str(cut)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and err.startswith("error: ") and "cannot read it as Parquet" in err
+    assert "Fix:" in err
 
 
 def test_missing_values_pass_through_as_nan():

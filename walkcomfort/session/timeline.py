@@ -601,8 +601,14 @@ def read_timeline(path: str | os.PathLike) -> pd.DataFrame:
         p = p / TIMELINE_FILE
     if not p.is_file():
         raise InputError(f"no timeline at '{p}'", fix="run `walkcomfort ingest SESSION_DIR -o OUT_DIR` first")
-    df = pd.read_parquet(p)
-    meta = _io.read_parquet_metadata(p)
+    try:
+        df = pd.read_parquet(p)
+        meta = _io.read_parquet_metadata(p)
+    except (OSError, ValueError) as exc:  # pyarrow's ArrowInvalid is a ValueError: a cut or foreign file
+        reason = " ".join(str(exc).split()).split(". ")[0].rstrip(".")   # the first sentence is the cause
+        raise InputError(f"cannot read it as Parquet ({reason})", where=p,
+                         fix="give a timeline.parquet written by `walkcomfort ingest` (re-run it if the file "
+                             "was cut short)") from None
     if "session" not in meta:
         raise InputError("not a walkcomfort timeline (no session metadata)", where=p,
                          fix="give a timeline.parquet written by `walkcomfort ingest`")
