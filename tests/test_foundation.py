@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pandas as pd
 import pytest
 
@@ -69,3 +71,14 @@ def test_cli_usage_errors_name_the_verb_and_point_to_its_help(capsys, argv, verb
     err = capsys.readouterr().err
     assert err.count("\n") == 1
     assert err.startswith(f"error: walkcomfort {verb}: ") and f"Fix: see `walkcomfort {verb} --help`." in err
+
+
+def test_an_output_folder_that_cannot_be_made_is_a_one_line_error(tmp_path, capsys):
+    # a file where the output folder should be once gave an internal NotADirectoryError (exit 1)
+    blocker = tmp_path / "afile"
+    blocker.write_text("x")
+    session = Path(__file__).resolve().parent / "fixtures" / "sessions" / "walk_ok"
+    assert main(["ingest", str(session), "-o", str(blocker / "sub")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and err.startswith(f"error: {blocker / 'sub'}") and "Not a directory" in err
+    assert "Fix: check the path" in err and blocker.read_text() == "x"

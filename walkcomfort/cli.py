@@ -5,8 +5,9 @@ imported only when used, so ``walkcomfort --help`` stays fast and a missing
 optional dependency affects only its own verb.
 
 Errors: a :class:`~walkcomfort.errors.WalkcomfortError` is printed as one line
-(``error: <where>: <what>. Fix: <how>.``) and exits with code 2; anything else is
-reported as an internal error in one line, exit code 1. ``--verbose`` adds the
+(``error: <where>: <what>. Fix: <how>.``) and exits with code 2, and so does an
+``OSError`` naming a path (a folder that cannot be written, a full disk); anything
+else is reported as an internal error in one line, exit code 1. ``--verbose`` adds the
 traceback in both cases.
 """
 
@@ -111,16 +112,34 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         click.echo("error: interrupted.", err=True)
         return 130
-    except Exception as exc:  # an internal error: still one line unless --verbose
+    except OSError as exc:
+        if not getattr(exc, "filename", None):
+            return _internal(exc, verbose)
+        # a path that cannot be read or written (missing folder, a file in the way, no permission,
+        # full disk): the user's environment, not a bug
         if verbose:
             import traceback
 
             traceback.print_exception(exc, file=sys.stderr)
-        msg = " ".join(str(exc).split())
-        click.echo(f"internal error: {type(exc).__name__}: {msg} (run with --verbose for the traceback "
-                   "and please report it).", err=True)
-        return 1
+        reason = exc.strerror or type(exc).__name__
+        click.echo(f"error: {exc.filename}: {reason}. Fix: check the path, that you may write there "
+                   "(-o/--out) and that the disk has room.", err=True)
+        return 2
+    except Exception as exc:  # an internal error: still one line unless --verbose
+        return _internal(exc, verbose)
     return 0
+
+
+def _internal(exc: BaseException, verbose: bool) -> int:
+    """Report an unexpected error in one line (traceback with --verbose); exit code 1."""
+    if verbose:
+        import traceback
+
+        traceback.print_exception(exc, file=sys.stderr)
+    msg = " ".join(str(exc).split())
+    click.echo(f"internal error: {type(exc).__name__}: {msg} (run with --verbose for the traceback "
+               "and please report it).", err=True)
+    return 1
 
 
 if __name__ == "__main__":  # pragma: no cover
