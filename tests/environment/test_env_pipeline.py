@@ -96,6 +96,7 @@ def test_measured_ghi_on_its_own_index_is_interpolated_and_split():
     meas = pd.DataFrame({C.GHI_WM2: np.linspace(800, 900, t.size)}, index=t)
     out = add_environment(df, irradiance=meas)
     at = df.index[60]  # 12:01:00 falls on a measured minute
+    # on a measured minute the measured value is kept; its split is the Erbs et al. (1982) model itself
     assert out.loc[at, C.GHI_WM2] == pytest.approx(meas.loc[at, C.GHI_WM2])
     dec = sun.decompose_ghi(np.array([meas.loc[at, C.GHI_WM2]]), np.array([out.loc[at, C.SUN_ZENITH_DEG]]),
                             pd.DatetimeIndex([at]))
@@ -132,6 +133,7 @@ def test_planned_walk_from_local_metres_and_own_irradiance():
     planned.attrs = {"session": {"timezone": "Europe/Madrid", "wind_height_m": 10.0}}
     out = add_planned_environment(planned, scene=sc)
     assert (out[C.DNI_WM2] == 820.0).all() and (out[C.TMRT_SOURCE] == "fluxes").all()
+    # a planned walk's weather is stated at 10 m, so no height correction applies (from the definition)
     np.testing.assert_allclose(out[C.WIND10_MS], planned[C.WIND_MS])  # already at 10 m
     rec = add_environment(df.assign(**{C.T_GLOBE_C: np.nan}), scene=sc,
                           irradiance=pd.DataFrame({C.GHI_WM2: 850.0, C.DNI_WM2: 820.0, C.DHI_WM2: 110.0},
