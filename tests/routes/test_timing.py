@@ -98,3 +98,4 @@ def test_bad_departures_are_one_line_errors(spec, kw):
     with pytest.raises(InputError) as exc:
         parse_departures(spec, **kw)
     assert "\n" not in str(exc.value) and "Fix:" in str(exc.value)
+    assert str(exc.value).startswith("--depart: ")   # where: the option that holds the departures

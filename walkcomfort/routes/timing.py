@@ -162,16 +162,17 @@ def _to_utc(value, timezone: str | None, what: str) -> pd.Timestamp:
     try:
         ts = pd.Timestamp(value)
     except (ValueError, TypeError):
-        raise InputError(f"{what} {value!r} is not a date-time", fix="write ISO 8601, e.g. 2026-07-15T15:00") from None
+        raise InputError(f"{what} {value!r} is not a date-time", where="--depart",
+                         fix="write ISO 8601, e.g. 2026-07-15T15:00") from None
     if ts.tzinfo is None:
         if timezone is None:
-            raise InputError(f"{what} {value!r} has no time zone",
+            raise InputError(f"{what} {value!r} has no time zone", where="--depart",
                              fix="add an offset (2026-07-15T15:00+02:00) or give the timezone (--timezone Europe/Madrid)")
         try:
             ts = ts.tz_localize(timezone, nonexistent="raise", ambiguous="raise")
         except Exception as exc:  # unknown zone name or a clock-change gap/overlap
             raise InputError(f"{what} {value!r} cannot be placed in time zone {timezone!r} ({exc})",
-                             fix="give an IANA zone name and a time that exists on that day") from None
+                             where="--depart", fix="give an IANA zone name and a time that exists on that day") from None
     return ts.tz_convert("UTC")
 
 
@@ -211,15 +212,16 @@ def parse_departures(specs, timezone: str | None = None, day=None) -> pd.Datetim
                 raise InputError(f"sweep {text!r} has a zero step", where="--depart",
                                  fix="write a positive STEP, e.g. 08:00..18:00/1h")
             if end < start:
-                raise InputError(f"sweep {text!r} ends before it starts", fix="write START..END/STEP with END ≥ START")
+                raise InputError(f"sweep {text!r} ends before it starts", where="--depart",
+                                 fix="write START..END/STEP with END ≥ START")
             n = int((end - start) / step)
             if n > 10_000:
-                raise InputError(f"sweep {text!r} has {n + 1} departures (max 10001)", fix="use a coarser step")
+                raise InputError(f"sweep {text!r} has {n + 1} departures (max 10001)", where="--depart", fix="use a coarser step")
             out.extend(start + i * step for i in range(n + 1))
         else:
             out.append(_to_utc(_with_day(text, day), timezone, "departure"))
     if not out:
-        raise InputError("no departure time given", fix="give at least one --depart")
+        raise InputError("no departure time given", where="--depart", fix="give at least one --depart")
     return pd.DatetimeIndex(sorted(set(out)), name="departure")
 
 
@@ -227,7 +229,7 @@ def _with_day(text: str, day) -> str:
     text = text.strip()
     if re.fullmatch(r"\d{1,2}:\d{2}(:\d{2})?", text):
         if day is None:
-            raise InputError(f"departure {text!r} is a clock time without a date",
+            raise InputError(f"departure {text!r} is a clock time without a date", where="--depart",
                              fix="give a full date-time, or a design day (--design-day) to put it on")
         hh = dtime.fromisoformat(text if len(text) > 5 or len(text.split(':')[0]) == 2 else "0" + text)
         return f"{pd.Timestamp(day).date().isoformat()}T{hh.isoformat()}"
