@@ -105,7 +105,17 @@ def test_option_errors_are_one_line(streets, tmp_path, capsys):
     assert main(["network", str(streets), *ARGS, "--scheduler", "tcp://127.0.0.1:1", "--out", out]) == 2
     assert "--engine dask" in capsys.readouterr().err
     assert main(["network", str(streets), *ARGS[2:], "--conditions", "t_air_c:30", "--out", out]) == 2
-    assert "name=number" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "name=number" in err and err.startswith("error: --conditions: ")
+    assert main(["network", str(streets), "--conditions", "t_air_c=30,rh_pct=40,wind_ms=2", "--start",
+                 "2026-07-14T10:00", "--end", "2026-07-14T09:00", "--timezone", "UTC", "--out", out]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: --start/--end: ") and "before it starts" in err and err.count("\n") == 1
+    # an unknown name once reached StatedConditions(**) as an internal TypeError; the shared parser names it
+    assert main(["network", str(streets), *ARGS[2:], "--conditions", "t_air_c=30,rh_pct=40,wind_ms=2,foo=1",
+                 "--out", out]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: --conditions: ") and "'foo=1'" in err and err.count("\n") == 1
 
 
 def test_daytime_keeps_the_hours_with_the_sun_up(streets, tmp_path):

@@ -80,7 +80,8 @@ def test_errors_are_one_line_with_exit_2(files, tmp_path, capsys):
     code = main(["route", str(route), "--depart", "2026-07-15T15:00", "--conditions", "t_air_c=33",
                  "-o", str(tmp_path / "y")])
     assert code == 2
-    assert "lack" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "lack" in err and err.startswith("error: --conditions: ")   # where: the option at fault
 
 
 @pytest.mark.slow

@@ -77,7 +77,7 @@ def load_secret(secret_file: str | os.PathLike | None = None, env: str = SECRET_
         value = os.environ.get(env)
         if not value:
             raise InputError(f"no pseudonym secret: neither --secret-file nor the {env} variable was given",
-                             fix="create one with: python -c \"import secrets; print(secrets.token_hex(32))\" "
+                             where="walkcomfort share", fix="create one with: python -c \"import secrets; print(secrets.token_hex(32))\" "
                                  "> project.secret, keep it private, and pass --secret-file project.secret")
         secret = value.encode("utf-8")
         where = f"${env}"

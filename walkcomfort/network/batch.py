@@ -132,13 +132,14 @@ def time_range(start, end, step: str = "1h", timezone: str = "UTC") -> pd.Dateti
         delta = pd.Timedelta(step)
     except (ValueError, TypeError) as exc:
         raise InputError(f"time range {start!r} … {end!r} at step {step!r} cannot be read ({exc})",
-                         fix="give ISO times such as 2026-07-14T07:00 and a step such as 1h or 30min") from None
+                         where="--start/--end/--step", fix="give ISO times such as 2026-07-14T07:00 and a step such as 1h or 30min") from None
     if delta <= pd.Timedelta(0):
-        raise InputError(f"time step {step!r} is not positive", fix="give a step such as 1h")
+        raise InputError(f"time step {step!r} is not positive", where="--step", fix="give a step such as 1h")
     t0 = t0.tz_localize(timezone) if t0.tzinfo is None else t0
     t1 = t1.tz_localize(timezone) if t1.tzinfo is None else t1
     if t1 < t0:
-        raise InputError(f"time range ends ({t1}) before it starts ({t0})", fix="swap start and end")
+        raise InputError(f"time range ends ({t1}) before it starts ({t0})", where="--start/--end",
+                         fix="swap start and end")
     return pd.date_range(t0.tz_convert("UTC"), t1.tz_convert("UTC"), freq=delta, name=C.TIME)
 
 

@@ -20,22 +20,6 @@ QUARANTINE_CSV = "network_quarantine.csv"
 EXIT_PARTITIONS_FAILED = 3
 
 
-def _conditions(text: str | None) -> dict | None:
-    if text is None:
-        return None
-    out = {}
-    for item in text.split(","):
-        key, sep, value = item.partition("=")
-        try:
-            if not sep:
-                raise ValueError
-            out[key.strip()] = float(value)
-        except ValueError:
-            raise InputError(f"stated condition {item!r} is not 'name=number'",
-                             fix="write e.g. --conditions 't_air_c=33,rh_pct=30,wind_ms=1.5'") from None
-    return out
-
-
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
                     min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0,
@@ -44,7 +28,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     from walkcomfort.network.batch import BASE, plan_job, sunlit_times, time_range
     from walkcomfort.network.segments import load_network
     from walkcomfort.routes.schemes import apply_scheme, load_scheme
-    from walkcomfort.routes.weather import open_weather
+    from walkcomfort.routes.weather import open_weather, parse_conditions
 
     scene = None
     if scene_path:
@@ -76,7 +60,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
         if len(times) == 0:
             raise InputError(f"none of the {n_all} times from {start} to {end} has the sun above the horizon",
                              fix="choose daytime hours or leave out --daytime")
-    source = open_weather(weather_path, _conditions(conditions), **kw)
+    source = open_weather(weather_path, parse_conditions(conditions), **kw)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
     predictor = "physics-rule"
     if model:

@@ -93,7 +93,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     if design_day is not None:
         if not isinstance(weather, WeatherFile):
             raise InputError("a design day is picked from a weather file (EPW/TMY), none was given",
-                             fix="give --weather with an EPW/TMY file, or full dates in --depart")
+                             where="--design-day", fix="give --weather with an EPW/TMY file, or full dates in --depart")
         text = design_day.strip().lower()
         if text == "hottest":
             chosen = pick_day(weather, "hottest", months=season)
@@ -147,15 +147,17 @@ def parse_walker(text: str | None) -> dict | None:
         key, value = key.strip(), value.strip()
         if not sep or key not in ("clo", "acclimatised", "age_band"):
             raise InputError(f"walker attribute {item.strip()!r} is not one of clo=, acclimatised=, age_band=",
-                             fix="write e.g. --walker 'clo=0.5,acclimatised=1,age_band=25-34'")
+                             where="--walker", fix="write e.g. --walker 'clo=0.5,acclimatised=1,age_band=25-34'")
         if key == "clo":
             try:
                 out[key] = float(value)
             except ValueError:
-                raise InputError(f"clo {value!r} is not a number", fix="give clothing insulation in clo, e.g. 0.5") from None
+                raise InputError(f"clo {value!r} is not a number", where="--walker",
+                                 fix="give clothing insulation in clo, e.g. 0.5") from None
         elif key == "acclimatised":
             if value.lower() not in ("1", "0", "true", "false", "yes", "no"):
-                raise InputError(f"acclimatised {value!r} is not yes/no", fix="write acclimatised=1 or 0")
+                raise InputError(f"acclimatised {value!r} is not yes/no", where="--walker",
+                                 fix="write acclimatised=1 or 0")
             out[key] = value.lower() in ("1", "true", "yes")
         else:
             out[key] = value

@@ -622,15 +622,16 @@ def parse_conditions(text: str | None) -> dict | None:
         key = key.strip()
         if not sep or key not in CONDITION_KEYS:
             raise InputError(f"stated condition {item.strip()!r} is not 'name=number' with a name of "
-                             f"{list(CONDITION_KEYS)}", fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'")
+                             f"{list(CONDITION_KEYS)}", where="--conditions", fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'")
         try:
             out[key] = float(value)
         except ValueError:
-            raise InputError(f"stated condition {key} = {value.strip()!r} is not a number",
+            raise InputError(f"stated condition {key} = {value.strip()!r} is not a number", where="--conditions",
                              fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'") from None
     missing = [k for k in ("t_air_c", "rh_pct", "wind_ms") if k not in out]
     if missing:
-        raise InputError(f"stated conditions lack {missing}", fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'")
+        raise InputError(f"stated conditions lack {missing}", where="--conditions",
+                         fix="write e.g. 't_air_c=33,rh_pct=30,wind_ms=1.5'")
     return out
 
 
