@@ -160,7 +160,6 @@ def test_bad_inputs_are_one_line_errors():
 
 @pytest.mark.parametrize("func", [cues.chromatic_coordinates, cues.excess_green])
 def test_colour_functions_refuse_arrays_without_three_channels(func):
-
     with pytest.raises(InputError, match="3 channels") as exc:
         func(np.zeros((4, 4, 4)))
     assert "Fix:" in str(exc.value) and "\n" not in str(exc.value)
