@@ -20,8 +20,8 @@ References
    estimating the mean radiant temperature in an outdoor urban setting. Int. J.
    Climatol. 27, 1983–1993. doi:10.1002/joc.1537
 .. [4] Matzarakis, A., Rutz, F., Mayer, H. (2007). Modelling radiation fluxes in simple
-   and complex environments — application of the RayMan model. Int. J. Biometeorol.
-   51, 323–334. doi:10.1007/s00484-006-0061-8
+   and complex environments. Int. J. Biometeorol. 51, 323–334.
+   doi:10.1007/s00484-006-0061-8
 .. [5] Brutsaert, W. (1975). On a derivable formula for long-wave radiation from clear
    skies. Water Resour. Res. 11, 742–744. doi:10.1029/WR011i005p00742
 """
