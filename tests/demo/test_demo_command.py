@@ -1,4 +1,4 @@
-"""``walkcomfort demo``: runs the stages that exist, says what it skipped, prints the caution."""
+"""``walkcomfort demo``: runs every stage, reports a missing or broken one as failed, prints the caution."""
 
 from __future__ import annotations
 
@@ -37,16 +37,16 @@ def test_demo_ingest_stage_writes_timelines_and_prints_the_caution(tmp_path, sma
     assert (out / "timelines" / "campaign.parquet").is_file()
 
 
-def test_a_missing_stage_is_skipped_with_its_reason(tmp_path, small_demo, monkeypatch):
+def test_a_missing_stage_fails_with_its_reason_and_the_rest_still_runs(tmp_path, small_demo, monkeypatch):
     lines = []
-    monkeypatch.setattr(pipeline, "_has_verb", lambda verb: (verb == "ingest", f"{verb} not here"))
-    run = pipeline.run_demo(tmp_path / "o", demo_dir=small_demo, echo=lines.append)
-    assert run.ok
+    monkeypatch.setattr(pipeline, "_has_verb", lambda verb: (verb != "frames", f"{verb} not here"))
+    run = pipeline.run_demo(tmp_path / "o", demo_dir=small_demo, echo=lines.append,
+                            stages=("ingest", "frames", "thermal"))
+    assert not run.ok
     assert run.stage("ingest").status == "ran"
-    for name in ("frames", "thermal", "fit", "compare", "network", "map", "report"):
-        s = run.stage(name)
-        assert s.status == "skipped" and s.detail
-    assert any("skipped" in line for line in lines)
+    assert run.stage("frames").status == "failed" and run.stage("frames").detail == "frames not here"
+    assert run.stage("thermal").status == "ran"
+    assert any("[frames] failed: frames not here" in line for line in lines)
 
 
 def test_a_stage_that_breaks_is_reported_and_the_rest_still_runs(tmp_path, small_demo, monkeypatch):

@@ -1,11 +1,11 @@
-"""The whole chain on the invented demo town, stage by stage, as far as the stages exist.
+"""The whole chain on the invented demo town, stage by stage.
 
 ``run_demo(out_dir)`` runs ingest → frame cues → thermal environment → model fit →
 route comparison under the shade schemes → map and reports on ``demo_walks/``. Each stage
 is the stage's own public command (the same verb a user would type, called in this
-process), run only when its module is importable; a stage whose module has not landed,
-or whose input did not come out of an earlier stage, is reported as skipped with the
-reason. Outputs go to one folder per stage under ``out_dir``.
+process). A stage that cannot be imported or that breaks is reported as failed (the
+rest still run and ``walkcomfort demo`` exits non-zero); a stage whose input did not come
+out of an earlier stage is reported as skipped with the reason. Outputs go to one folder per stage under ``out_dir``.
 
 The data are invented (see ``demo_walks/README.md``); the outputs are a demonstration
 of the tool, not findings and not design advice.
@@ -69,15 +69,15 @@ def _has_verb(verb: str) -> tuple[bool, str]:
     module, attr, _ = VERBS[verb]
     try:
         if importlib.util.find_spec(module) is None:
-            return False, f"{module} has not landed yet"
+            return False, f"{module} is missing from this installation"
     except ModuleNotFoundError:
-        return False, f"{module} has not landed yet"
+        return False, f"{module} is missing from this installation"
     try:
         mod = importlib.import_module(module)
     except ImportError as exc:
         return False, f"{module} cannot be imported ({exc})"
     if not hasattr(mod, attr):
-        return False, f"{module} has no '{attr}' command yet"
+        return False, f"{module} has no '{attr}' command"
     return True, ""
 
 
@@ -160,8 +160,8 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
             return
         ok, why = _has_verb(verb)
         if not ok:
-            run.stages.append(StageResult(name, "skipped", why))
-            echo(f"[{name}] skipped: {why}")
+            run.stages.append(StageResult(name, "failed", why))
+            echo(f"[{name}] failed: {why}")
             return
         missing = needs()
         if missing:
@@ -177,12 +177,12 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
             echo(f"[{name}] failed: {exc.one_line()}")
             return
         except ImportError as exc:
-            # the stage's command exists but something it builds on has not landed yet
-            why = f"needs {getattr(exc, 'name', None) or exc}, which has not landed yet"
+            # the stage's command exists but an optional package it needs is not installed
+            why = f"needs {getattr(exc, 'name', None) or exc}, which is not installed"
             run.stages.append(StageResult(name, "skipped", why))
             echo(f"[{name}] skipped: {why}")
             return
-        except Exception as exc:  # another engineer's stage broke: report it, go on with the rest
+        except Exception as exc:  # a stage broke: report it, run the rest, exit non-zero at the end
             msg = " ".join(str(exc).split())
             run.stages.append(StageResult(name, "failed", f"internal error {type(exc).__name__}: {msg}"))
             echo(f"[{name}] failed: internal error {type(exc).__name__}: {msg}")
@@ -262,6 +262,10 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
     attempt("map", "map", lambda: "" if routes_done() or _timelines_in(walks) else "nothing to map yet",
             lambda: [[*[str(p) for p in routes_done()], "--scene", str(demo / "scene.geojson"), *schemes,
                       *(["--walk", str(walks)] if _timelines_in(walks) else []),
+                      # the full-feature model's held-out (walker-grouped CV) predictions give the
+                      # map its error layer; the network batch gives one street layer per scheme
+                      *(["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []),
+                      *(["--network", str(paths["network"])] if (paths["network"] / "job.json").is_file() else []),
                       "--timezone", "Europe/Madrid", "-o", str(paths["map"] / "routes.html")]],
             lambda: [paths["map"] / "routes.html"])
     attempt("report", "report", have_tl,
