@@ -221,6 +221,10 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
     attempt("fit", "fit", have_thermal, fit_args,
             lambda: [p for p in (paths["model"], paths["model_planned"]) if p.is_dir()])
 
+    # the walker a planned route is predicted for: summer clothing, acclimatised, the campaign's
+    # commonest age band (the invented walkers' own attributes are in their manifests)
+    PLANNED_WALKER = "clo=0.5,acclimatised=1,age_band=25-34"
+
     def route_model():
         for p in (paths["model_planned"], paths["model"]):
             if (p / "manifest.json").is_file():
@@ -238,7 +242,8 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
         return [[str(demo / "routes" / f"{rid}.geojson"), *schemes, "-o", str(paths["routes"] / rid),
                  "--scene", str(demo / "scene.geojson"), "--weather", str(demo / "weather" / "design-day.csv"),
                  "--logger-wind-height", "1.1", "--timezone", TIMEZONE,
-                 "--depart", f"{DESIGN_DAY}T{DEPARTURES[0]}..{DESIGN_DAY}T{DEPARTURES[1]}/{DEPARTURES[2]}", *model]
+                 "--depart", f"{DESIGN_DAY}T{DEPARTURES[0]}..{DESIGN_DAY}T{DEPARTURES[1]}/{DEPARTURES[2]}", *model,
+                 "--walker", PLANNED_WALKER]
                 for rid in ROUTES]
 
     attempt("compare", "compare", lambda: "", compare_args, lambda: [paths["routes"] / r for r in ROUTES])

@@ -31,6 +31,9 @@ from walkcomfort.routes.geometry import Route
 from walkcomfort.routes.predict import COMFORT_CLASS, PREDICTOR, PROBA, Predictor, predict_route
 from walkcomfort.routes.schemes import BASE, Scheme, scheme_inventory
 from walkcomfort.routes.simulate import DEPARTURE, ROUTE_ID, SCHEME, STEP_S, simulate_timeline
+
+# model features that come from the walker (stated with --walker), not from sensors
+_WALKER_FEATURES = frozenset({C.CLO, C.ACCLIMATISED, "age_band_lower"})
 from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
 from walkcomfort.routes.weather import WeatherSource
 
@@ -302,11 +305,19 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
     notices = _scene_coverage_notices(route, scene)
     if predictor.is_model:
         gone = predictor.unavailable_features(tables[0])
-        if gone:
-            notices.append(f"the model uses {len(gone)} features a planned walk cannot supply (no sound meter, light "
-                           f"meter or camera on a simulated walk: {', '.join(gone[:6])}{' …' if len(gone) > 6 else ''}); "
-                           "they are missing on every point, so the model relies on its missing-value branches "
-                           "there — prefer a model fitted without them for planned routes")
+        # participant attributes can be stated (--walker); sensor features cannot exist on a simulated walk
+        walker = [g for g in gone if g in _WALKER_FEATURES]
+        sensors = [g for g in gone if g not in _WALKER_FEATURES]
+        if walker:
+            notices.append(f"the model uses walker attributes that were not given ({', '.join(walker)}); they are "
+                           "missing on every point, so the model relies on its missing-value branches there — "
+                           "state them with --walker, e.g. 'clo=0.5,acclimatised=1,age_band=25-34'")
+        if sensors:
+            notices.append(f"the model uses {len(sensors)} features a planned walk cannot supply (no sound meter, light "
+                           f"meter or camera on a simulated walk: {', '.join(sensors[:6])}"
+                           f"{' …' if len(sensors) > 6 else ''}); they are missing on every point, so the model relies "
+                           "on its missing-value branches there — prefer a model fitted with `walkcomfort fit "
+                           "--feature-set planned`")
     points = pd.concat(tables)
     points.attrs = dict(tables[0].attrs)
     points.attrs["scheme"] = [s.name for s in schemes]
