@@ -271,6 +271,8 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
                       # map its error layer; the network batch gives one street layer per scheme
                       *(["--model", str(paths["model"])] if (paths["model"] / "manifest.json").is_file() else []),
                       *(["--network", str(paths["network"])] if (paths["network"] / "job.json").is_file() else []),
+                      # self-contained (Leaflet inlined): opens in the field with no network
+                      "--offline",
                       "--timezone", "Europe/Madrid", "-o", str(paths["map"] / "routes.html")]],
             lambda: [paths["map"] / "routes.html"])
     attempt("report", "report", have_tl,
