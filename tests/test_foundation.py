@@ -82,3 +82,12 @@ def test_an_output_folder_that_cannot_be_made_is_a_one_line_error(tmp_path, caps
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and err.startswith(f"error: {blocker / 'sub'}") and "Not a directory" in err
     assert "Fix: check the path" in err and blocker.read_text() == "x"
+
+
+def test_verbose_adds_the_traceback_before_the_one_line_error(capsys):
+    assert main(["check", "/nonexistent-session-folder"]) == 2
+    quiet = capsys.readouterr().err
+    assert "Traceback" not in quiet and quiet.count("\n") == 1
+    assert main(["--verbose", "check", "/nonexistent-session-folder"]) == 2
+    loud = capsys.readouterr().err
+    assert loud.startswith("Traceback") and loud.rstrip("\n").splitlines()[-1] == quiet.rstrip("\n")

@@ -103,10 +103,7 @@ def main(argv: list[str] | None = None) -> int:
         click.echo(f"error: {exc.format_message()}", err=True)
         return 2
     except WalkcomfortError as exc:
-        if verbose:
-            import traceback
-
-            traceback.print_exception(exc, file=sys.stderr)
+        _show_traceback(exc, verbose)
         click.echo(f"error: {exc.one_line()}", err=True)
         return 2
     except KeyboardInterrupt:
@@ -117,10 +114,7 @@ def main(argv: list[str] | None = None) -> int:
             return _internal(exc, verbose)
         # a path that cannot be read or written (missing folder, a file in the way, no permission,
         # full disk): the user's environment, not a bug
-        if verbose:
-            import traceback
-
-            traceback.print_exception(exc, file=sys.stderr)
+        _show_traceback(exc, verbose)
         reason = exc.strerror or type(exc).__name__
         click.echo(f"error: {exc.filename}: {reason}. Fix: check the path, that you may write there "
                    "(-o/--out) and that the disk has room.", err=True)
@@ -130,12 +124,17 @@ def main(argv: list[str] | None = None) -> int:
     return 0
 
 
-def _internal(exc: BaseException, verbose: bool) -> int:
-    """Report an unexpected error in one line (traceback with --verbose); exit code 1."""
+def _show_traceback(exc: BaseException, verbose: bool) -> None:
+    """With ``--verbose`` only: the full traceback on stderr, before the one-line message."""
     if verbose:
         import traceback
 
-        traceback.print_exception(exc, file=sys.stderr)
+        click.echo("".join(traceback.format_exception(exc)).rstrip("\n"), err=True)
+
+
+def _internal(exc: BaseException, verbose: bool) -> int:
+    """Report an unexpected error in one line (traceback with --verbose); exit code 1."""
+    _show_traceback(exc, verbose)
     msg = " ".join(str(exc).split())
     click.echo(f"internal error: {type(exc).__name__}: {msg} (run with --verbose for the traceback "
                "and please report it).", err=True)
