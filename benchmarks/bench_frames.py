@@ -50,8 +50,15 @@ def street(seed: int, h: int = 480, w: int = 640) -> np.ndarray:
 
 def naive_cues(rgb: np.ndarray) -> tuple[float, float]:
     """ExG greenery and the sky rule, one pixel at a time in pure Python (the baseline)."""
-    from walkcomfort.imagery.cues import (EXG_THRESHOLD, MIN_CHROMA_SUM, SKY_BLUE_MARGIN, SKY_MAX_TEXTURE,
-                                          SKY_MIN_LUMA, SKY_OVERCAST_LUMA, SKY_UPPER_FIELD)
+    from walkcomfort.imagery.cues import (
+        EXG_THRESHOLD,
+        MIN_CHROMA_SUM,
+        SKY_BLUE_MARGIN,
+        SKY_MAX_TEXTURE,
+        SKY_MIN_LUMA,
+        SKY_OVERCAST_LUMA,
+        SKY_UPPER_FIELD,
+    )
 
     h, w, _ = rgb.shape
     px = rgb.tolist()

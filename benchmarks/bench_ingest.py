@@ -19,12 +19,12 @@ import math
 import sys
 import tempfile
 import time
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta, timezone
 from pathlib import Path
 
 import numpy as np
 
-T0 = datetime(2026, 7, 14, 8, 0, 0, tzinfo=timezone.utc)   # 10:00 local (Europe/Madrid, CEST)
+T0 = datetime(2026, 7, 14, 8, 0, 0, tzinfo=UTC)   # 10:00 local (Europe/Madrid, CEST)
 
 MANIFEST = '''schema = "walkcomfort-session/1"
 [session]
@@ -128,7 +128,7 @@ def naive_ingest(folder: Path, step_s: float = 1.0, max_gap_s: float = 10.0) -> 
             header = next(r)
             for rec in r:
                 local = datetime.strptime(rec[0], "%Y-%m-%d %H:%M:%S").replace(tzinfo=timezone(timedelta(hours=2)))
-                rows.append((local.timestamp(), *conv(dict(zip(header, rec)))))
+                rows.append((local.timestamp(), *conv(dict(zip(header, rec, strict=False)))))
         return rows
 
     weather = read("weather.csv", lambda d: ((float(d["t_air"]) - 32) * 5 / 9, float(d["rh"]),
@@ -154,7 +154,7 @@ def naive_ingest(folder: Path, step_s: float = 1.0, max_gap_s: float = 10.0) -> 
         if nxt[0] == prev[0]:
             return prev[1:]
         w = (t - prev[0]) / (nxt[0] - prev[0])
-        return tuple(a + w * (b - a) for a, b in zip(prev[1:], nxt[1:]))
+        return tuple(a + w * (b - a) for a, b in zip(prev[1:], nxt[1:], strict=False))
 
     out = []
     t = math.ceil(gps[0][0])

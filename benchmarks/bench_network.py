@@ -32,7 +32,7 @@ os.environ.setdefault("WALKCOMFORT_NO_PROGRESS", "1")
 import numpy as np  # noqa: E402
 
 from walkcomfort import columns as C  # noqa: E402
-from walkcomfort.network.batch import Partition, time_range, plan_job  # noqa: E402
+from walkcomfort.network.batch import Partition, plan_job, time_range  # noqa: E402
 from walkcomfort.network.engines import run_job  # noqa: E402
 from walkcomfort.network.segments import network_from_geojson  # noqa: E402
 from walkcomfort.network.synthetic import _lonlat, grid_network, grid_scene  # noqa: E402

@@ -39,7 +39,7 @@ def test_parquet_is_byte_stable(tmp_path):
 def test_utci_bands_cover_the_line_without_overlap():
     # the ten categories of the UTCI assessment scale (Bröde et al. 2012)
     assert len(UTCI_BANDS) == 10
-    for upper, lower in zip(UTCI_BANDS, UTCI_BANDS[1:]):
+    for upper, lower in zip(UTCI_BANDS, UTCI_BANDS[1:], strict=False):
         assert upper[0] == lower[1]
     # the published category limits [°C] (Bröde et al. 2012, doi:10.1007/s00484-011-0454-1, table of the
     # assessment scale): 46, 38, 32, 26, 9, 0, -13, -27, -40

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import os
 import sys
-from typing import Iterable, Iterator, TypeVar
+from collections.abc import Iterable, Iterator
+from typing import TypeVar
 
 T = TypeVar("T")
 
@@ -23,8 +24,14 @@ def track(iterable: Iterable[T], description: str, total: int | None = None,
     if not enabled:
         yield from iterable
         return
-    from rich.progress import (BarColumn, MofNCompleteColumn, Progress, TextColumn,
-                               TimeElapsedColumn, TimeRemainingColumn)
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        TextColumn,
+        TimeElapsedColumn,
+        TimeRemainingColumn,
+    )
 
     if total is None:
         try:

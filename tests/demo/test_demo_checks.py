@@ -9,7 +9,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from walkcomfort.demo import latent, simulator as S, town as T
+from walkcomfort.demo import latent
+from walkcomfort.demo import simulator as S
+from walkcomfort.demo import town as T
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_walks"
 PLANTED = json.loads((DEMO / "planted.json").read_text())["imperfections"]

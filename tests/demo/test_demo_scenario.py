@@ -9,7 +9,9 @@ import pandas as pd
 import pytest
 
 from walkcomfort import _io
-from walkcomfort.demo import scenario, simulator as S, town as T
+from walkcomfort.demo import scenario
+from walkcomfort.demo import simulator as S
+from walkcomfort.demo import town as T
 
 
 def _demo():
@@ -118,7 +120,7 @@ def test_device_files_are_written_as_the_devices_would():
     assert gpx.version == "1.1"
     pts = gpx.tracks[0].segments[0].points
     assert len(pts) > 600 and all(p.time.utcoffset().total_seconds() == 0 for p in pts[:5])
-    assert {round((b.time - a.time).total_seconds()) for a, b in zip(pts, pts[1:])} == {2}
+    assert {round((b.time - a.time).total_seconds()) for a, b in zip(pts, pts[1:], strict=False)} == {2}
     # the weather logger writes °F and km/h with a day-first local clock; the manifest declares it
     head = (folder / "logger" / "weather.csv").read_text().splitlines()[:2]
     assert head[0] == "DateTime,Temp_F,RH_pct,Wind_kmh,Globe_F,Press_hPa"

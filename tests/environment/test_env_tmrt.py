@@ -59,7 +59,7 @@ def test_six_direction_identity():
     # because the weighting factors sum to 1 (4 x 0.22 + 2 x 0.06).
     l = SIGMA * 303.15 ** 4
     assert tmrt.tmrt_from_fluxes(0.0, 0.0, 0.0, l, l, l) == pytest.approx(30.00, abs=1e-9)
-    assert 4 * tmrt.F_LATERAL + 2 * tmrt.F_VERTICAL == pytest.approx(1.0)
+    assert pytest.approx(1.0) == 4 * tmrt.F_LATERAL + 2 * tmrt.F_VERTICAL
 
 
 def _solarcal_fp_average(alt):

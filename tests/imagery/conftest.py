@@ -121,7 +121,7 @@ def build_template_session(templates, folder, gps_csv: bool = False):
     lon = lon0 + d * math.sin(math.radians(45)) / (111_195.0 * math.cos(math.radians(lat0)))
     pts = "\n".join(f'      <trkpt lat="{a:.7f}" lon="{o:.7f}"><ele>{650 + 0.01 * i:.2f}</ele>'
                     f'<time>{t.strftime("%Y-%m-%dT%H:%M:%SZ")}</time></trkpt>'
-                    for i, (a, o, t) in enumerate(zip(lat, lon, times)))
+                    for i, (a, o, t) in enumerate(zip(lat, lon, times, strict=False)))
     (folder / "gps").mkdir()
     if gps_csv:
         text = (folder / "session.toml").read_text(encoding="utf-8")
@@ -130,7 +130,7 @@ def build_template_session(templates, folder, gps_csv: bool = False):
         (folder / "gps" / "track.csv").write_text(
             "# exported by the logger, serial 0042\ntime,lat,lon,elev\n" + "\n".join(
                 f"{t.strftime('%Y-%m-%dT%H:%M:%SZ')},{a:.7f},{o:.7f},{650 + 0.01 * i:.2f}"
-                for i, (a, o, t) in enumerate(zip(lat, lon, times))) + "\n", encoding="utf-8")
+                for i, (a, o, t) in enumerate(zip(lat, lon, times, strict=False))) + "\n", encoding="utf-8")
     else:
         (folder / "gps" / "track.gpx").write_text(
             '<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="logger" '

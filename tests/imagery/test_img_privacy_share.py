@@ -251,7 +251,7 @@ def test_share_json_votes(tmp_path, make_template_session, wrapped):
     raw = make_template_session(tmp_path / "raw")
     lines = [ln for ln in (raw / "votes" / "votes.csv").read_text(encoding="utf-8").splitlines()
              if ln and not ln.startswith("#")][1:]
-    votes = [dict(zip(["time", "participant", "comfort", "tsv", "note", "kind"], ln.split(","))) for ln in lines]
+    votes = [dict(zip(["time", "participant", "comfort", "tsv", "note", "kind"], ln.split(","), strict=False)) for ln in lines]
     doc = {"votes": votes, "operator": "Dr. Someone"} if wrapped else votes
     (raw / "votes" / "votes.json").write_text(json.dumps(doc), encoding="utf-8")
     text = (raw / "session.toml").read_text(encoding="utf-8").replace('path = "votes/votes.csv"',

@@ -11,7 +11,6 @@ from walkcomfort import columns as C
 from walkcomfort.imagery import faces, people, quality
 from walkcomfort.imagery.cues import sky_mask
 
-
 # --- quality -----------------------------------------------------------------------
 
 

@@ -7,8 +7,17 @@ import pytest
 import sklearn.metrics as skm
 from sklearn.calibration import calibration_curve
 
-from walkcomfort.model.evaluate import (brier, classification_metrics, confusion, cross_validate,
-                                        grouped_splits, group_scores, log_loss, reliability, training_table)
+from walkcomfort.model.evaluate import (
+    brier,
+    classification_metrics,
+    confusion,
+    cross_validate,
+    group_scores,
+    grouped_splits,
+    log_loss,
+    reliability,
+    training_table,
+)
 
 LABELS = ["comfortable", "neutral", "uncomfortable"]
 c, n, u = LABELS

@@ -48,7 +48,7 @@ def test_oof_file_has_one_row_per_usable_vote(fitted, small_table, located):
     assert list(oof["vote"]) == [str(v) for v in small_table.y]
     # each vote keeps the position and walk of its timeline row
     key = located.set_index(C.WALK_ID, append=True)[[C.LAT, C.LON]]
-    want = key.loc[list(zip(oof.index, oof[C.WALK_ID]))]
+    want = key.loc[list(zip(oof.index, oof[C.WALK_ID], strict=False))]
     np.testing.assert_allclose(oof[C.LAT].to_numpy(), want[C.LAT].to_numpy())
     np.testing.assert_allclose(oof[C.LON].to_numpy(), want[C.LON].to_numpy())
     p = oof[[f"p_{c}" for c in res.cv.labels]].to_numpy()

@@ -34,7 +34,7 @@ def standin(part):
     v = np.sin(x / 37.0) + np.cos(y / 53.0) + hour / 10.0 + (0.0 if part.scheme == "base" else -0.5)
     logits = np.stack([-v, np.zeros_like(v), v])
     p = np.exp(logits) / np.exp(logits).sum(axis=0)
-    values = {C.UTCI_C: 20.0 + 5.0 * v, C.SHADE_FRAC: (np.sin(x + hour) > 0), **dict(zip(P_COLUMNS, p))}
+    values = {C.UTCI_C: 20.0 + 5.0 * v, C.SHADE_FRAC: (np.sin(x + hour) > 0), **dict(zip(P_COLUMNS, p, strict=False))}
     return aggregate_points(part, values, predictor="stand-in")
 
 

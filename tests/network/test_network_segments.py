@@ -72,7 +72,7 @@ def test_bad_features_are_quarantined_with_a_reason_not_dropped():
     net = network_from_geojson({"type": "FeatureCollection", "features": feats})
     assert list(net.segments[C.STREET_ID].unique()) == ["ok"]
     assert net.segments["street_name"].iloc[0] == "High Street"
-    reasons = dict(zip(net.quarantine["row"], net.quarantine["reason"]))
+    reasons = dict(zip(net.quarantine["row"], net.quarantine["reason"], strict=False))
     assert reasons == {1: "duplicate_id", 2: "missing_id", 3: "not_a_line (Point)", 4: "too_few_vertices",
                        5: "coordinates_not_lonlat", 6: "no_geometry"}
     # nothing silently lost: features read = used + quarantined

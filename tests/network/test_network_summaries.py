@@ -69,7 +69,7 @@ def test_geojson_summary_and_small_map_layer():
 
 
 def test_tile_by_tile_summary_equals_the_whole_summary(tmp_path):
-    from walkcomfort.network.batch import time_range, plan_job
+    from walkcomfort.network.batch import plan_job, time_range
     from walkcomfort.network.engines import read_segment_hours, run_job
     from walkcomfort.network.summaries import summary_from_results
     from walkcomfort.network.synthetic import grid_scene

@@ -104,12 +104,12 @@ def scene() -> dict:
     clat, clon = offset(np.array([150.0, 190.0, 190.0, 150.0, 150.0]), np.array([5.0, 5.0, 12.0, 12.0, 5.0]))
     return {"type": "FeatureCollection", "features": [
         {"type": "Feature", "properties": {"id": "b1", "kind": "building", "height_m": 12.0},
-         "geometry": {"type": "Polygon", "coordinates": [[[float(a), float(b)] for a, b in zip(lon, lat)]]}},
+         "geometry": {"type": "Polygon", "coordinates": [[[float(a), float(b)] for a, b in zip(lon, lat, strict=False)]]}},
         {"type": "Feature", "properties": {"id": "t1", "kind": "tree", "height_m": 8.0, "crown_base_m": 3.0,
                                            "crown_radius_m": 4.0, "transmissivity": 0.2},
          "geometry": {"type": "Point", "coordinates": [float(tlon[0]), float(tlat[0])]}},
         {"type": "Feature", "properties": {"id": "c1", "kind": "canopy", "height_m": 3.0, "transmissivity": 0.1},
-         "geometry": {"type": "Polygon", "coordinates": [[[float(a), float(b)] for a, b in zip(clon, clat)]]}},
+         "geometry": {"type": "Polygon", "coordinates": [[[float(a), float(b)] for a, b in zip(clon, clat, strict=False)]]}},
     ]}
 
 
@@ -164,7 +164,7 @@ def network_summary(n_streets=3, n_seg=4, seg_m=50.0, hours=10.0, street_name=XS
             feats.append({"type": "Feature", "properties": {
                 C.SEGMENT_ID: f"st{s}#{k:03d}", C.STREET_ID: f"st{s}", "name": street_name if s == 0 else f"Street {s}",
                 "length_m": seg_m, "schemes": {"base": base, "trees": trees}},
-                "geometry": {"type": "LineString", "coordinates": [[float(a), float(b)] for a, b in zip(lon, lat)]}})
+                "geometry": {"type": "LineString", "coordinates": [[float(a), float(b)] for a, b in zip(lon, lat, strict=False)]}})
     return {"type": "FeatureCollection", "walkcomfort": {"network": "synthetic", "summary": "segments", "base": "base"},
             "features": feats}
 

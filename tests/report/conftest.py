@@ -55,7 +55,7 @@ class LocalServer:
         self.timer = threading.Timer(SERVER_LIFETIME_S, self.stop)
         self.timer.daemon = True
 
-    def start(self) -> "LocalServer":
+    def start(self) -> LocalServer:
         self.thread.start()
         self.timer.start()
         return self

@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import shutil
 
+import _report_synth as S
 import pytest
 
-import _report_synth as S
 from walkcomfort.report import routemap as R
 
 pytestmark = pytest.mark.browser

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
+import _report_synth as S
 import pytest
 
-import _report_synth as S
 from walkcomfort import columns as C
 from walkcomfort.report.session_report import write_session_report
 

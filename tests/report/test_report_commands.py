@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import re
 
+import _report_synth as S
 import pandas as pd
 import pytest
 
-import _report_synth as S
 from walkcomfort import _io
 from walkcomfort.cli import main
 

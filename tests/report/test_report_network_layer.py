@@ -5,9 +5,9 @@ from __future__ import annotations
 import json
 import re
 
+import _report_synth as S
 import pytest
 
-import _report_synth as S
 from walkcomfort import _io
 from walkcomfort.cli import main
 from walkcomfort.errors import InputError

@@ -7,11 +7,10 @@ import json
 import re
 import warnings
 
+import _report_synth as S
 import numpy as np
-import pandas as pd
 import pytest
 
-import _report_synth as S
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.report import routemap as R
@@ -77,8 +76,8 @@ def test_payload_keeps_colour_boundaries_and_simplifies_straight_runs():
     changes_in = int((np.diff(src_cls) != 0).sum())
     changes_out = int((np.diff(np.array(data["cls"])) != 0).sum())
     assert changes_out == changes_in
-    by_dist = dict(zip(src[C.DIST_M].round(0), src_cls))
-    assert all(by_dist[d] == c for d, c in zip(data["dist"], data["cls"]))
+    by_dist = dict(zip(src[C.DIST_M].round(0), src_cls, strict=False))
+    assert all(by_dist[d] == c for d, c in zip(data["dist"], data["cls"], strict=False))
     # popups show local time and the values of the kept point
     first = src.iloc[0]
     assert data["t"][0] == first.name.strftime("%H:%M")

@@ -7,12 +7,11 @@ import html.parser
 import io
 import json
 
-import numpy as np
+import _report_synth as S
 import pandas as pd
 import pytest
 from PIL import Image
 
-import _report_synth as S
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.report import session_report as SR

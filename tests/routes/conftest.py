@@ -9,7 +9,6 @@ from pathlib import Path
 import pytest
 
 
-
 def pvlib_data() -> Path:
     import pvlib
 

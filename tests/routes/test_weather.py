@@ -9,8 +9,14 @@ import pytest
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.routes.designday import daily_max_temperature, design_day
-from walkcomfort.routes.weather import (LoggerSeries, StatedConditions, WeatherFile, cloud_scaled_ghi,
-                                        open_weather, read_weather_file)
+from walkcomfort.routes.weather import (
+    LoggerSeries,
+    StatedConditions,
+    WeatherFile,
+    cloud_scaled_ghi,
+    open_weather,
+    read_weather_file,
+)
 
 GSO = (36.1, -79.95, 273.0)  # the Greensboro station of the TMY3 file's header
 

@@ -90,7 +90,7 @@ def test_lag_correction_in_the_timeline(tmp_path):
     true = np.where(secs < 200, 25.0, 35.0)
     read = first_order_response(true, 2.0, 20.0)
     rows = ["DateTime,Temp_F,RH,Wind_kmh,Globe_F"]
-    for s, v in zip(secs, read):
+    for s, v in zip(secs, read, strict=False):
         x = 10 * 3600 + s + 7
         rows.append(f"2026-07-14 {x // 3600:02d}:{x % 3600 // 60:02d}:{x % 60:02d},{v * 9 / 5 + 32:.6f},40,5,100")
     (d / "logger" / "weather.csv").write_text("\n".join(rows) + "\n")

@@ -12,8 +12,13 @@ import pytest
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.session.clocks import ClockFit, fit_clock
-from walkcomfort.session.lag import (correct_lag, first_order_response, inverse_first_order, moving_average,
-                                     settling_mask)
+from walkcomfort.session.lag import (
+    correct_lag,
+    first_order_response,
+    inverse_first_order,
+    moving_average,
+    settling_mask,
+)
 from walkcomfort.session.timeline import build_timeline
 
 SESSIONS = Path(__file__).resolve().parents[1] / "fixtures" / "sessions"

@@ -12,8 +12,15 @@ import pytest
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.session.manifest import load_manifest
-from walkcomfort.session.readers import (energy_average, read_frames, read_gps, read_noise, read_votes,
-                                         read_weather, to_si)
+from walkcomfort.session.readers import (
+    energy_average,
+    read_frames,
+    read_gps,
+    read_noise,
+    read_votes,
+    read_weather,
+    to_si,
+)
 
 SESSIONS = Path(__file__).resolve().parents[1] / "fixtures" / "sessions"
 WALK_OK = SESSIONS / "walk_ok"

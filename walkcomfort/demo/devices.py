@@ -79,7 +79,7 @@ def gpx_text(fixes: pd.DataFrame, name: str) -> str:
              'xmlns="http://www.topografix.com/GPX/1/1">',
              f"<metadata><time>{fixes.index[0].strftime('%Y-%m-%dT%H:%M:%SZ')}</time></metadata>",
              f"<trk><name>{name}</name><trkseg>"]
-    for t, lat, lon, ele in zip(fixes.index, fixes["lat"], fixes["lon"], fixes["ele"]):
+    for t, lat, lon, ele in zip(fixes.index, fixes["lat"], fixes["lon"], fixes["ele"], strict=False):
         lines.append(f'<trkpt lat="{lat:.6f}" lon="{lon:.6f}"><ele>{ele:.1f}</ele>'
                      f"<time>{t.strftime('%Y-%m-%dT%H:%M:%SZ')}</time></trkpt>")
     lines.append("</trkseg></trk></gpx>")

@@ -16,9 +16,9 @@ from __future__ import annotations
 import importlib
 import importlib.util
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
 
 CAUTION = ("Caution: the demo data are INVENTED (an invented town, invented walkers, invented comfort "
            "votes); nothing here is a finding or design advice. Real heat exposure on field walks needs "

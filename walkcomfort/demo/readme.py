@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from walkcomfort.demo import latent, simulator as S, town as T
+from walkcomfort.demo import latent
+from walkcomfort.demo import simulator as S
+from walkcomfort.demo import town as T
 
 
 def readme_text(town, summaries, planted, schemes, physics, seed) -> str:

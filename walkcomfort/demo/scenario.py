@@ -17,7 +17,10 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import _io
-from walkcomfort.demo import devices as D, latent, simulator as S, town as T
+from walkcomfort.demo import devices as D
+from walkcomfort.demo import latent
+from walkcomfort.demo import simulator as S
+from walkcomfort.demo import town as T
 
 SITE_LABEL = f"{T.TOWN_NAME} (invented demo town)"
 MARKER = "planted.json"

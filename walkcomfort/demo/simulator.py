@@ -26,7 +26,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from walkcomfort.demo import latent, town as T
+from walkcomfort.demo import latent
+from walkcomfort.demo import town as T
 
 DEFAULT_SEED = 20260714
 DT_S = 1.0

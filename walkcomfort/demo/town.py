@@ -176,13 +176,13 @@ def offset_path(nodes, offsets):
     """
     pts = [np.asarray(p, float) for p in nodes]
     legs = []
-    for (a, b), d in zip(zip(pts[:-1], pts[1:]), offsets):
+    for (a, b), d in zip(zip(pts[:-1], pts[1:], strict=False), offsets, strict=False):
         t = b - a
         t = t / np.linalg.norm(t)
         n = np.array([-t[1], t[0]])
         legs.append((a + d * n, b + d * n, t))
     out = [legs[0][0]]
-    for (a1, b1, t1), (a2, b2, t2) in zip(legs[:-1], legs[1:]):
+    for (a1, b1, t1), (a2, b2, t2) in zip(legs[:-1], legs[1:], strict=False):
         cross = t1[0] * t2[1] - t1[1] * t2[0]
         if abs(cross) < 1e-9:
             out.append(0.5 * (b1 + a2))
@@ -401,7 +401,7 @@ def build_town(seed: int = 20260714) -> Town:
 
 def _ring_lonlat(poly):
     lon, lat = to_lonlat([p[0] for p in poly], [p[1] for p in poly])
-    return [[float(a), float(b)] for a, b in zip(lon, lat)]
+    return [[float(a), float(b)] for a, b in zip(lon, lat, strict=False)]
 
 
 def _tree_feature(t):
@@ -449,7 +449,7 @@ def streets_geojson(town: Town) -> dict:
         dy = np.interp(t, np.linspace(0, 1, len(ys)), ys)
         lon, lat = to_lonlat(dx, dy)
         z = np.round(elevation_m(dx, dy), 1)
-        coords = [[float(a), float(b), float(c)] for a, b, c in zip(lon, lat, z)]
+        coords = [[float(a), float(b), float(c)] for a, b, c in zip(lon, lat, z, strict=False)]
         feats.append({"type": "Feature", "geometry": {"type": "LineString", "coordinates": coords},
                       "properties": {"id": s.id, "name": s.name, "kind": s.kind, "width_m": s.width_m,
                                      "traffic": s.traffic}})
@@ -474,7 +474,7 @@ def route_geojson(walk: Walk) -> dict:
     p = walk_points(walk, spacing_m=10.0)
     lon, lat = to_lonlat(p[:, 0], p[:, 1])
     z = np.round(elevation_m(p[:, 0], p[:, 1]), 1)
-    coords = [[float(a), float(b), float(c)] for a, b, c in zip(lon, lat, z)]
+    coords = [[float(a), float(b), float(c)] for a, b, c in zip(lon, lat, z, strict=False)]
     return {"type": "FeatureCollection",
             "features": [{"type": "Feature", "geometry": {"type": "LineString", "coordinates": coords},
                           "properties": {"id": walk.id, "name": walk.name,
@@ -491,7 +491,7 @@ def route_gpx(walk: Walk) -> str:
     lines = ['<?xml version="1.0" encoding="UTF-8"?>',
              '<gpx version="1.1" creator="walkcomfort demo (invented town)" xmlns="http://www.topografix.com/GPX/1/1">',
              f"<rte><name>{escape(walk.name)}</name>"]
-    for a, b, c in zip(lon, lat, z):
+    for a, b, c in zip(lon, lat, z, strict=False):
         lines.append(f'<rtept lat="{b:.7f}" lon="{a:.7f}"><ele>{c:.1f}</ele></rtept>')
     lines.append("</rte></gpx>")
     return "\n".join(lines) + "\n"

@@ -120,7 +120,7 @@ class Scene:
 
     # --- construction / export -----------------------------------------------------
     @classmethod
-    def from_geojson(cls, obj: dict | str, source: str = "scene") -> "Scene":
+    def from_geojson(cls, obj: dict | str, source: str = "scene") -> Scene:
         """Scene from a GeoJSON FeatureCollection (a dict or JSON text)."""
         if isinstance(obj, str):
             try:
@@ -141,7 +141,7 @@ class Scene:
         return cls(feats, site=site, source=source)
 
     @classmethod
-    def empty(cls, lat: float, lon: float, elev_m: float = 0.0) -> "Scene":
+    def empty(cls, lat: float, lon: float, elev_m: float = 0.0) -> Scene:
         """A scene with no obstacles at a site (open ground everywhere)."""
         return cls([], site={"lat": lat, "lon": lon, "elev_m": elev_m})
 
@@ -267,7 +267,7 @@ def scene_from_local(items, lat: float, lon: float, elev_m: float = 0.0) -> Scen
     geoms[:] = [g for g, _ in items]
     if len(items):
         geoms = shapely.transform(geoms, lambda xy: np.column_stack(frame.unproject(xy[:, 0], xy[:, 1])))
-    feats = [feature_to_geojson(g, p) for g, (_, p) in zip(geoms, items)]
+    feats = [feature_to_geojson(g, p) for g, (_, p) in zip(geoms, items, strict=False)]
     return Scene(feats, site={"lat": float(lat), "lon": float(lon), "elev_m": float(elev_m)})
 
 

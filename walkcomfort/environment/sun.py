@@ -201,7 +201,7 @@ def linke_turbidity_by_month(lat: float, lon: float) -> dict[int, float]:
     """
     mid = pd.DatetimeIndex([pd.Timestamp(2001, m, 15, tz="UTC") for m in range(1, 13)])
     tl = pvlib.clearsky.lookup_linke_turbidity(mid, float(lat), float(lon), interp_turbidity=False)
-    return {int(m): round(float(v), 4) for m, v in zip(range(1, 13), np.asarray(tl))}
+    return {int(m): round(float(v), 4) for m, v in zip(range(1, 13), np.asarray(tl), strict=False)}
 
 
 def clearsky_irradiance(times, lat, lon, elev_m=0.0, linke_turbidity=None, position=None) -> pd.DataFrame:

@@ -61,13 +61,11 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
     import pandas as pd
 
     from walkcomfort import _io
-    from walkcomfort.imagery.attach import add_frame_cues
+    from walkcomfort.imagery.attach import ADDED_COLUMNS, add_frame_cues
     from walkcomfort.imagery.batch import compute_frame_cues
     from walkcomfort.imagery.labels import combine_cues, read_frame_labels
     from walkcomfort.imagery.sessions import session_frames
     from walkcomfort.session.timeline import TIMELINE_FILE, read_timeline
-
-    from walkcomfort.imagery.attach import ADDED_COLUMNS
 
     for d in sessions:
         table, reader_q, spec = session_frames(d)

@@ -50,7 +50,7 @@ _CASCADE_FILES = {
     "profile": "haarcascade_profileface.xml",
     "plate": "haarcascade_russian_plate_number.xml",
 }
-_CASCADES: dict[str, "cv2.CascadeClassifier"] = {}
+_CASCADES: dict[str, cv2.CascadeClassifier] = {}
 
 
 @dataclass(frozen=True)
@@ -67,7 +67,7 @@ class FaceParams:
         return asdict(self)
 
 
-def _cascade(name: str) -> "cv2.CascadeClassifier":
+def _cascade(name: str) -> cv2.CascadeClassifier:
     if name not in _CASCADES:
         folder = getattr(getattr(cv2, "data", None), "haarcascades", "")
         path = os.path.join(folder, _CASCADE_FILES[name])

@@ -139,7 +139,7 @@ def read_frame_labels(path: str | os.PathLike, frames: pd.DataFrame | None = Non
         if C.FRAME_PATH not in frames.columns or not isinstance(frames.index, pd.DatetimeIndex):
             raise InputError("the frames table needs a UTC time index and a frame_path column",
                              fix="pass the table returned by walkcomfort.session.readers.read_frames")
-        for t, fp in zip(frames.index, frames[C.FRAME_PATH]):
+        for t, fp in zip(frames.index, frames[C.FRAME_PATH], strict=False):
             by_key.setdefault(_key(fp), (t, _key(fp)))
             by_name.setdefault(PurePosixPath(_key(fp)).name, []).append((t, _key(fp)))
 
@@ -280,7 +280,7 @@ def combine_cues(computed: pd.DataFrame, imported: pd.DataFrame, prefer: str = "
     a["cue_source"] = "computed"
     pos = {k: i for i, k in enumerate(a["_k"])}
     extra = []
-    for t, rec in zip(b.index, b.to_dict("records")):
+    for t, rec in zip(b.index, b.to_dict("records"), strict=False):
         i = pos.get(rec["_k"])
         if i is None:
             rec = dict(rec)

@@ -65,7 +65,7 @@ class PeopleParams:
 _HOG = None
 
 
-def _detector() -> "cv2.HOGDescriptor":
+def _detector() -> cv2.HOGDescriptor:
     global _HOG
     if _HOG is None:
         if not hasattr(cv2, "HOGDescriptor"):

@@ -43,7 +43,7 @@ def session_frames(session, return_fits: bool = False) -> tuple:
         df, meta = read_frames(s.abs_path, s, spec)
         read.append((s, df))
         quarantines.append(meta["quarantine"])
-        frame_times.update(zip(df[C.FRAME_PATH].tolist(), df.index))
+        frame_times.update(zip(df[C.FRAME_PATH].tolist(), df.index, strict=False))
     tables = []
     fits = fit_clocks(spec, [s.device for s in spec.sources], frame_times)
     if read:

@@ -238,7 +238,7 @@ def _trim_gpx(text: str, radius_m: float, where: str, keep_extensions: bool = Fa
     if len(pts) and drop.all():
         raise InputError(f"every point of the track lies within {radius_m:g} m of its start or end", where=where,
                          fix="use a smaller --trim-radius, or do not share this session")
-    keep_ids = {id(p) for (_, _, _, p), d in zip(pts, drop) if not d}
+    keep_ids = {id(p) for (_, _, _, p), d in zip(pts, drop, strict=False) if not d}
     n_ext = 0
     for trk in gpx.tracks:
         for seg in trk.segments:
@@ -296,7 +296,7 @@ def _trim_gps_csv(s, spec, radius_m: float):
                          where=s.display, fix="use a smaller --trim-radius, or do not share this session")
     lines = s.abs_path.read_bytes().decode("utf-8-sig", errors="replace").splitlines()
     header_line = _header_line(lines, table.header, s)
-    kept = [raw for raw, d in zip(table.raws, drop) if not d]
+    kept = [raw for raw, d in zip(table.raws, drop, strict=False) if not d]
     entry = {"kind": "gps", "points_read": len(table.rows) + len(q),
              "points_removed_near_ends": int((drop & usable).sum()),
              "points_removed_without_time_or_position": int((drop & ~usable).sum()) + len(q),
@@ -359,7 +359,7 @@ def _share_votes(s, stage: Path, pid: str, participant: str, keep_notes: bool) -
         _io.atomic_write_text(stage / s.path, json.dumps(out, ensure_ascii=False, indent=2) + "\n")
         return {"kind": "votes", "rows_kept": len(recs), "participant_replaced": n_part, "notes_emptied": n_note}
 
-    from walkcomfort.session.readers._common import Quarantine, read_delimited, _sniff
+    from walkcomfort.session.readers._common import Quarantine, _sniff, read_delimited
 
     q = Quarantine(s.name, s.path)
     table = read_delimited(s.abs_path, s, [s.column("time")], [], q)
@@ -426,7 +426,6 @@ def _gps_on_reference_clock(spec, fits) -> pd.DataFrame | None:
 
 def _share_frames(spec, stage: Path, radius_m, blur, plates, face_params, progress, workers=1, pool=None):
     from walkcomfort.imagery.sessions import session_frames
-    from walkcomfort.session.readers.frames import exif_time
 
     frames, quarantine, _, fits = session_frames(spec, return_fits=True)
     gps_points = _gps_on_reference_clock(spec, fits)
@@ -488,9 +487,9 @@ def _copy_frames(todo, blur, params, workers, pool):
         for item in todo:
             yield from _copy_chunk([item], blur, params)
         return
-    from walkcomfort.imagery.batch import make_pool
-
     from concurrent.futures.process import BrokenProcessPool
+
+    from walkcomfort.imagery.batch import make_pool
 
     own = pool is None
     pool = make_pool(workers) if own else pool
@@ -579,7 +578,7 @@ def _camera_clock_times(spec) -> dict:
     out = {}
     for s in spec.sources_of("frames"):
         df, _ = read_frames(s.abs_path, s, spec)
-        out.update(zip(df[C.FRAME_PATH].tolist(), df.index))
+        out.update(zip(df[C.FRAME_PATH].tolist(), df.index, strict=False))
     return out
 
 

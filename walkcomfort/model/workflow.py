@@ -16,8 +16,15 @@ import pandas as pd
 from walkcomfort import _io
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
-from walkcomfort.model.evaluate import (MODEL_NAMES, CVResult, TrainingTable, classification_metrics,
-                                        cross_validate, group_scores, training_table)
+from walkcomfort.model.evaluate import (
+    MODEL_NAMES,
+    CVResult,
+    TrainingTable,
+    classification_metrics,
+    cross_validate,
+    group_scores,
+    training_table,
+)
 
 TIMELINE_FILE = "timeline.parquet"
 REPORT_FILE = "report.html"
@@ -263,6 +270,6 @@ METRICS_HEADER = ("model", "macro-F1", "balanced accuracy", "accuracy", "log-los
 def format_metrics(metrics: dict, names: dict | None = None) -> str:
     rows = [METRICS_HEADER] + metrics_rows(metrics, names)
     widths = [max(len(r[i]) for r in rows) for i in range(len(METRICS_HEADER))]
-    lines = ["  ".join(c.ljust(w) if i == 0 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths)))
+    lines = ["  ".join(c.ljust(w) if i == 0 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths, strict=False)))
              for r in rows]
     return "\n".join(lines)

@@ -146,7 +146,7 @@ def rule_probabilities(utci_c: np.ndarray) -> dict[str, np.ndarray]:
     from walkcomfort.model.baselines import physics_rule
 
     cls = physics_rule(np.asarray(utci_c).ravel()).reshape(np.shape(utci_c))
-    return {p: (cls == c).astype(float) for p, c in zip(P_COLUMNS, C.COMFORT_CLASSES)}
+    return {p: (cls == c).astype(float) for p, c in zip(P_COLUMNS, C.COMFORT_CLASSES, strict=False)}
 
 
 def partition_rows(part: Partition) -> pd.DataFrame:

@@ -26,16 +26,15 @@ from __future__ import annotations
 import hashlib
 import json
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
-from walkcomfort.network.tiling import (DEFAULT_Z_M, Tile, feature_positions, make_tiles, obstacle_table,
-                                       subset_scene)
+from walkcomfort.network.tiling import DEFAULT_Z_M, Tile, feature_positions, make_tiles, obstacle_table, subset_scene
 
 #: The scheme name of the scene as it is (no edits).
 BASE = "base"

@@ -94,7 +94,7 @@ class Network:
     def n_segments(self) -> int:
         return len(self.segments)
 
-    def subset(self, segment_ids) -> "Network":
+    def subset(self, segment_ids) -> Network:
         """The same network restricted to ``segment_ids`` (order of the network kept)."""
         keep = self.segments.index.isin(list(segment_ids))
         seg = self.segments.loc[keep]
@@ -221,7 +221,7 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
                 continue
             n = max(1, int(round(length / segment_length_m)))
             cuts = np.linspace(0.0, length, n + 1)
-            for a, b in zip(cuts[:-1], cuts[1:]):
+            for a, b in zip(cuts[:-1], cuts[1:], strict=False):
                 pieces.append(_substring(xy, a, b))
         if not pieces:
             quarantine.append({"source": "network", "file": source, "row": _row_of(obj, sid),
@@ -241,7 +241,7 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
                              "x_mid_m": float(mid[0]), "y_mid_m": float(mid[1]),
                              "elev_start_m": float(piece[0, 2]), "elev_end_m": float(piece[-1, 2]),
                              "geometry_xy": [(float(v[0]), float(v[1])) for v in piece],
-                             "geometry_lonlat": list(zip(map(float, glon), map(float, glat)))})
+                             "geometry_lonlat": list(zip(map(float, glon), map(float, glat), strict=False))})
             for j in range(n_pts):
                 pt_rows.append((seg_id, j, float(pxy[j, 0]), float(pxy[j, 1]), float(plon[j]), float(plat[j]),
                                 float(pxy[j, 2])))

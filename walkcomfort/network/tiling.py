@@ -126,7 +126,7 @@ def tile_ids(network, tile_size_m: float) -> pd.Series:
     y0 = math.floor(seg["y_mid_m"].min() / tile_size_m) * tile_size_m
     ix = np.floor((seg["x_mid_m"].to_numpy() - x0) / tile_size_m).astype(int)
     iy = np.floor((seg["y_mid_m"].to_numpy() - y0) / tile_size_m).astype(int)
-    return pd.Series([f"t{a:03d}_{b:03d}" for a, b in zip(ix, iy)], index=seg.index, name=C.TILE_ID)
+    return pd.Series([f"t{a:03d}_{b:03d}" for a, b in zip(ix, iy, strict=False)], index=seg.index, name=C.TILE_ID)
 
 
 def make_tiles(network, obstacles: pd.DataFrame, tile_size_m: float = 250.0,

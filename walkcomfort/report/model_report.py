@@ -122,7 +122,7 @@ def importance_figure(imp: pd.DataFrame, top: int = 15):
 
     d = imp.head(top)
     fig, ax = plt.subplots(figsize=(6.5, 0.32 * len(d) + 1))
-    ax.barh([f"{m} ({f})" for f, m in zip(d["feature"], d["meaning"])], 100 * d["share"], color="tab:orange")
+    ax.barh([f"{m} ({f})" for f, m in zip(d["feature"], d["meaning"], strict=False)], 100 * d["share"], color="tab:orange")
     ax.invert_yaxis()
     ax.set_xlabel("share of total gain [%]")
     ax.tick_params(axis="y", labelsize=7)

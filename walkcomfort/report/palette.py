@@ -118,7 +118,7 @@ def ramp(stops: tuple[str, ...], value: float) -> str:
     i = min(int(pos), len(stops) - 2)
     t = pos - i
     a, b = _hex_to_rgb(stops[i]), _hex_to_rgb(stops[i + 1])
-    return _rgb_to_hex([x + (y - x) * t for x, y in zip(a, b)])
+    return _rgb_to_hex([x + (y - x) * t for x, y in zip(a, b, strict=False)])
 
 
 def comfort_colour(comfort_class) -> str:

@@ -47,9 +47,10 @@ import math
 import os
 import re
 import warnings
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Iterable, Mapping, Sequence
+from typing import Any
 from urllib.parse import urlsplit
 
 import numpy as np
@@ -266,7 +267,7 @@ def rdp_keep(x: np.ndarray, y: np.ndarray, tolerance_m: float, forced: np.ndarra
     if tolerance_m <= 0 or n < 3:
         return np.ones(n, dtype=bool) if tolerance_m <= 0 else keep
     anchors = np.flatnonzero(keep)
-    stack = [(int(a), int(b)) for a, b in zip(anchors[:-1], anchors[1:]) if b - a > 1]
+    stack = [(int(a), int(b)) for a, b in zip(anchors[:-1], anchors[1:], strict=False) if b - a > 1]
     while stack:
         a, b = stack.pop()
         xs, ys = x[a + 1:b], y[a + 1:b]
@@ -420,7 +421,7 @@ def _route_payload(group: pd.DataFrame, label: str, zone, tz_name: str, decimals
     n = len(group)
     keep = np.zeros(n, dtype=bool)
     starts = np.r_[0, np.flatnonzero(route[1:] != route[:-1]) + 1, n]
-    for a, b in zip(starts[:-1], starts[1:]):
+    for a, b in zip(starts[:-1], starts[1:], strict=False):
         seg = slice(a, b)
         forced = np.zeros(b - a, dtype=bool)
         for key in (cls[seg], band[seg], sbin[seg]):
@@ -479,7 +480,7 @@ def _summary_lookup(summaries: pd.DataFrame | None):
     deps = pd.to_datetime(summaries[DEPARTURE], utc=True).dt.tz_convert(None).to_numpy("datetime64[ns]")
     table = {}
     for i, (r, sch, dep) in enumerate(zip(summaries[ROUTE_ID].astype(str), summaries[SCHEME].astype(str),
-                                          deps.astype("int64"))):
+                                          deps.astype("int64"), strict=False)):
         row = summaries.iloc[i]
         table[(r, sch, int(dep))] = {k: (_num([row[k]], 3)[0] if k in summaries.columns else None)
                                      for k in SUMMARY_FIELDS}
@@ -577,7 +578,7 @@ def _walk_frames(walks) -> list[pd.DataFrame]:
                                  fix="pass a timeline.parquet written by 'walkcomfort ingest'") from None
             if hasattr(w, "data"):
                 w = w.data
-        elif hasattr(w, "data") and isinstance(getattr(w, "data"), pd.DataFrame):
+        elif hasattr(w, "data") and isinstance(w.data, pd.DataFrame):
             w = w.data
         if not isinstance(w, pd.DataFrame):
             raise InputError(f"walk {i} is a {type(w).__name__}, not a timeline", where=f"walk {i}",
@@ -617,7 +618,7 @@ def _walk_payload(w: pd.DataFrame, i: int, default_tz: str, decimals: int, simpl
         "participant": _text(w[C.PARTICIPANT].dropna().iloc[0]) if C.PARTICIPANT in w.columns
         and w[C.PARTICIPANT].notna().any() else None,
         "tz": tz_name,
-        "track": [[a, b] for a, b in zip(_num(tr[C.LAT], decimals), _num(tr[C.LON], decimals))],
+        "track": [[a, b] for a, b in zip(_num(tr[C.LAT], decimals), _num(tr[C.LON], decimals), strict=False)],
         "votes": {
             "lat": _num(votes[C.LAT], decimals),
             "lon": _num(votes[C.LON], decimals),
@@ -701,7 +702,7 @@ def model_error_cells(walks: Sequence[pd.DataFrame], cell_m: float = 50.0) -> pd
             top = str(pair.index[0])
         out.append({"ix": int(ix), "iy": int(iy), "n_votes": int(len(cell)), "n_wrong": int(len(wrong)),
                     "error_rate": float(len(wrong) / len(cell)),
-                    "corners": [[float(a), float(b)] for a, b in zip(lat, lon)], "top_confusion": top})
+                    "corners": [[float(a), float(b)] for a, b in zip(lat, lon, strict=False)], "top_confusion": top})
     return pd.DataFrame(out, columns=cols)
 
 
@@ -860,7 +861,7 @@ class _Elements:
         if cls._cache:
             return cls._cache
         folium, Layer, Template = _folium()
-        from branca.element import Element, MacroElement
+        from branca.element import MacroElement
 
         class ComfortMap(folium.Map):
             """folium.Map without jQuery, Bootstrap, icon fonts or awesome-markers."""

@@ -22,8 +22,9 @@ import io
 import json
 import math
 import os
+from collections.abc import Mapping
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -222,14 +223,14 @@ def timeseries_figure(df: pd.DataFrame, zone, title: str = ""):
     fig.subplots_adjust(left=left, right=0.84, top=1 - (0.45 if title else 0.12) / height, bottom=0.55 / height,
                         hspace=0.12 * len(panels) / height * 2)
     axes = np.atleast_1d(axes)
-    by = dict(zip(panels, axes))
+    by = dict(zip(panels, axes, strict=False))
     if title:
         fig.suptitle(title, fontsize=11)
 
     ax = by["votes"]
     ax.set_yticks([])
     ax.set_ylabel("votes", rotation=0, ha="right", va="center", fontsize=8)
-    for i, (ts, row) in enumerate(zip(vt, votes.itertuples())):
+    for i, (ts, row) in enumerate(zip(vt, votes.itertuples(), strict=False)):
         cls = getattr(row, C.VOTE_COMFORT, None) if C.VOTE_COMFORT in votes.columns else None
         tsv = getattr(row, C.VOTE_TSV, np.nan) if C.VOTE_TSV in votes.columns else np.nan
         colour = P.comfort_colour(cls if isinstance(cls, str) else None)
@@ -284,7 +285,7 @@ def timeseries_figure(df: pd.DataFrame, zone, title: str = ""):
             edges = np.flatnonzero(np.diff(np.r_[0, on.astype(int), 0]))
             step = (t[1] - t[0]) if len(t) > 1 else pd.Timedelta(seconds=1)
             spans = [(mdates.date2num(t[a]), mdates.date2num(t[min(b, len(t) - 1)] + step) - mdates.date2num(t[a]))
-                     for a, b in zip(edges[::2], edges[1::2])]
+                     for a, b in zip(edges[::2], edges[1::2], strict=False)]
             ax.broken_barh(spans, (k + 0.15, 0.7), color="#c0392b", alpha=0.7)
         ax.set_yticks(np.arange(len(flags)) + 0.5, [f.removeprefix("qa_") for f in flags], fontsize=7)
         ax.set_ylim(0, len(flags))
@@ -357,7 +358,7 @@ def track_figure(df: pd.DataFrame, zone, scene: dict | None = None):
     votes = _vote_rows(tr)
     for row_x, row_y, cls in zip((votes[C.LON].to_numpy(float) - tr[C.LON].mean()) * kx,
                                  (votes[C.LAT].to_numpy(float) - lat0) * ky,
-                                 votes[C.VOTE_COMFORT] if C.VOTE_COMFORT in votes.columns else [None] * len(votes)):
+                                 votes[C.VOTE_COMFORT] if C.VOTE_COMFORT in votes.columns else [None] * len(votes), strict=False):
         ax.scatter([row_x], [row_y], s=70, color=P.comfort_colour(cls if isinstance(cls, str) else None),
                    edgecolor=P.HALO_COLOUR, linewidth=1.0, zorder=4)
     ax.scatter([x[0]], [y[0]], marker="^", s=60, color="#ffffff", edgecolor="#000000", zorder=5, label="start")
@@ -508,7 +509,7 @@ def session_report_html(data: pd.DataFrame, qa: dict, quarantine: pd.DataFrame |
     parts.append(f"<h2>Votes ({len(votes)})</h2>")
     if len(votes):
         rows = []
-        for ts_, r in zip(votes.index.tz_convert(zone), votes.itertuples()):
+        for ts_, r in zip(votes.index.tz_convert(zone), votes.itertuples(), strict=False):
             tsv = getattr(r, C.VOTE_TSV, None) if C.VOTE_TSV in votes.columns else None
             tsv_text = None if tsv is None or pd.isna(tsv) else f"{_tsv_text(tsv)} ({C.TSV_SCALE.get(int(tsv), '?')})"
             rows.append([f"{ts_:%H:%M:%S}", getattr(r, C.VOTE_COMFORT, None) if C.VOTE_COMFORT in votes.columns

@@ -113,7 +113,7 @@ def summarise(points: pd.DataFrame) -> pd.DataFrame:
     out["heat_dose_cmin"] = g["dose"].sum()
     out["points_n"] = g["dt"].size()
     idx = np.unravel_index(out.index.to_numpy(), sizes)
-    keys = pd.DataFrame({k: u.take(i) for k, (_, u), i in zip(KEYS, codes, idx)})
+    keys = pd.DataFrame({k: u.take(i) for k, (_, u), i in zip(KEYS, codes, idx, strict=False)})
     return pd.concat([keys, out.reset_index(drop=True)], axis=1)
 
 

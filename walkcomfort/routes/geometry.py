@@ -253,7 +253,7 @@ def sample_dem(dem_path: str | os.PathLike, lon: np.ndarray, lat: np.ndarray) ->
     with rasterio.open(dem_path) as ds:
         tr = Transformer.from_crs("EPSG:4326", ds.crs.to_string(), always_xy=True)
         x, y = tr.transform(np.asarray(lon), np.asarray(lat))
-        vals = np.array([v[0] for v in ds.sample(list(zip(x, y)), masked=True)], dtype=object)
+        vals = np.array([v[0] for v in ds.sample(list(zip(x, y, strict=False)), masked=True)], dtype=object)
         out = np.array([np.nan if np.ma.is_masked(v) else float(v) for v in vals])
     if np.all(np.isnan(out)):
         raise InputError("the route lies outside the DEM raster (no cell under any point)", where=dem_path,

@@ -46,7 +46,7 @@ def points_geojson(points: pd.DataFrame, digits: int = 7) -> dict:
     cols = list(df.columns)
     for rec in df.itertuples(index=False, name=None):
         props = {}
-        for k, v in zip(cols, rec):
+        for k, v in zip(cols, rec, strict=False):
             if isinstance(v, (float, np.floating)):
                 v = None if not np.isfinite(v) else round(float(v), 6)
             elif isinstance(v, (np.integer,)):

@@ -41,7 +41,7 @@ def plot_comfort_along_route(points: pd.DataFrame, departure=None, timezone: str
     axes = fig.subplots(len(schemes), 1, sharex=True, squeeze=False)[:, 0]
     umin = float(np.nanmin(sel[C.UTCI_C])) if len(sel) else 0.0
     umax = float(np.nanmax(sel[C.UTCI_C])) if len(sel) else 1.0
-    for ax, name in zip(axes, schemes):
+    for ax, name in zip(axes, schemes, strict=False):
         g = sel[sel[SCHEME] == name].sort_index()
         d = g[C.DIST_M].to_numpy(float)
         ys = [g[PROBA[c]].to_numpy(float) for c in C.COMFORT_CLASSES]

@@ -25,8 +25,15 @@ from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.routes.geometry import Route
 from walkcomfort.routes.schemes import Scheme, apply_scheme
-from walkcomfort.routes.simulate import (DEPARTURE, ROUTE_ID, SCHEME, STEP_S, STOP, add_simulated_environment,
-                                         simulate_timeline)
+from walkcomfort.routes.simulate import (
+    DEPARTURE,
+    ROUTE_ID,
+    SCHEME,
+    STEP_S,
+    STOP,
+    add_simulated_environment,
+    simulate_timeline,
+)
 from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
 from walkcomfort.routes.weather import WeatherSource
 
@@ -70,7 +77,7 @@ class Predictor:
             self.label = label or predictor_label(model)
 
     @classmethod
-    def from_bundle(cls, folder: str | os.PathLike | None) -> "Predictor":
+    def from_bundle(cls, folder: str | os.PathLike | None) -> Predictor:
         """Load a bundle folder (``None`` -> the physics rule)."""
         if folder is None:
             return cls(None)
@@ -133,7 +140,7 @@ def _physics(timeline: pd.DataFrame) -> pd.DataFrame:
     out[PREDICTOR] = PHYSICS_RULE
     band = timeline[C.UTCI_BAND].astype(str).to_numpy() if C.UTCI_BAND in timeline.columns else [""] * len(u)
     out[REASONS] = [f"UTCI {x:.1f} °C ({b}) -> {c} by the UTCI-band rule (no model)" if np.isfinite(x)
-                    else "UTCI unknown" for x, b, c in zip(u, band, cls)]
+                    else "UTCI unknown" for x, b, c in zip(u, band, cls, strict=False)]
     return out
 
 

@@ -67,7 +67,7 @@ class Scheme:
     source: str = ""
 
     @classmethod
-    def base(cls) -> "Scheme":
+    def base(cls) -> Scheme:
         """The base scene, no edits."""
         return cls(BASE, "base scene (no edits)", (), "")
 

@@ -18,7 +18,8 @@ NCGIA Technical Report 93-1, University of California, Santa Barbara.
 from __future__ import annotations
 
 import re
-from datetime import datetime, time as dtime
+from datetime import datetime
+from datetime import time as dtime
 
 import numpy as np
 import pandas as pd

@@ -532,7 +532,7 @@ class LoggerSeries(WeatherSource):
             + (f" scaled for cloud {cloud_frac:g}" if cloud_frac is not None else "")]
 
     @classmethod
-    def from_file(cls, path, wind_height_m: float | None = None, cloud_frac: float | None = None) -> "LoggerSeries":
+    def from_file(cls, path, wind_height_m: float | None = None, cloud_frac: float | None = None) -> LoggerSeries:
         """Read a CSV (``time`` column, ISO 8601 with offset, canonical columns) or a timeline Parquet."""
         path = Path(path)
         if not path.exists():

@@ -133,7 +133,7 @@ def correct_lag(series: pd.Series, tau_s: float, smooth_s: float | None = None,
     breaks = np.flatnonzero(dt > max_gap_s) + 1
     bounds = np.concatenate([[0], breaks, [len(s)]])
     vals = s.to_numpy()
-    for lo, hi in zip(bounds[:-1], bounds[1:]):
+    for lo, hi in zip(bounds[:-1], bounds[1:], strict=False):
         if hi - lo < 2:
             out[lo:hi] = vals[lo:hi]
             continue

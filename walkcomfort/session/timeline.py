@@ -29,10 +29,35 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import _io
-from walkcomfort.columns import (DIST_M, ELEV_M, FRAME_PATH, HEADING_DEG, HR_BPM, ILLUM_LUX, LAEQ_DB, LAT, LON,
-                                 PARTICIPANT, PRESSURE_HPA, QA_GAP, QA_GPS_JUMP, QA_SETTLING, RH_PCT, SLOPE_PCT,
-                                 SPEED_MS, T_AIR_C, T_DEVICE_C, T_GLOBE_C, TIME, VOTE_COMFORT, VOTE_KIND, VOTE_NOTE,
-                                 VOTE_TSV, WALK_ID, WIND_MS)
+from walkcomfort.columns import (
+    DIST_M,
+    ELEV_M,
+    FRAME_PATH,
+    HEADING_DEG,
+    HR_BPM,
+    ILLUM_LUX,
+    LAEQ_DB,
+    LAT,
+    LON,
+    PARTICIPANT,
+    PRESSURE_HPA,
+    QA_GAP,
+    QA_GPS_JUMP,
+    QA_SETTLING,
+    RH_PCT,
+    SLOPE_PCT,
+    SPEED_MS,
+    T_AIR_C,
+    T_DEVICE_C,
+    T_GLOBE_C,
+    TIME,
+    VOTE_COMFORT,
+    VOTE_KIND,
+    VOTE_NOTE,
+    VOTE_TSV,
+    WALK_ID,
+    WIND_MS,
+)
 from walkcomfort.errors import InputError
 from walkcomfort.session import qa as _qa
 from walkcomfort.session.clocks import WARN_DRIFT_PPM, fit_clocks
@@ -151,7 +176,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
     frame_times = {}
     for s in spec.sources_of("frames"):
         df = frames[s.name]
-        frame_times.update(zip(df[FRAME_PATH].tolist(), df.index))
+        frame_times.update(zip(df[FRAME_PATH].tolist(), df.index, strict=False))
     fits = fit_clocks(spec, [s.device for s in spec.sources], frame_times)
     for s in spec.sources:
         fit = fits[s.device]
@@ -248,7 +273,7 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
             taus = [spec.sensors.get(k) for k in ("tau_air_s", "tau_globe_s")]
             settle = np.zeros(len(steps), dtype=bool)
             lag_info = {}
-            for col, tau in zip((T_AIR_C, T_GLOBE_C), taus):
+            for col, tau in zip((T_AIR_C, T_GLOBE_C), taus, strict=False):
                 if col in df.columns and tau:
                     ok = df[col].notna().to_numpy()
                     settle |= settling_mask(df.index[ok], steps, tau, settle_n_tau, mg, restarts=restarts)
@@ -421,7 +446,7 @@ class _Book:
         keep = ~mask
         self.frames[name] = self.frames[name][keep]
         m["row_numbers"] = np.asarray(rows)[keep]
-        m["raw_lines"] = [r for r, k in zip(raws, keep) if k]
+        m["raw_lines"] = [r for r, k in zip(raws, keep, strict=False) if k]
 
     def drop_outside(self, name: str, t0, t1, margin_s: float) -> None:
         t = self.frames[name].index.asi8

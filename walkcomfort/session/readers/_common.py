@@ -18,7 +18,8 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort.columns import PHYSICAL_RANGES, TIME
-from walkcomfort.errors import InputError, where as _where
+from walkcomfort.errors import InputError
+from walkcomfort.errors import where as _where
 
 QUARANTINE_COLUMNS = ("source", "file", "row", "reason", "raw")
 MISSING = ("", "na", "n/a", "nan", "null", "none", "-", "--", "---")
@@ -39,7 +40,7 @@ class Quarantine:
         self._rows.append((self.source, self.file, int(row), reason, raw))
 
     def extend(self, rows, reasons, raws) -> None:
-        for r, why, raw in zip(rows, reasons, raws):
+        for r, why, raw in zip(rows, reasons, raws, strict=False):
             self.add(r, why, raw)
 
     def __len__(self) -> int:

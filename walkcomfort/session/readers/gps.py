@@ -17,8 +17,14 @@ import pandas as pd
 
 from walkcomfort.columns import ELEV_M, HR_BPM, LAT, LON, T_DEVICE_C
 from walkcomfort.errors import InputError
-from walkcomfort.session.readers._common import (Quarantine, assemble_metadata, finish, localize,
-                                                 range_reasons, read_sensor_csv)
+from walkcomfort.session.readers._common import (
+    Quarantine,
+    assemble_metadata,
+    finish,
+    localize,
+    range_reasons,
+    read_sensor_csv,
+)
 
 # extension local name -> output column
 EXTENSION_NAMES = {
@@ -63,10 +69,10 @@ def _local(tag: str) -> str:
 
 
 def read_gpx(path, source_spec, session_spec):
+    from pathlib import Path
+
     import gpxpy
     import gpxpy.gpx
-
-    from pathlib import Path
 
     path = Path(path)
     try:

@@ -17,8 +17,18 @@ import pandas as pd
 
 from walkcomfort.columns import COMFORT_CLASSES, PARTICIPANT, VOTE_COMFORT, VOTE_KIND, VOTE_NOTE, VOTE_TSV
 from walkcomfort.errors import InputError
-from walkcomfort.session.readers._common import (Quarantine, assemble_metadata, column, finish, missing_mask,
-                                                 parse_times, read_delimited, read_text, time_text, to_number)
+from walkcomfort.session.readers._common import (
+    Quarantine,
+    assemble_metadata,
+    column,
+    finish,
+    missing_mask,
+    parse_times,
+    read_delimited,
+    read_text,
+    time_text,
+    to_number,
+)
 
 VOTE_KINDS = ("prompted", "spontaneous")
 
