@@ -7,6 +7,7 @@ the same bytes, and (c) every output can say where it came from.
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import io
 import json
@@ -37,10 +38,8 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
         os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, path)
     except BaseException:
-        try:
+        with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
-        except FileNotFoundError:
-            pass
         raise
     return path
 

@@ -32,10 +32,7 @@ class WalkcomfortError(Exception):
         text = self.what.rstrip(".")
         if self.where:
             text = f"{self.where}: {text}"
-        if self.fix:
-            text = f"{text}. Fix: {self.fix.rstrip('.')}."
-        else:
-            text = f"{text}."
+        text = f"{text}. Fix: {self.fix.rstrip('.')}." if self.fix else f"{text}."
         # one line, always: collapse any newline a caller slipped in
         return " ".join(text.split())
 

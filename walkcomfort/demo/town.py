@@ -182,7 +182,7 @@ def offset_path(nodes, offsets):
         n = np.array([-t[1], t[0]])
         legs.append((a + d * n, b + d * n, t))
     out = [legs[0][0]]
-    for (a1, b1, t1), (a2, b2, t2) in zip(legs[:-1], legs[1:], strict=False):
+    for (a1, b1, t1), (a2, _b2, t2) in zip(legs[:-1], legs[1:], strict=False):
         cross = t1[0] * t2[1] - t1[1] * t2[0]
         if abs(cross) < 1e-9:
             out.append(0.5 * (b1 + a2))
