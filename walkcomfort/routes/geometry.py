@@ -102,21 +102,7 @@ def _transformer(crs: str, inverse: bool = False):
 
 # --------------------------------------------------------------------------- readers
 def _read_geojson(path: Path, route_id: str | None):
-    try:
-        obj = json.loads(path.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as exc:
-        raise InputError(f"not valid JSON ({exc.msg})", where=where(path, line=exc.lineno),
-                         fix="check the file is GeoJSON") from None
-    if obj.get("type") == "Feature":
-        features = [obj]
-    elif obj.get("type") == "FeatureCollection":
-        features = obj.get("features") or []
-    elif obj.get("type") in ("LineString",):
-        features = [{"type": "Feature", "geometry": obj, "properties": {}}]
-    else:
-        raise InputError(f"GeoJSON type {obj.get('type')!r} is not a route; expected a LineString "
-                         "Feature or a FeatureCollection holding one", where=path,
-                         fix="store the route as a LineString")
+    features = _geojson_features(path)
     lines, stop_points = [], []
     for i, feat in enumerate(features):
         geom = feat.get("geometry") or {}
@@ -125,6 +111,32 @@ def _read_geojson(path: Path, route_id: str | None):
             lines.append((i, geom, props))
         elif geom.get("type") == "Point" and "wait_s" in props:
             stop_points.append((i, geom, props))
+    idx, geom, props = _the_route_line(path, lines, route_id)
+    loc = f"{path} feature {idx}"
+    lon, lat, elev = _line_vertices(geom.get("coordinates") or [], loc)
+    stops = _stops_from_properties(props, loc) + _stops_from_points(path, stop_points)
+    rid = route_id or _props_id(props) or path.stem
+    return rid, lon, lat, elev, stops
+
+
+def _geojson_features(path: Path) -> list[dict]:
+    try:
+        obj = json.loads(path.read_text(encoding="utf-8"))
+    except json.JSONDecodeError as exc:
+        raise InputError(f"not valid JSON ({exc.msg})", where=where(path, line=exc.lineno),
+                         fix="check the file is GeoJSON") from None
+    if obj.get("type") == "Feature":
+        return [obj]
+    if obj.get("type") == "FeatureCollection":
+        return obj.get("features") or []
+    if obj.get("type") == "LineString":
+        return [{"type": "Feature", "geometry": obj, "properties": {}}]
+    raise InputError(f"GeoJSON type {obj.get('type')!r} is not a route; expected a LineString "
+                     "Feature or a FeatureCollection holding one", where=path,
+                     fix="store the route as a LineString")
+
+
+def _the_route_line(path: Path, lines: list, route_id: str | None):
     if route_id is not None:
         lines = [ln for ln in lines if _props_id(ln[2]) == route_id]
     if not lines:
@@ -136,9 +148,10 @@ def _read_geojson(path: Path, route_id: str | None):
         ids = [_props_id(ln[2]) for ln in lines]
         raise InputError(f"{len(lines)} LineString features ({ids}); which one is the route is ambiguous",
                          where=path, fix="pass route_id= (CLI --route-id) or keep one line per file")
-    idx, geom, props = lines[0]
-    coords = geom.get("coordinates") or []
-    loc = f"{path} feature {idx}"
+    return lines[0]
+
+
+def _line_vertices(coords: list, loc: str):
     if len(coords) < 2:
         raise InputError(f"the LineString has {len(coords)} vertices, at least 2 are needed", where=loc,
                          fix="draw the route with at least two vertices")
@@ -150,6 +163,10 @@ def _read_geojson(path: Path, route_id: str | None):
         lon.append(float(c[0]))
         lat.append(float(c[1]))
         elev.append(float(c[2]) if len(c) > 2 and c[2] is not None else np.nan)
+    return np.array(lon), np.array(lat), np.array(elev)
+
+
+def _stops_from_properties(props: dict, loc: str) -> list[dict]:
     stops = []
     for k, s in enumerate(props.get("stops") or []):
         try:
@@ -158,6 +175,11 @@ def _read_geojson(path: Path, route_id: str | None):
         except (KeyError, TypeError, ValueError):
             raise InputError(f"stop {k} is {s!r}; each stop needs numeric dist_m and wait_s", where=loc,
                              fix='write stops as [{"dist_m": 120, "wait_s": 30, "label": "crossing"}]') from None
+    return stops
+
+
+def _stops_from_points(path: Path, stop_points: list) -> list[dict]:
+    stops = []
     for i, g, p in stop_points:
         c = g.get("coordinates") or [None, None]
         try:
@@ -166,8 +188,7 @@ def _read_geojson(path: Path, route_id: str | None):
         except (TypeError, ValueError):
             raise InputError(f"stop point wait_s {p.get('wait_s')!r} is not a number", where=f"{path} feature {i}",
                              fix="give wait_s in seconds") from None
-    rid = route_id or _props_id(props) or path.stem
-    return rid, np.array(lon), np.array(lat), np.array(elev), stops
+    return stops
 
 
 def _props_id(props: dict) -> str | None:

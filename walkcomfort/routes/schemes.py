@@ -88,15 +88,9 @@ def scheme_from_geojson(obj: dict, source: str = "", name: str | None = None) ->
     """Validate a scheme's structure (without a scene) and build a :class:`Scheme`."""
     if not isinstance(obj, dict) or obj.get("type") != "FeatureCollection":
         raise InputError("a scheme must be a GeoJSON FeatureCollection", where=source or "scheme",
-                         fix="see the scheme format in walkcomfort.routes.schemes")
+                         fix="see the scheme format in docs/formats/scheme.md")
     meta = obj.get("walkcomfort") or {}
-    name = name or meta.get("scheme") or (Path(source).stem if source else None)
-    if not name or not _NAME_RE.match(str(name)):
-        raise InputError(f"scheme name {name!r} is not allowed (letters, digits, '_', '.', '-'; up to 64)",
-                         where=source or "scheme", fix='set "walkcomfort": {"scheme": "tree-row"}')
-    if str(name) == BASE and obj.get("features"):
-        raise InputError("the name 'base' is kept for the unedited scene", where=source or "scheme",
-                         fix="give the scheme another name")
+    name = _scheme_name(obj, meta, source, name)
     edits = []
     seen_targets: dict[str, int] = {}
     seen_ids: dict[str, int] = {}
@@ -109,40 +103,61 @@ def scheme_from_geojson(obj: dict, source: str = "", name: str | None = None) ->
                              fix='set properties.edit to "add", "remove" or "modify"')
         geom = feat.get("geometry")
         if edit in ("remove", "modify"):
-            target = props.get("target")
-            if not isinstance(target, str) or not target:
-                raise InputError(f"a '{edit}' edit needs properties.target (a scene id), got {target!r}", where=loc,
-                                 fix="name the scene feature's id in target")
-            if target in seen_targets:
-                raise InputError(f"target {target!r} is edited twice (also feature {seen_targets[target]})",
-                                 where=loc, fix="merge the edits of one feature into one")
-            seen_targets[target] = i
-            if edit == "modify" and "id" in props and props["id"] != target:
-                raise InputError(f"a modify edit cannot change the id ({target!r} -> {props['id']!r})", where=loc,
-                                 fix="remove the old feature and add a new one instead")
-            if edit == "modify" and "kind" in props:
-                raise InputError("a modify edit cannot change the kind", where=loc,
-                                 fix="remove the old feature and add a new one instead")
-            if edit == "modify" and geom is None and len(set(props) - {"edit", "target", "id"}) == 0:
-                raise InputError(f"the modify edit of {target!r} changes nothing", where=loc,
-                                 fix="give the properties or geometry to change, or drop the edit")
+            _check_target_edit(edit, props, geom, loc, i, seen_targets)
         else:
-            kind = props.get("kind")
-            if kind not in KINDS:
-                raise InputError(f"added feature kind {kind!r} is not known; allowed {list(KINDS)}", where=loc,
-                                 fix="set properties.kind")
-            if geom is None:
-                raise InputError("an added feature needs a geometry", where=loc, fix="give its Point or Polygon")
-            fid = props.get("id")
-            if fid is not None:
-                if fid in seen_ids:
-                    raise InputError(f"id {fid!r} is added twice (also feature {seen_ids[fid]})", where=loc,
-                                     fix="give each added feature its own id")
-                seen_ids[str(fid)] = i
+            _check_added(props, geom, loc, i, seen_ids)
         if geom is not None:
             _check_geometry(geom, loc)
         edits.append(copy.deepcopy(feat))
     return Scheme(str(name), str(meta.get("label") or name), tuple(edits), source)
+
+
+def _scheme_name(obj: dict, meta: dict, source: str, name: str | None) -> str:
+    name = name or meta.get("scheme") or (Path(source).stem if source else None)
+    if not name or not _NAME_RE.match(str(name)):
+        raise InputError(f"scheme name {name!r} is not allowed (letters, digits, '_', '.', '-'; up to 64)",
+                         where=source or "scheme", fix='set "walkcomfort": {"scheme": "tree-row"}')
+    if str(name) == BASE and obj.get("features"):
+        raise InputError("the name 'base' is kept for the unedited scene", where=source or "scheme",
+                         fix="give the scheme another name")
+    return str(name)
+
+
+def _check_target_edit(edit: str, props: dict, geom, loc: str, i: int, seen_targets: dict[str, int]) -> None:
+    target = props.get("target")
+    if not isinstance(target, str) or not target:
+        raise InputError(f"a '{edit}' edit needs properties.target (a scene id), got {target!r}", where=loc,
+                         fix="name the scene feature's id in target")
+    if target in seen_targets:
+        raise InputError(f"target {target!r} is edited twice (also feature {seen_targets[target]})",
+                         where=loc, fix="merge the edits of one feature into one")
+    seen_targets[target] = i
+    if edit != "modify":
+        return
+    if "id" in props and props["id"] != target:
+        raise InputError(f"a modify edit cannot change the id ({target!r} -> {props['id']!r})", where=loc,
+                         fix="remove the old feature and add a new one instead")
+    if "kind" in props:
+        raise InputError("a modify edit cannot change the kind", where=loc,
+                         fix="remove the old feature and add a new one instead")
+    if geom is None and len(set(props) - {"edit", "target", "id"}) == 0:
+        raise InputError(f"the modify edit of {target!r} changes nothing", where=loc,
+                         fix="give the properties or geometry to change, or drop the edit")
+
+
+def _check_added(props: dict, geom, loc: str, i: int, seen_ids: dict[str, int]) -> None:
+    kind = props.get("kind")
+    if kind not in KINDS:
+        raise InputError(f"added feature kind {kind!r} is not known; allowed {list(KINDS)}", where=loc,
+                         fix="set properties.kind")
+    if geom is None:
+        raise InputError("an added feature needs a geometry", where=loc, fix="give its Point or Polygon")
+    fid = props.get("id")
+    if fid is not None:
+        if fid in seen_ids:
+            raise InputError(f"id {fid!r} is added twice (also feature {seen_ids[fid]})", where=loc,
+                             fix="give each added feature its own id")
+        seen_ids[str(fid)] = i
 
 
 def _check_geometry(geom: dict, loc: str) -> None:
