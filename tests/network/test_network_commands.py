@@ -128,3 +128,18 @@ def test_daytime_keeps_the_hours_with_the_sun_up(streets, tmp_path):
     # day length at 40.4° N in mid-July is about 14.9 h (from memory), so 14 or 15 hourly samples a day
     assert set(per_day) <= {14, 15} and len(per_day) == 2
     assert (rows[C.SUN_ELEV_DEG] > 0).all()
+
+
+def test_rerun_with_another_tile_size_is_refused_then_replaced(streets, tmp_path, capsys):
+    out = tmp_path / "out"
+    assert main(["network", str(streets), *ARGS, "--tile-size", "60", "--out", str(out)]) == 0
+    first = read_segment_hours(out)
+    capsys.readouterr()
+    assert main(["network", str(streets), *ARGS, "--tile-size", "500", "--out", str(out)]) == 2
+    err = [line for line in capsys.readouterr().err.splitlines() if line.startswith("error")]
+    assert len(err) == 1 and "another job" in err[0] and "--overwrite" in err[0]
+    assert main(["network", str(streets), *ARGS, "--tile-size", "500", "--out", str(out), "--overwrite"]) == 0
+    again = read_segment_hours(out)
+    assert len(again) == len(first) == 48  # not 96: the first job's files are gone, not mixed in
+    summary = pd.read_parquet(out / "segment_summary.parquet")
+    assert len(summary) == 12 and not summary.index.has_duplicates

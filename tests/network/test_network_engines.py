@@ -172,8 +172,15 @@ def test_resume_keeps_partitions_of_the_same_job_only(small_net, tmp_path):
     engines.run_job(job, tmp_path, "in-process", retries=0)
     fixed = _job(small_net)  # same inputs but another partition function: another job
     assert fixed.digest != job.digest
-    report = engines.run_job(fixed, tmp_path, "in-process", resume=True)
+    # another job's folder is refused, even with --resume; --overwrite replaces its results
+    with pytest.raises(InputError, match="holds the results of another job.*--overwrite"):
+        engines.run_job(fixed, tmp_path, "in-process", resume=True)
+    report = engines.run_job(fixed, tmp_path, "in-process", resume=True, overwrite=True)
     assert report.ok and {o.status for o in report.outcomes} == {"written"}
+    partial = engines.run_job(job, tmp_path / "again", "in-process", retries=0)
+    assert not partial.ok
+    resumed = engines.run_job(_job(small_net, fn=broken_tile), tmp_path / "again", "in-process", resume=True)
+    assert {o.status for o in resumed.outcomes} == {"kept", "failed"}  # same job: kept, the broken one retried
     again = engines.run_job(fixed, tmp_path, "in-process", resume=True)
     assert again.ok and {o.status for o in again.outcomes} == {"kept"}
     assert again.written_rows == fixed.expected_rows

@@ -257,7 +257,8 @@ def run_demo(out_dir, demo_dir=None, regenerate: bool = False, seed: int | None 
         return [[str(demo / "streets.geojson"), "--scene", str(demo / "scene.geojson"), *schemes,
                  "--weather", str(demo / "weather" / "design-day.csv"), "--logger-wind-height", "1.1",
                  "--start", f"{DESIGN_DAY}T{NETWORK_HOURS[0]}", "--end", f"{DESIGN_DAY}T{NETWORK_HOURS[1]}",
-                 "--step", NETWORK_HOURS[2], "--timezone", TIMEZONE, *model, "--out", str(paths["network"])]]
+                 "--step", NETWORK_HOURS[2], "--timezone", TIMEZONE, *model, "--out", str(paths["network"]),
+                 "--overwrite"]]  # the demo's own folder: a re-run replaces its earlier job
 
     attempt("network", "network", lambda: "", network_args, lambda: [paths["network"]])
 

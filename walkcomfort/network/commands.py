@@ -141,11 +141,14 @@ def write_outputs(out_dir, network, job, report) -> dict:
                    "with --scheduler; 'workers' needs the output folder on storage they share).")
 @click.option("--retries", default=2, show_default=True, type=int, help="Extra attempts for a failing partition.")
 @click.option("--resume", is_flag=True, help="Keep partitions an earlier run of the same job already wrote.")
+@click.option("--overwrite", is_flag=True, help="Remove another job's results from the output folder first "
+              "(without it such a folder is refused: results of two jobs never mix).")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Output folder.")
 def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model,
             start, end, step, timezone, daytime, segment_length_m, spacing_m, tile_size_m, time_chunk,
-            min_sun_elev_deg, engine, scheduler, workers, threads_per_worker, write_on, retries, resume, out_dir):
+            min_sun_elev_deg, engine, scheduler, workers, threads_per_worker, write_on, retries, resume, overwrite,
+            out_dir):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -169,7 +172,7 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
     if engine == "dask":
         opts.update(scheduler=scheduler, workers=workers, threads_per_worker=threads_per_worker, write_on=write_on)
     t0 = _time.perf_counter()
-    report = run_job(job, out_dir, engine, resume=resume, **opts)
+    report = run_job(job, out_dir, engine, resume=resume, overwrite=overwrite, **opts)
     seconds = _time.perf_counter() - t0
     write_outputs(out_dir, net, job, report)
     rate = report.written_rows / seconds if seconds > 0 else float("nan")

@@ -41,9 +41,7 @@ from walkcomfort import columns as C
 from walkcomfort._progress import track
 from walkcomfort.errors import InputError
 from walkcomfort.network.batch import NetworkJob, Partition, check_partition_result
-
-RESULTS_DIR = "segment_hours"
-REPORT_FILE = "job.json"
+from walkcomfort.network.jobdir import REPORT_FILE, RESULTS_DIR, claim_out_dir, manifest_files, partition_relpath
 
 ENGINES = ("in-process", "dask")
 
@@ -103,8 +101,7 @@ class JobReport:
 
 def partition_path(out_dir: str | os.PathLike, part: Partition) -> Path:
     """Where a partition's rows are written (see module docstring)."""
-    return (Path(out_dir) / RESULTS_DIR / f"scheme={part.scheme}" / f"{C.TILE_ID}={part.tile_id}"
-            / f"part-c{part.chunk:04d}.parquet")
+    return Path(out_dir) / partition_relpath(part.scheme, part.tile_id, part.chunk)
 
 
 def run_partition(fn, part: Partition) -> pd.DataFrame:
@@ -176,10 +173,11 @@ class InProcessEngine:
     def __init__(self, retries: int = 2):
         self.retries = int(retries)
 
-    def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None) -> JobReport:
+    def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None,
+            overwrite: bool = False) -> JobReport:
         report = JobReport(job.digest, self.name, parameters=_engine_params(self))
         t0 = _time.perf_counter()
-        todo = _resume(job, out_dir, report, resume)
+        todo = _resume(job, out_dir, report, resume, overwrite)
         for part in track(todo, "network partitions", total=len(todo), enabled=progress):
             outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
             for attempt in range(1, self.retries + 2):
@@ -277,12 +275,13 @@ class DaskEngine:
             cluster.close()
             raise
 
-    def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None) -> JobReport:
+    def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None,
+            overwrite: bool = False) -> JobReport:
         from distributed import as_completed
 
         report = JobReport(job.digest, self.name, parameters=_engine_params(self))
         t0 = _time.perf_counter()
-        todo = _resume(job, out_dir, report, resume)
+        todo = _resume(job, out_dir, report, resume, overwrite)
         if not todo:
             report.seconds = _time.perf_counter() - t0
             _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
@@ -374,8 +373,8 @@ def _engine_params(engine) -> dict:
     return {"engine": "in-process", "retries": engine.retries}
 
 
-def _resume(job: NetworkJob, out_dir, report: JobReport, resume: bool) -> list[Partition]:
-    Path(out_dir).mkdir(parents=True, exist_ok=True)
+def _resume(job: NetworkJob, out_dir, report: JobReport, resume: bool, overwrite: bool = False) -> list[Partition]:
+    claim_out_dir(job, out_dir, resume=resume, overwrite=overwrite)
     todo = []
     for part in job.partitions:
         n = _already_written(out_dir, job, part) if resume else None
@@ -398,30 +397,33 @@ def make_engine(engine: str = "in-process", **options):
 
 
 def run_job(job: NetworkJob, out_dir, engine: str = "in-process", resume: bool = False,
-            progress: bool | None = None, **options) -> JobReport:
-    """Run ``job`` on the named engine and write its results and report under ``out_dir``."""
-    return make_engine(engine, **options).run(job, out_dir, resume=resume, progress=progress)
+            progress: bool | None = None, overwrite: bool = False, **options) -> JobReport:
+    """Run ``job`` on the named engine and write its results and report under ``out_dir``.
+
+    The folder must be empty or hold this job's results (``resume`` keeps them);
+    ``overwrite`` first removes another job's (see :mod:`walkcomfort.network.jobdir`).
+    """
+    return make_engine(engine, **options).run(job, out_dir, resume=resume, progress=progress, overwrite=overwrite)
 
 
 def read_segment_hours(out_dir, scheme: str | None = None) -> pd.DataFrame:
-    """All rows written under ``out_dir`` (index ``time``), with ``scheme`` and ``tile_id`` restored.
+    """The rows of the folder's job (index ``time``), with ``scheme`` and ``tile_id`` restored.
 
-    Rows come in a fixed order (scheme, tile, chunk, then each file's order), so two
-    runs of the same job compare equal whatever engine wrote them.
+    Only the partitions listed in the folder's job manifest are read (a stray file
+    never enters). Rows come in a fixed order (scheme, tile, chunk, then each file's
+    order), so two runs of the same job compare equal whatever engine wrote them.
     """
     import pyarrow.parquet as pq
 
-    root = Path(out_dir) / RESULTS_DIR
-    files = sorted(root.glob("scheme=*/tile_id=*/part-c*.parquet"))
-    if scheme is not None:
-        files = [f for f in files if f.parent.parent.name == f"scheme={scheme}"]
+    files = manifest_files(out_dir, scheme)
     if not files:
+        root = Path(out_dir) / RESULTS_DIR
         raise InputError(f"no batch results under '{root}'", where=root,
                          fix="run the network batch first (walkcomfort network ...)")
     frames = []
-    for f in files:
+    for s, tile, f in files:
         df = pq.read_table(f).to_pandas()
-        df.insert(1, "scheme", f.parent.parent.name.split("=", 1)[1])
-        df.insert(2, C.TILE_ID, f.parent.name.split("=", 1)[1])
+        df.insert(1, "scheme", s)
+        df.insert(2, C.TILE_ID, tile)
         frames.append(df)
     return pd.concat(frames)

@@ -114,36 +114,53 @@ def segment_summary(rows: pd.DataFrame, base: str = BASE, step_h: float | None =
     return out
 
 
-def summary_from_results(out_dir, base: str = BASE, step_h: float | None = None) -> pd.DataFrame:
-    """:func:`segment_summary` of a batch's results, read one tile at a time.
+def summary_from_results(out_dir, base: str = BASE, step_h: float | None = None, client=None) -> pd.DataFrame:
+    """:func:`segment_summary` of a batch's results, one tile at a time.
 
-    A segment belongs to one tile, so summarising tile by tile (every scheme and time
-    chunk of the tile together) gives exactly the whole summary while holding only one
-    tile's rows in memory — a city's month of rows never has to fit at once.
+    Only the partitions listed in the folder's job manifest are read
+    (:func:`walkcomfort.network.jobdir.manifest_files`). A segment belongs to one tile,
+    so summarising tile by tile (every scheme and time chunk of the tile together)
+    gives exactly the whole summary while holding only one tile's rows in memory. With
+    a Dask ``client`` the tiles are summarised on the workers (each reads its tile's
+    files where they are) and only the per-segment tables come back.
     """
-    from pathlib import Path
+    from walkcomfort.network.jobdir import manifest_files
 
+    files = manifest_files(out_dir)
+    if not files:
+        raise InputError(f"no batch results under '{out_dir}'", where=out_dir,
+                         fix="run the network batch first (walkcomfort network ...)")
+    by_tile: dict[str, list[tuple[str, str]]] = {}
+    for scheme, tile, path in files:
+        by_tile.setdefault(tile, []).append((scheme, str(path)))
+    if step_h is None:
+        step_h = _step_from_files([p for _, p in next(iter(by_tile.values()))])
+    groups = [by_tile[t] for t in sorted(by_tile)]
+    if client is None:
+        parts = [tile_summary(g, base, step_h) for g in groups]
+    else:
+        parts = client.gather(client.map(tile_summary, groups, base=base, step_h=step_h, pure=False))
+    return pd.concat(parts).sort_index()
+
+
+def _step_from_files(paths: list[str]) -> float:
     import pyarrow.parquet as pq
 
-    from walkcomfort.network.engines import RESULTS_DIR
+    t = pd.DatetimeIndex(np.unique(np.concatenate([pq.read_table(p, columns=[C.TIME]).column(C.TIME).to_numpy()
+                                                   for p in paths])))
+    return time_step_h(pd.DataFrame(index=t))
 
-    root = Path(out_dir) / RESULTS_DIR
-    tiles = sorted({p.name for p in root.glob(f"scheme=*/{C.TILE_ID}=*")})
-    if not tiles:
-        raise InputError(f"no batch results under '{root}'", where=root,
-                         fix="run the network batch first (walkcomfort network ...)")
-    parts = []
-    for tile in tiles:
-        frames = []
-        for f in sorted(root.glob(f"scheme=*/{tile}/part-c*.parquet")):
-            df = pq.read_table(f).to_pandas()
-            df.insert(1, "scheme", f.parent.parent.name.split("=", 1)[1])
-            frames.append(df)
-        rows = pd.concat(frames)
-        if step_h is None:
-            step_h = time_step_h(rows)
-        parts.append(segment_summary(rows, base=base, step_h=step_h))
-    return pd.concat(parts).sort_index()
+
+def tile_summary(files: list[tuple[str, str]], base: str = BASE, step_h: float = 1.0) -> pd.DataFrame:
+    """:func:`segment_summary` of one tile from its partition files ``[(scheme, path), ...]``."""
+    import pyarrow.parquet as pq
+
+    frames = []
+    for scheme, path in files:
+        df = pq.read_table(path).to_pandas()
+        df.insert(1, "scheme", scheme)
+        frames.append(df)
+    return segment_summary(pd.concat(frames), base=base, step_h=step_h)
 
 
 def _props(values: pd.Series, ndigits: int = 2) -> dict:
