@@ -49,7 +49,21 @@ def test_load_refuses_a_changed_model_file_or_other_lightgbm(fitted, tmp_path):
         load_bundle(tmp_path / "nowhere")
 
 
-def test_contributions_sum_to_raw_scores_for_every_class(fitted, small_table):
+def test_cumulative_contributions_sum_to_the_threshold_log_odds(fitted, small_table):
+    X = small_table.X.iloc[:50]
+    c = contributions(fitted, X)
+    # one block per threshold of the ordered classes (comfortable | neutral | uncomfortable)
+    assert c.shape == (50, 2, len(fitted.feature_names_in_) + 1)
+    np.testing.assert_allclose(c.sum(axis=2), fitted.predict_raw(X), atol=1e-9)
+    # the logistic function of the log-odds gives P(vote > k); their differences the class probabilities
+    up = 1 / (1 + np.exp(-c.sum(axis=2)))
+    p = fitted.predict_proba(X)
+    np.testing.assert_allclose(p[:, 2], up[:, 1], atol=1e-9)
+    np.testing.assert_allclose(p[:, 0], 1 - up[:, 0], atol=1e-9)
+
+
+def test_contributions_sum_to_raw_scores_for_every_class(small_table):
+    fitted = ComfortClassifier(n_estimators=60, formulation="multiclass").fit(small_table.X, small_table.y)
     X = small_table.X.iloc[:50]
     c = contributions(fitted, X)
     assert c.shape == (50, 3, len(fitted.feature_names_in_) + 1)
@@ -67,6 +81,23 @@ def test_top_reasons_are_words_about_the_point(fitted, small_table):
     assert "_" not in flat  # no raw feature names
     imp = importance_table(fitted)
     assert imp["share"].sum() == pytest.approx(1.0) and imp["gain"].is_monotonic_decreasing
+    assert len(imp) == len(fitted.feature_names_in_)
+
+
+def test_families_sum_the_features_and_name_one_or_two(fitted, small_table):
+    from walkcomfort.model.explain import discomfort_push, family_contributions, main_factors
+    from walkcomfort.model.features import FAMILIES
+
+    X = small_table.X.iloc[:40]
+    fam = family_contributions(fitted, X)
+    assert list(fam.columns) == list(FAMILIES)
+    # the families partition the features: their sums equal the sum over all features
+    np.testing.assert_allclose(fam.sum(axis=1), discomfort_push(fitted, contributions(fitted, X)).sum(axis=1))
+    words = main_factors(fitted, X)
+    assert len(words) == 40
+    for w in words:
+        named = [f for f in FAMILIES if w.startswith(f) or f", then {f}" in w]
+        assert 1 <= len(named) <= 2 or w == "no single factor stands out"
 
 
 def test_reason_wording_for_units():

@@ -68,11 +68,14 @@ def test_predict_timeline_gives_the_contract_columns(small_campaign, small_table
     walk = small_campaign[small_campaign["walk_id"] == "P01-w1"].iloc[:300]
     out = predict_timeline(tmp_path / "b", walk)
     assert list(out.columns) == ["p_comfortable", "p_neutral", "p_uncomfortable", "comfort_class", "predictor",
-                                 "reasons"]
+                                 "reasons", "main_factors"]
     assert out.index.equals(walk.index)
     np.testing.assert_allclose(out[["p_comfortable", "p_neutral", "p_uncomfortable"]].sum(axis=1), 1.0)
     assert out["predictor"].iloc[0].startswith("model:sha256:")
     assert all(isinstance(r, str) and r for r in out["reasons"])
+    families = ("current heat", "heat history", "shade history", "slope and pace", "sound", "light", "scene view",
+                "walker", "no single factor")
+    assert all(f.startswith(families) for f in out["main_factors"])
     direct = predict_timeline(m, walk, reasons=False)
     np.testing.assert_array_equal(direct["p_neutral"].to_numpy(), out["p_neutral"].to_numpy())
 

@@ -33,8 +33,12 @@ def test_fit_then_evaluate_give_the_same_numbers(timeline_dir, tmp_path, capsys)
                  "--bootstrap", "20"]) == 0
     fit_out = capsys.readouterr().out
     # the bundle's files (DEVELOPERS.md contract); out-of-fold predictions since e9ce00e
+    # and the fold models (folds/), the replicates behind the intervals on scheme differences
     assert {p.name for p in bundle.iterdir()} == {"model.txt", "manifest.json", "metrics.json", "report.html",
-                                                  "oof_predictions.parquet"}
+                                                  "oof_predictions.parquet", "folds"}
+    assert len(list((bundle / "folds").glob("fold_*.txt"))) == 3
+    # the fit prints the history gain with its interval, worded by the interval
+    assert "history gain is" in fit_out and "interval over" in fit_out
     report = (bundle / "report.html").read_text()
     assert "not a heat-safety tool" in report and report.count("data:image/png;base64,") >= 6
     metrics = json.loads((bundle / "metrics.json").read_text())
@@ -50,9 +54,10 @@ def test_fit_then_evaluate_give_the_same_numbers(timeline_dir, tmp_path, capsys)
     # re-running the grouped validation from the bundle's settings prints the fit's table line for line
     assert main(["evaluate", str(bundle), str(timeline_dir), "--cross-validate"]) == 0
     cv_out = capsys.readouterr().out
-    table = lambda text: [ln for ln in text.splitlines() if ln.startswith(("history", "physics", "logistic",
-                                                                           "majority", "model"))]
-    assert table(cv_out) == table(fit_out) and len(table(fit_out)) == 5
+    def table(text):
+        return [ln for ln in text.splitlines() if ln.startswith(("history", "current", "UTCI", "fixed",
+                                                                               "logistic", "majority", "model "))]
+    assert table(cv_out) == table(fit_out) and len(table(fit_out)) == 8
 
 
 def test_fit_without_thermal_columns_is_a_one_line_error(tmp_path, capsys):

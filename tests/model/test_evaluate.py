@@ -79,7 +79,8 @@ def test_no_walker_is_ever_in_train_and_test(small_table):
 
 def test_cross_validation_scores_every_row_once_and_reports_groups(small_table):
     cv = cross_validate(small_table, n_splits=4, n_estimators=30)
-    assert set(cv.metrics) == {"history", "physics", "logistic", "majority"}
+    assert set(cv.metrics) == {"history", "history_free", "current", "ordinal_utci", "physics", "logistic",
+                               "majority"}
     for k in cv.metrics:
         assert not np.isnan(cv.proba[k]).any()
         assert cv.metrics[k]["n"] == len(small_table.y)

@@ -64,7 +64,7 @@ def test_no_walker_is_predicted_by_a_fold_that_trained_on_them(fitted, small_tab
     oof = read_oof_predictions(folder)
     folds = grouped_splits(small_table.groups, 4)  # the same deterministic split the fit used
     assert len(folds) == len(res.cv.folds)
-    for k, (tr, te) in enumerate(folds):
+    for k, (tr, _te) in enumerate(folds):
         trained_on = set(map(str, small_table.groups[tr]))
         held = oof[oof["fold"] == k]
         assert set(held[C.PARTICIPANT]) == set(res.cv.folds[k]["test_groups"])

@@ -29,7 +29,8 @@ def test_comfort_fit_reports_groups_and_summary(small_table, tmp_path):
     assert set(res.per_group) == {"age_band", "acclimatised", "clo"}
     assert res.per_group["age_band"]["n"].sum() == len(small_table.y)
     text = format_metrics(res.cv.metrics)
-    assert text.splitlines()[0].split()[:2] == ["model", "macro-F1"] and len(text.splitlines()) == 5
+    # one row per compared model (history, unconstrained, current, ordinal UTCI, logistic, fixed rule, majority)
+    assert text.splitlines()[0].split()[:2] == ["model", "macro-F1"] and len(text.splitlines()) == 8
     html = write_fit_outputs(res, tmp_path / "b")["report"].read_text()
     assert "In plain words" in html and "never seen that walker" in html
     assert "<script" not in html

@@ -1,6 +1,16 @@
-"""Baselines the comfort model has to beat: majority class, UTCI-band rule, current-conditions logistic.
+"""Baselines the comfort model has to beat.
 
-All three follow the same estimator shape as
+* :class:`OrdinalUTCIBaseline` — the strongest simple yardstick: a cumulative logit on UTCI
+  alone whose cut points are learned from the training votes (inside each fold in validation);
+* :class:`PhysicsRuleBaseline` — the fixed UTCI-band rule, kept as a labelled reference;
+* :class:`LogisticBaseline` — multinomial logistic regression on current conditions;
+* :class:`MajorityBaseline` — the most frequent class.
+
+(The current-conditions LightGBM, the same learner as the history model without the history
+features, is a :class:`~walkcomfort.model.classifier.ComfortClassifier` with
+``features=NOW_FEATURES``; see :func:`walkcomfort.model.evaluate.default_models`.)
+
+All follow the same estimator shape as
 :class:`~walkcomfort.model.classifier.ComfortClassifier` (``fit(X, y, groups=None)``
 returns self; ``classes_``; ``predict_proba`` in ``classes_`` order; ``predict``).
 
@@ -154,8 +164,8 @@ class PhysicsRuleBaseline(_Base):
 class LogisticBaseline(_Base):
     """Multinomial logistic regression on current conditions only (:data:`CURRENT_FEATURES`).
 
-    Median imputation, standardisation, balanced class weights: the strongest
-    "no history" model we can state in one line.
+    Median imputation, standardisation, no class weights (probabilities stay vote shares,
+    comparable with the other models').
     """
 
     def __init__(self, target: str = "comfort", features=CURRENT_FEATURES, C_reg: float = 1.0,
@@ -181,7 +191,7 @@ class LogisticBaseline(_Base):
         codes = np.array([present.index(v) for v in labels])
         self.pipeline_ = make_pipeline(
             SimpleImputer(strategy="median", keep_empty_features=True), StandardScaler(),
-            LogisticRegression(C=self.C_reg, class_weight="balanced", max_iter=2000,
+            LogisticRegression(C=self.C_reg, max_iter=2000,
                                random_state=self.random_state))
         if len(present) == 1:
             self.constant_ = True
@@ -197,3 +207,50 @@ class LogisticBaseline(_Base):
         if self.constant_:
             return np.ones((len(arr), 1))
         return self.pipeline_.predict_proba(arr)
+
+
+class OrdinalUTCIBaseline(_Base):
+    """Cumulative logit of the ordered vote on UTCI alone, cut points learned from the training votes.
+
+    ``P(vote ≤ k) = F(θ_k − β·UTCI)`` (:mod:`walkcomfort.model.ordinal`); after fitting,
+    ``cut_points_c_`` holds the UTCI [°C] at each class boundary (θ_k / β). Rows without
+    UTCI get the training class shares. This is the strongest baseline a band rule can be:
+    the same single input as :func:`physics_rule`, with the band edges fitted to the voters.
+    """
+
+    def __init__(self, target: str = "comfort", utci_column: str = C.UTCI_C):
+        self.target = target
+        self.utci_column = utci_column
+
+    def _utci(self, X) -> np.ndarray:
+        if self.utci_column not in X.columns:
+            raise InputError(f"column '{self.utci_column}' is missing", where="ordinal baseline X",
+                             fix="add the environment (walkcomfort thermal) before modelling")
+        return pd.to_numeric(X[self.utci_column], errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+
+    def fit(self, X, y, groups=None):
+        from walkcomfort.model.ordinal import fit_cumulative_logit
+
+        labels, present = self._labels(y)
+        u = self._utci(X)
+        codes = np.array([present.index(v) for v in labels], dtype=np.int64)
+        self.classes_ = np.array(present, dtype=object)
+        counts = np.bincount(codes, minlength=len(present)).astype(float)
+        self.prior_ = counts / counts.sum()
+        ok = np.isfinite(u)
+        self.fit_ = None
+        if len(present) >= 2 and ok.sum() >= 2 and len(set(codes[ok])) >= 2:
+            self.fit_ = fit_cumulative_logit(u[ok], codes[ok], len(present))
+        self.cut_points_c_ = list(self.fit_["cut_points"]) if self.fit_ else []
+        return self
+
+    def predict_proba(self, X) -> np.ndarray:
+        from walkcomfort.model.ordinal import cumulative_logit_proba
+
+        self._check_fitted()
+        u = self._utci(X)
+        out = np.tile(self.prior_, (len(u), 1))
+        ok = np.isfinite(u)
+        if self.fit_ is not None and ok.any():
+            out[ok] = cumulative_logit_proba(u[ok], self.fit_["slope"], self.fit_["thresholds"])
+        return out

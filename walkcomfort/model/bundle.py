@@ -5,6 +5,8 @@ Layout::
     BUNDLE/
       model.txt        the booster in LightGBM's own text format
       manifest.json    schema, features, classes, parameters, digests, versions, CV metrics
+      folds/fold_<k>.txt  the model of each validation fold (fitted without the walkers that
+                       fold held out), for the intervals on scheme differences (optional)
 
 No pickle: both files are plain text a person can read. Loading checks that
 ``model.txt`` is the file the manifest describes (its digest), that its feature
@@ -23,11 +25,12 @@ import numpy as np
 
 from walkcomfort import _io
 from walkcomfort.errors import DataQualityWarning, InputError
-from walkcomfort.model.classifier import ComfortClassifier
+from walkcomfort.model.classifier import THRESHOLD_FEATURE, ComfortClassifier
 
 SCHEMA = "walkcomfort-model/1"
 MODEL_FILE = "model.txt"
 MANIFEST_FILE = "manifest.json"
+FOLDS_DIR = "folds"
 
 
 class BundleVersionWarning(DataQualityWarning):
@@ -39,7 +42,8 @@ def _versions() -> dict:
 
 
 def save_bundle(model: ComfortClassifier, folder: str | os.PathLike, training_digest: str | None = None,
-                cv_metrics: dict | None = None, extra: dict | None = None) -> Path:
+                cv_metrics: dict | None = None, extra: dict | None = None, fold_models=(),
+                fold_held_out=()) -> Path:
     """Write ``model`` to ``folder`` (created; existing bundle files are replaced atomically).
 
     Parameters
@@ -53,6 +57,10 @@ def save_bundle(model: ComfortClassifier, folder: str | os.PathLike, training_di
         Grouped cross-validation results (:meth:`CVResult.to_json`).
     extra : dict, optional
         Anything else JSON-able to keep (e.g. calibration summary, input list).
+    fold_models : sequence of ComfortClassifier, optional
+        The model of each validation fold (written to ``folds/fold_<k>.txt``).
+    fold_held_out : sequence of list of str, optional
+        The walkers each fold held out (same order).
 
     Returns
     -------
@@ -80,6 +88,15 @@ def save_bundle(model: ComfortClassifier, folder: str | os.PathLike, training_di
         "cv": cv_metrics,
         "extra": extra or {},
     }
+    folds = []
+    held = list(fold_held_out) or [[] for _ in fold_models]
+    for k, (fm, out) in enumerate(zip(fold_models, held, strict=True)):
+        path = _io.atomic_write_text(folder / FOLDS_DIR / f"fold_{k}.txt", fm.booster_.model_to_string())
+        folds.append({"file": f"{FOLDS_DIR}/fold_{k}.txt", "digest": _io.file_digest(path),
+                      "classes": [c if isinstance(c, str) else int(c) for c in fm.classes_],
+                      "held_out": [str(g) for g in out]})
+    if folds:
+        manifest["fold_models"] = folds
     return _io.write_json(folder / MANIFEST_FILE, manifest)
 
 
@@ -116,8 +133,6 @@ def load_bundle(folder: str | os.PathLike, check_versions: bool = True) -> Comfo
         feature list that differs, or a different LightGBM version (unless
         ``check_versions=False``).
     """
-    import lightgbm as lgb
-
     folder = Path(folder)
     manifest = read_manifest(folder)
     model_path = folder / MODEL_FILE
@@ -138,22 +153,42 @@ def load_bundle(folder: str | os.PathLike, check_versions: bool = True) -> Comfo
     if check_versions and others:
         warnings.warn(f"{folder}: bundle written with other versions ({', '.join(others)})",
                       BundleVersionWarning, stacklevel=2)
-    booster = lgb.Booster(model_str=model_path.read_text(encoding="utf-8"))
     features = list(manifest["features"])
-    if booster.feature_name() != features:
-        raise InputError("the booster's feature names differ from the manifest's", where=model_path,
-                         fix="re-run 'walkcomfort fit'")
     est = dict(manifest.get("estimator", {}))
-    model = ComfortClassifier(**{k: v for k, v in est.items() if k in ComfortClassifier().get_params()})
-    model.features = features
-    model.booster_ = booster
-    model.classes_ = np.array(manifest["classes"], dtype=object)
-    model.feature_names_in_ = np.array(features, dtype=object)
-    model.n_features_in_ = len(features)
+    # a bundle written before the cumulative formulation existed is a multiclass booster
+    est.setdefault("formulation", "multiclass")
+    model = _restore(model_path.read_text(encoding="utf-8"), est, manifest["classes"], features, model_path)
     model.n_train_rows_ = manifest.get("n_train_rows")
     model.n_groups_ = manifest.get("n_train_groups")
     model.params_ = manifest.get("lightgbm_params")
     model.n_rounds_ = manifest.get("n_rounds")
     model.manifest_ = manifest
     model.bundle_digest_ = digest
+    model.fold_models_ = []
+    for info in manifest.get("fold_models") or []:
+        path = folder / info["file"]
+        if not path.is_file():
+            raise InputError(f"the fold model {info['file']} named in the manifest is missing", where=folder,
+                             fix="copy the whole bundle folder, or re-run 'walkcomfort fit'")
+        if _io.file_digest(path) != info.get("digest"):
+            raise InputError(f"{info['file']} digest differs from the manifest's", where=path,
+                             fix="the fold model was changed or mixed up; re-run 'walkcomfort fit'")
+        model.fold_models_.append(_restore(path.read_text(encoding="utf-8"), est, info["classes"], features, path))
+    return model
+
+
+def _restore(text: str, est: dict, classes, features: list, path) -> ComfortClassifier:
+    import lightgbm as lgb
+
+    booster = lgb.Booster(model_str=text)
+    model = ComfortClassifier(**{k: v for k, v in est.items() if k in ComfortClassifier().get_params()})
+    expected = [*features, THRESHOLD_FEATURE] if model.is_cumulative else features
+    if booster.feature_name() != expected:
+        raise InputError("the booster's feature names differ from the manifest's", where=path,
+                         fix="re-run 'walkcomfort fit'")
+    model.features = features
+    model.booster_ = booster
+    model.classes_ = np.array(classes, dtype=object)
+    model.feature_names_in_ = np.array(features, dtype=object)
+    model.n_features_in_ = len(features)
     return model

@@ -1,4 +1,30 @@
-"""The comfort classifier: LightGBM multiclass behind a scikit-learn-style estimator.
+"""The comfort classifier: LightGBM behind a scikit-learn-style estimator.
+
+Two formulations (parameter ``formulation``):
+
+* ``"cumulative"`` (default): the votes are ordered (comfortable < neutral <
+  uncomfortable; −3 < … < +3 for the sensation vote) and the model learns the
+  cumulative probabilities P(vote > k) for every threshold k, as binary problems
+  (Frank & Hall 2001, "A simple approach to ordinal classification", ECML, LNCS 2167,
+  doi:10.1007/3-540-44795-4_13). The K − 1 binary problems are fitted as *one* booster
+  on the rows repeated once per threshold with the threshold index as an extra input
+  (the "extended binary classification" of Li & Lin 2007, NIPS 19). The threshold
+  input carries a decreasing monotone constraint, so P(vote > k) can never rise with k:
+  the cumulative curves cannot cross, by construction. The heat-exposure features
+  carry monotone constraints too (:data:`MONOTONE_INCREASING`, :data:`MONOTONE_DECREASING`):
+  with everything else equal, more heat never makes a higher (less comfortable) class
+  less likely. LightGBM enforces monotone constraints exactly (LightGBM docs,
+  "monotone_constraints").
+* ``"multiclass"``: LightGBM's softmax multiclass, unconstrained (the reference the
+  coherence cost is measured against).
+
+Monotone constraints hold everywhere; they describe a warm-season campaign (UTCI above the
+walkers' neutral), where more heat is never more comfortable. For a cold-season campaign
+pass ``monotone=False``.
+
+Class weights: none by default, so the probabilities estimate vote shares and log-loss,
+Brier and the reliability diagram compare like with like; balanced accuracy and macro-F1
+(which weigh the classes equally) are reported beside them.
 
 ``__init__`` only stores parameters; :meth:`ComfortClassifier.fit` validates and
 returns ``self``; learned attributes end in an underscore (``classes_``,
@@ -29,6 +55,19 @@ PRESETS: dict[str, dict] = {
     "large": dict(n_estimators=500, learning_rate=0.05, num_leaves=31, max_depth=-1, min_data_in_leaf=40,
                   feature_fraction=0.8, bagging_fraction=0.8, bagging_freq=1, lambda_l2=1.0, max_bin=255),
 }
+
+#: Features for which more means hotter: with everything else equal, a higher value never makes
+#: a less comfortable class less likely (monotone constraint +1 on P(vote > k)).
+MONOTONE_INCREASING: tuple[str, ...] = (
+    C.UTCI_C, C.TMRT_C, C.T_AIR_C, "in_sun", "sun_streak_min", "t_air_mean_5min",
+    *(f"{kind}_{w}min" for w in (1, 3, 5, 10)
+      for kind in ("utci_mean", "utci_ewm", "utci_max", "tmrt_mean", "tmrt_ewm", "sun_min", "heat_dose")),
+)
+#: Features for which more means cooler in the sun: more shade never makes a less comfortable class more likely.
+MONOTONE_DECREASING: tuple[str, ...] = (C.SHADE_FRAC,)
+#: Name of the threshold input of the cumulative booster.
+THRESHOLD_FEATURE = "ordinal_threshold"
+FORMULATIONS = ("cumulative", "multiclass")
 
 #: Targets: the 3-class comfort vote or the ASHRAE 55 seven-point thermal sensation vote.
 TARGETS = {"comfort": tuple(C.COMFORT_CLASSES), "tsv": tuple(sorted(C.TSV_SCALE))}
@@ -91,6 +130,36 @@ def balanced_weights(codes: np.ndarray, n_classes: int) -> np.ndarray:
     return w[codes]
 
 
+def monotone_signs(names, enabled: bool = True) -> list[int]:
+    """Monotone constraint per feature name (+1 hotter, −1 shade, 0 free) for P(vote > k)."""
+    if not enabled:
+        return [0] * len(list(names))
+    return [1 if n in MONOTONE_INCREASING else -1 if n in MONOTONE_DECREASING else 0 for n in names]
+
+
+def stack_thresholds(arr: np.ndarray, n_classes: int, codes: np.ndarray | None = None):
+    """Rows repeated once per threshold k = 0 … K − 2, with k as the last column; labels 1[code > k].
+
+    Block k of the result holds every row with threshold k (block-major order).
+    """
+    n = len(arr)
+    reps = n_classes - 1
+    out = np.empty((n * reps, arr.shape[1] + 1))
+    out[:, :-1] = np.tile(arr, (reps, 1))
+    out[:, -1] = np.repeat(np.arange(reps, dtype=float), n)
+    if codes is None:
+        return out, None
+    labels = (np.tile(codes, reps) > np.repeat(np.arange(reps), n)).astype(float)
+    return out, labels
+
+
+def cumulative_to_proba(up: np.ndarray) -> np.ndarray:
+    """Class probabilities from P(vote > k) (rows, K − 1): p₀ = 1 − P(>0), p_k = P(>k−1) − P(>k), p_K−1 = P(>K−2)."""
+    n = len(up)
+    ext = np.column_stack([np.ones(n), up, np.zeros(n)])
+    return np.clip(ext[:, :-1] - ext[:, 1:], 0.0, 1.0)
+
+
 class ComfortClassifier:
     """History-aware comfort classifier (LightGBM multiclass).
 
@@ -104,8 +173,14 @@ class ComfortClassifier:
         Boosting rounds; overrides the preset.
     params : dict, optional
         Extra LightGBM parameters; override the preset (not the determinism settings).
-    class_weight : {"balanced", None}
-        "balanced" weights each class inversely to its frequency.
+    class_weight : {None, "balanced"}
+        None (default) keeps the probabilities as vote shares; "balanced" weights each class
+        inversely to its frequency.
+    formulation : {"cumulative", "multiclass"}
+        Ordered cumulative binary formulation with monotone constraints (default), or the
+        unconstrained multiclass softmax.
+    monotone : bool
+        Monotone constraints on the heat-exposure features (cumulative formulation only).
     features : sequence of str, optional
         Feature columns to use; default: every column of ``X`` at fit time.
     random_state : int
@@ -115,8 +190,8 @@ class ComfortClassifier:
     """
 
     def __init__(self, preset: str = "small", target: str = "comfort", n_estimators: int | None = None,
-                 params: dict | None = None, class_weight: str | None = "balanced", features=None,
-                 random_state: int = 0, n_jobs: int = 1):
+                 params: dict | None = None, class_weight: str | None = None, features=None,
+                 random_state: int = 0, n_jobs: int = 1, formulation: str = "cumulative", monotone: bool = True):
         self.preset = preset
         self.target = target
         self.n_estimators = n_estimators
@@ -125,11 +200,13 @@ class ComfortClassifier:
         self.features = features
         self.random_state = random_state
         self.n_jobs = n_jobs
+        self.formulation = formulation
+        self.monotone = monotone
 
     # --- scikit-learn conventions ---------------------------------------------------
     def get_params(self, deep: bool = True) -> dict:
         return {k: getattr(self, k) for k in ("preset", "target", "n_estimators", "params", "class_weight",
-                                              "features", "random_state", "n_jobs")}
+                                              "features", "random_state", "n_jobs", "formulation", "monotone")}
 
     def set_params(self, **kw):
         for k, v in kw.items():
@@ -139,11 +216,16 @@ class ComfortClassifier:
         return self
 
     def __repr__(self) -> str:
-        return f"ComfortClassifier(preset={self.preset!r}, target={self.target!r})"
+        return (f"ComfortClassifier(preset={self.preset!r}, target={self.target!r}, "
+                f"formulation={self.formulation!r})")
 
     # --- parameters -------------------------------------------------------------------
-    def lgb_params(self, n_classes: int) -> tuple[dict, int]:
-        """The full LightGBM parameter dict and the number of rounds."""
+    def lgb_params(self, n_classes: int, names=None) -> tuple[dict, int]:
+        """The full LightGBM parameter dict and the number of rounds.
+
+        For the cumulative formulation ``names`` (the feature names) sets the monotone
+        constraints; the threshold input is appended last.
+        """
         if self.preset not in PRESETS:
             raise InputError(f"preset {self.preset!r} is not known; allowed: {', '.join(PRESETS)}",
                              fix="use 'small' for a few hundred votes")
@@ -154,8 +236,17 @@ class ComfortClassifier:
             rounds = int(self.n_estimators)
         if rounds < 1:
             raise InputError(f"n_estimators must be at least 1, got {rounds}", fix="use e.g. 150")
-        p.update(objective="multiclass", num_class=int(n_classes), verbosity=-1, deterministic=True,
-                 force_row_wise=True, seed=int(self.random_state), num_threads=int(self.n_jobs))
+        if self.formulation not in FORMULATIONS:
+            raise InputError(f"formulation {self.formulation!r} is not known; allowed: {', '.join(FORMULATIONS)}",
+                             fix="use 'cumulative' (ordered, monotone) or 'multiclass'")
+        if self.formulation == "multiclass":
+            p.update(objective="multiclass", num_class=int(n_classes))
+        else:
+            p.update(objective="binary")
+            if names is not None:
+                p["monotone_constraints"] = [*monotone_signs(names, self.monotone), -1]
+        p.update(verbosity=-1, deterministic=True, force_row_wise=True, seed=int(self.random_state),
+                 num_threads=int(self.n_jobs))
         return p, rounds
 
     # --- fit / predict -----------------------------------------------------------------
@@ -192,8 +283,13 @@ class ComfortClassifier:
             raise InputError(f"class_weight {self.class_weight!r} is not known", fix="use 'balanced' or None")
         if sample_weight is not None:
             w = w * np.asarray(sample_weight, dtype=float)
-        params, rounds = self.lgb_params(len(present))
-        ds = lgb.Dataset(arr, label=codes, weight=w, feature_name=names, params=params, free_raw_data=True)
+        params, rounds = self.lgb_params(len(present), names)
+        if self.formulation == "cumulative":
+            arr_s, label_s = stack_thresholds(arr, len(present), codes)
+            ds = lgb.Dataset(arr_s, label=label_s, weight=np.tile(w, len(present) - 1),
+                             feature_name=[*names, THRESHOLD_FEATURE], params=params, free_raw_data=True)
+        else:
+            ds = lgb.Dataset(arr, label=codes, weight=w, feature_name=names, params=params, free_raw_data=True)
         self.booster_ = lgb.train(params, ds, num_boost_round=rounds)
         self.classes_ = np.array(present, dtype=object)
         self.feature_names_in_ = np.array(names, dtype=object)
@@ -213,18 +309,42 @@ class ComfortClassifier:
         self._check_fitted()
         return feature_matrix(X, list(self.feature_names_in_), where="predict X")
 
+    @property
+    def is_cumulative(self) -> bool:
+        return getattr(self, "formulation", "multiclass") == "cumulative"
+
     def predict_proba(self, X: pd.DataFrame) -> np.ndarray:
         """Class probabilities, shape (rows, classes), columns in ``classes_`` order."""
         arr = self._matrix(X)
+        return self.proba_from_matrix(arr)
+
+    def proba_from_matrix(self, arr: np.ndarray) -> np.ndarray:
+        """:meth:`predict_proba` on a float matrix already in ``feature_names_in_`` order."""
+        k = len(self.classes_)
         if len(arr) == 0:
-            return np.zeros((0, len(self.classes_)))
-        return np.asarray(self.booster_.predict(arr), dtype=float).reshape(len(arr), len(self.classes_))
+            return np.zeros((0, k))
+        if not self.is_cumulative:
+            return np.asarray(self.booster_.predict(arr), dtype=float).reshape(len(arr), k)
+        return cumulative_to_proba(self.cumulative_from_matrix(arr))
+
+    def cumulative_from_matrix(self, arr: np.ndarray) -> np.ndarray:
+        """P(vote > k) for each threshold k, shape (rows, classes − 1), non-increasing along k."""
+        k = len(self.classes_)
+        stacked, _ = stack_thresholds(arr, k)
+        up = np.asarray(self.booster_.predict(stacked), dtype=float).reshape(k - 1, len(arr)).T
+        # the monotone constraint on the threshold input already guarantees this; the running
+        # minimum only removes round-off
+        return np.minimum.accumulate(up, axis=1)
 
     def predict_raw(self, X: pd.DataFrame) -> np.ndarray:
-        """Raw multiclass scores (before softmax), shape (rows, classes)."""
+        """Raw scores: multiclass scores before softmax (rows, classes), or the cumulative
+        log-odds of P(vote > k) (rows, classes − 1)."""
         arr = self._matrix(X)
-        return np.asarray(self.booster_.predict(arr, raw_score=True), dtype=float).reshape(len(arr),
-                                                                                          len(self.classes_))
+        k = len(self.classes_)
+        if self.is_cumulative:
+            stacked, _ = stack_thresholds(arr, k)
+            return np.asarray(self.booster_.predict(stacked, raw_score=True), dtype=float).reshape(k - 1, len(arr)).T
+        return np.asarray(self.booster_.predict(arr, raw_score=True), dtype=float).reshape(len(arr), k)
 
     def predict(self, X: pd.DataFrame) -> np.ndarray:
         """Most probable class per row (object array of labels)."""
@@ -235,4 +355,5 @@ class ComfortClassifier:
     def feature_importances_(self) -> np.ndarray:
         """Total gain per feature, in ``feature_names_in_`` order."""
         self._check_fitted()
-        return np.asarray(self.booster_.feature_importance(importance_type="gain"), dtype=float)
+        gain = np.asarray(self.booster_.feature_importance(importance_type="gain"), dtype=float)
+        return gain[:len(self.feature_names_in_)]  # the cumulative booster's threshold input is not a feature

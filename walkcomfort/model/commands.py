@@ -51,6 +51,13 @@ def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap,
     paths = write_fit_outputs(result, out)
     click.echo(f"cross-validated ({result.cv.scheme}):")
     click.echo(format_metrics(result.cv.metrics))
+    from walkcomfort.model.report_page import gain_sentence
+
+    for key, what in (("history-current", "history gain"), ("history-ordinal_utci", "difference to the UTCI-only "
+                                                                                     "ordinal baseline"),
+                      ("history-history_free", "cost of coherence (monotone ordinal minus unconstrained)")):
+        if key in result.cv.gains:
+            click.echo(gain_sentence(result.cv.gains[key], what))
     click.echo(f"bundle: {out}  report: {paths['report']}")
     click.echo("caution: the model describes how these walkers voted; it is not a heat-safety tool "
                "(follow local heat-health and occupational-health guidance).")

@@ -21,15 +21,26 @@ from walkcomfort import columns as C
 from walkcomfort._progress import track
 from walkcomfort.errors import InputError
 from walkcomfort.model.classifier import check_target, labels_from_votes
-from walkcomfort.model.features import FEATURES, build_features, participant_attributes
+from walkcomfort.model.features import FEATURES, NOW_FEATURES, build_features, participant_attributes
 
 #: Display names of the models compared in every validation, in report order.
 MODEL_NAMES = {
-    "history": "history-aware LightGBM",
-    "physics": "physics rule (UTCI band)",
+    "history": "history-aware LightGBM (ordinal, monotone in heat)",
+    "history_free": "history-aware LightGBM, unconstrained multiclass",
+    "current": "current-conditions LightGBM (same learner, no history)",
+    "ordinal_utci": "UTCI-only ordinal logit, cut points learned per fold",
     "logistic": "logistic regression (current conditions)",
+    "physics": "fixed UTCI-band rule (reference, not fitted)",
     "majority": "majority class",
 }
+
+#: The paired comparisons every validation reports: (model, yardstick, what the difference means).
+GAINS = (
+    ("history", "ordinal_utci", "history model against the UTCI-only ordinal baseline"),
+    ("history", "current", "history gain: the same learner with and without the history features"),
+    ("history", "history_free", "cost of coherence: monotone ordinal against unconstrained multiclass"),
+    ("history", "physics", "history model against the fixed UTCI-band rule (reference)"),
+)
 
 
 # --- labelled rows --------------------------------------------------------------------------
@@ -278,15 +289,28 @@ def aligned_proba(model, X, labels) -> np.ndarray:
 
 def default_models(target: str = "comfort", preset: str = "small", n_estimators: int | None = None,
                    random_state: int = 0, n_jobs: int = 1, features=FEATURES) -> dict:
-    """Factories for the four compared models (keys of :data:`MODEL_NAMES`)."""
-    from walkcomfort.model.baselines import LogisticBaseline, MajorityBaseline, PhysicsRuleBaseline
+    """Factories for the compared models (keys of :data:`MODEL_NAMES`).
+
+    ``history`` is the shipped model (cumulative, monotone); ``history_free`` the same features
+    unconstrained (multiclass); ``current`` the shipped learner on :data:`NOW_FEATURES` only.
+    """
+    from walkcomfort.model.baselines import (
+        LogisticBaseline,
+        MajorityBaseline,
+        OrdinalUTCIBaseline,
+        PhysicsRuleBaseline,
+    )
     from walkcomfort.model.classifier import ComfortClassifier
 
+    now = [f for f in features if f in NOW_FEATURES]
+    kw = dict(preset=preset, target=target, n_estimators=n_estimators, random_state=random_state, n_jobs=n_jobs)
     return {
-        "history": lambda: ComfortClassifier(preset=preset, target=target, n_estimators=n_estimators,
-                                             features=list(features), random_state=random_state, n_jobs=n_jobs),
-        "physics": lambda: PhysicsRuleBaseline(target=target),
+        "history": lambda: ComfortClassifier(features=list(features), **kw),
+        "history_free": lambda: ComfortClassifier(features=list(features), formulation="multiclass", **kw),
+        "current": lambda: ComfortClassifier(features=now, **kw),
+        "ordinal_utci": lambda: OrdinalUTCIBaseline(target=target),
         "logistic": lambda: LogisticBaseline(target=target, random_state=random_state),
+        "physics": lambda: PhysicsRuleBaseline(target=target),
         "majority": lambda: MajorityBaseline(target=target),
     }
 
@@ -303,6 +327,8 @@ class CVResult:
     pred: dict                       # model key -> out-of-fold labels
     metrics: dict                    # model key -> classification_metrics(...)
     scheme: str = ""
+    fold_models: list = field(default_factory=list)  # the "history" model of each fold (same order as folds)
+    gains: dict = field(default_factory=dict)         # "a-b" -> paired_gain(...)
 
     def summary(self) -> pd.DataFrame:
         rows = []
@@ -314,14 +340,18 @@ class CVResult:
 
     def to_json(self) -> dict:
         return {"scheme": self.scheme, "labels": [str(v) for v in self.labels], "folds": self.folds,
-                "metrics": self.metrics}
+                "metrics": self.metrics, "gains": self.gains}
 
 
 def cross_validate(table: TrainingTable, models: dict | None = None, n_splits: int | None = None,
-                   progress: bool | None = None, **model_kw) -> CVResult:
+                   progress: bool | None = None, n_boot: int = 2000, seed: int = 0, **model_kw) -> CVResult:
     """Grouped cross-validation of every model in ``models`` (default: :func:`default_models`).
 
-    Each row is predicted exactly once, by models that never saw its walker.
+    Each row is predicted exactly once, by models that never saw its walker. The fitted
+    ``history`` model of every fold is kept (``fold_models``: the delete-a-group replicates
+    the scheme intervals use), and every pair in :data:`GAINS` present in ``models`` gets a
+    walker-paired bootstrap interval for its macro-F1 difference (``gains``; ``n_boot``
+    resamples, 0 for none).
     """
     models = models or default_models(table.target, **model_kw)
     allowed = check_target(table.target)
@@ -331,6 +361,7 @@ def cross_validate(table: TrainingTable, models: dict | None = None, n_splits: i
     proba = {k: np.full((n, len(labels)), np.nan) for k in models}
     pred = {k: np.empty(n, dtype=object) for k in models}
     info = []
+    fold_models = []
     for tr, te in track(folds, "cross-validation folds", total=len(folds), enabled=progress):
         Xtr, Xte = table.X.iloc[tr], table.X.iloc[te]
         ytr = table.y[tr]
@@ -345,13 +376,73 @@ def cross_validate(table: TrainingTable, models: dict | None = None, n_splits: i
                 m = make().fit(Xtr, ytr, groups=table.groups[tr])
             proba[key][te] = aligned_proba(m, Xte, labels)
             pred[key][te] = m.predict(Xte)
+            if key == "history":
+                fold_models.append(m)
         info.append({"test_groups": sorted(map(str, set(table.groups[te]))), "n_train": int(len(tr)),
                      "n_test": int(len(te))})
     metrics = {k: classification_metrics(table.y, pred[k], proba[k], labels) for k in models}
     scheme = "leave-one-walker-out" if (n_splits is None or n_splits >= len(set(table.groups))) \
         else f"grouped {n_splits}-fold by walker"
+    gains = {}
+    if n_boot:
+        for a, b, meaning in GAINS:
+            if a in models and b in models:
+                gains[f"{a}-{b}"] = {**paired_gain(table.y, pred[a], pred[b], table.groups, labels, n_boot, seed),
+                                     "model": a, "yardstick": b, "meaning": meaning}
     return CVResult(labels=labels, folds=info, y=table.y, groups=table.groups, proba=proba, pred=pred,
-                    metrics=metrics, scheme=scheme)
+                    metrics=metrics, scheme=scheme, fold_models=fold_models, gains=gains)
+
+
+def _macro_f1_counts(cm: np.ndarray) -> np.ndarray:
+    """Macro-F1 of stacked confusion matrices (..., K, K), zero_division = 0 (as scores_from_confusion)."""
+    tp = np.diagonal(cm, axis1=-2, axis2=-1)
+    denom = cm.sum(axis=-1) + cm.sum(axis=-2)
+    f1 = np.divide(2 * tp, denom, out=np.zeros_like(tp, dtype=float), where=denom > 0)
+    return f1.mean(axis=-1)
+
+
+def paired_gain(y_true, pred_a, pred_b, groups, labels, n_boot: int = 2000, seed: int = 0,
+                level: float = 0.95) -> dict:
+    """Macro-F1 of model a minus model b on the same votes, with a walker-paired bootstrap interval.
+
+    Walkers are resampled with replacement (votes of one walker are not independent), and
+    both models are scored on the same resample, so the interval is for the *difference*
+    (percentile interval; Efron & Tibshirani 1993, "An Introduction to the Bootstrap",
+    Chapman & Hall, ch. 13 — from memory).
+
+    Returns
+    -------
+    dict
+        ``delta``, ``lo``, ``hi`` (the ``level`` interval), ``level``, ``n_boot``, ``n_walkers``,
+        ``share_le_0`` (share of resamples where a did not beat b), ``excludes_0``.
+    """
+    y = np.asarray(y_true, dtype=object)
+    g = pd.Series(np.asarray(groups, dtype=object)).astype("string").fillna("<none>").to_numpy()
+    walkers, gi = np.unique(g, return_inverse=True)
+    k = len(labels)
+    pos = {lab: i for i, lab in enumerate(labels)}
+
+    def per_walker(pred):
+        t = np.array([pos.get(v, -1) for v in y])
+        p = np.array([pos.get(v, -1) for v in np.asarray(pred, dtype=object)])
+        ok = (t >= 0) & (p >= 0)
+        flat = np.zeros((len(walkers), k * k))
+        np.add.at(flat, (gi[ok], t[ok] * k + p[ok]), 1.0)
+        return flat
+
+    ca, cb = per_walker(pred_a), per_walker(pred_b)
+    delta = float(_macro_f1_counts(ca.sum(0).reshape(k, k)) - _macro_f1_counts(cb.sum(0).reshape(k, k)))
+    rng = np.random.default_rng(seed)
+    picks = rng.integers(0, len(walkers), size=(n_boot, len(walkers)))
+    weights = np.zeros((n_boot, len(walkers)))
+    np.add.at(weights, (np.repeat(np.arange(n_boot), len(walkers)), picks.ravel()), 1.0)
+    da = _macro_f1_counts((weights @ ca).reshape(n_boot, k, k))
+    db = _macro_f1_counts((weights @ cb).reshape(n_boot, k, k))
+    diff = da - db
+    alpha = (1 - level) / 2
+    lo, hi = (float(v) for v in np.quantile(diff, [alpha, 1 - alpha]))
+    return {"delta": delta, "lo": lo, "hi": hi, "level": level, "n_boot": int(n_boot),
+            "n_walkers": int(len(walkers)), "share_le_0": float(np.mean(diff <= 0)), "excludes_0": bool(lo > 0 or hi < 0)}
 
 
 def group_scores(y_true, y_pred, group_values, labels=None) -> pd.DataFrame:

@@ -113,6 +113,30 @@ SENSOR_ONLY_FEATURES: tuple[str, ...] = (C.LAEQ_DB, "leq_1min", "leq_5min", "leq
                                          "log_illum_mean_1min", "sky_frac_1min", "green_frac_1min",
                                          "people_n_1min")
 
+#: Features that describe the point and the walker *now* (no look-back window beyond the one-minute
+#: smoothing of intermittent camera frames): the inputs of the current-conditions model, the same
+#: learner as the history model with the history removed.
+NOW_FEATURES: tuple[str, ...] = (*CURRENT_FEATURES, C.SPEED_MS, C.SLOPE_PCT, "in_sun", C.LAEQ_DB, "log_illum",
+                                 "sky_frac_1min", "green_frac_1min", "people_n_1min", CLO, ACCLIMATISED,
+                                 "age_band_lower")
+#: Everything that looks back (heat, shade, sound, light and weather history, walk time).
+HISTORY_FEATURES: tuple[str, ...] = tuple(f for f in FEATURES if f not in NOW_FEATURES)
+
+#: Feature families for explanations in words (every feature belongs to exactly one).
+FAMILIES: dict[str, tuple[str, ...]] = {
+    "current heat": (C.UTCI_C, C.TMRT_C, C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SHADE_FRAC, "in_sun"),
+    "heat history": tuple(f for f in FEATURES if f.startswith(("utci_", "tmrt_", "heat_dose_"))
+                          and f not in (C.UTCI_C, C.TMRT_C)) + ("t_air_mean_5min", "wind_mean_5min"),
+    "shade history": tuple(f for f in FEATURES if f.startswith("sun_min_")) + ("since_sun_shade_change_s",
+                                                                              "sun_streak_min"),
+    "slope and pace": (C.SPEED_MS, C.SLOPE_PCT, *(f"elev_gain_{w}min" for w in WINDOWS_MIN), "walk_elapsed_min"),
+    "sound": (C.LAEQ_DB, "leq_1min", "leq_5min", "leq_10min"),
+    "light": ("log_illum", "log_illum_mean_1min"),
+    "scene view": (C.SVF, "sky_frac_1min", "green_frac_1min", "people_n_1min"),
+    "walker": (CLO, ACCLIMATISED, "age_band_lower"),
+}
+FAMILY_OF: dict[str, str] = {f: fam for fam, members in FAMILIES.items() for f in members}
+
 #: Named feature sets: "all" for recorded walks; "planned" for a model meant to predict along
 #: planned routes (without the sensor-only features, so it never leans on missing branches there).
 FEATURE_SETS: dict[str, tuple[str, ...]] = {

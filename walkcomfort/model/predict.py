@@ -20,6 +20,8 @@ PROBA_COLUMNS = {c: f"p_{c}" for c in C.COMFORT_CLASSES}
 COMFORT_CLASS = "comfort_class"
 PREDICTOR = "predictor"
 REASONS = "reasons"
+#: The one or two feature families that pushed the point most towards its class, in words.
+MAIN_FACTORS = "main_factors"
 
 
 def predictor_label(model) -> str:
@@ -54,7 +56,9 @@ def predict_timeline(model, timeline: pd.DataFrame, reasons: bool = True, n_reas
     -------
     pandas.DataFrame
         Index of ``timeline``; ``p_comfortable, p_neutral, p_uncomfortable`` (sum to 1),
-        ``comfort_class``, ``predictor`` (``"model:<digest>"``), ``reasons``.
+        ``comfort_class``, ``predictor`` (``"model:<digest>"``), ``reasons``, and
+        ``main_factors`` (the one or two feature families behind the class, in words; empty
+        without ``reasons``).
     """
     if isinstance(model, (str, os.PathLike)):
         from walkcomfort.model.bundle import load_bundle
@@ -74,10 +78,14 @@ def predict_timeline(model, timeline: pd.DataFrame, reasons: bool = True, n_reas
     out[COMFORT_CLASS] = np.array(C.COMFORT_CLASSES, dtype=object)[np.argmax(p, axis=1)] if len(p) else []
     out[PREDICTOR] = predictor_label(model)
     if reasons and len(X):
-        from walkcomfort.model.explain import top_reasons
+        from walkcomfort.model.explain import contributions, main_factors, top_reasons
 
-        words = top_reasons(model, X, n=n_reasons, classes=list(out[COMFORT_CLASS]))
+        contrib = contributions(model, X)
+        cls = [c for c in out[COMFORT_CLASS]]
+        words = top_reasons(model, X, n=n_reasons, classes=cls, contrib=contrib)
         out[REASONS] = ["; ".join(r) for r in words]
+        out[MAIN_FACTORS] = main_factors(model, X, classes=cls, contrib=contrib)
     else:
         out[REASONS] = ""
+        out[MAIN_FACTORS] = ""
     return out

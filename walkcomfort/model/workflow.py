@@ -110,10 +110,13 @@ def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None 
     settings = {"preset": preset, "n_splits": n_splits, "n_estimators": n_estimators, "seed": seed,
                 "n_jobs": n_jobs, "target": table.target, "n_boot": n_boot, "feature_set": feature_set}
     cv = cross_validate(table, n_splits=n_splits, progress=progress, preset=preset, n_estimators=n_estimators,
-                        random_state=seed, n_jobs=n_jobs, features=features)
+                        random_state=seed, n_jobs=n_jobs, features=features, seed=seed)
     model = ComfortClassifier(preset=preset, target=table.target, n_estimators=n_estimators,
                               features=features, random_state=seed, n_jobs=n_jobs)
     model.fit(table.X, table.y, groups=table.groups)
+    from walkcomfort.model.baselines import OrdinalUTCIBaseline
+
+    settings["ordinal_cut_points_c"] = OrdinalUTCIBaseline(target=table.target).fit(table.X, table.y).cut_points_c_
     in_sample = score_model(model, table, cv.labels)
     per_walker = group_scores(cv.y, cv.pred["history"], cv.groups)
     per_group = {}
@@ -231,7 +234,8 @@ def write_fit_outputs(result: FitResult, folder: str | os.PathLike) -> dict:
     ``extra.oof_predictions``, so a reader can tell it belongs to this bundle.
     """
     from walkcomfort.model.bundle import save_bundle
-    from walkcomfort.report.model_report import write_model_report
+    from walkcomfort.model.classifier import ComfortClassifier
+    from walkcomfort.model.report_page import write_model_report
 
     folder = Path(folder)
     cv_json = result.cv.to_json()
@@ -242,8 +246,12 @@ def write_fit_outputs(result: FitResult, folder: str | os.PathLike) -> dict:
     extra = result.manifest_extra()
     extra["oof_predictions"] = {"file": OOF_FILE, "digest": _io.file_digest(oof_path), "rows": int(len(oof)),
                                 "scheme": result.cv.scheme, "model": "history"}
+    # the fold models are the delete-a-group replicates behind the intervals on scheme differences;
+    # a fold that fell back to the majority class (one class in training) leaves no usable replicate
+    usable = all(isinstance(m, ComfortClassifier) for m in result.cv.fold_models)
     manifest = save_bundle(result.model, folder, training_digest=result.table.digest, cv_metrics=cv_json,
-                           extra=extra)
+                           extra=extra, fold_models=result.cv.fold_models if usable else (),
+                           fold_held_out=[f["test_groups"] for f in result.cv.folds] if usable else ())
     metrics = _io.write_json(folder / METRICS_FILE, {
         "cv": cv_json, "in_sample": result.in_sample,
         "per_walker": result.per_walker.to_dict(orient="records"),
