@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import hmac
+import json
 import shutil
 import tomllib
 
@@ -163,11 +164,17 @@ def test_share_writes_a_clean_copy_that_passes_check(tmp_path, session_with_face
         ifd = exif.get_ifd(0x8769)
     assert set(ifd) <= {0x9003, 0x9291, 0x9011} and 0x9003 in ifd
     assert set(exif) <= {0x8769}
-    # frames near the ends are not shared; the record names them; the counts add up
-    assert fr["copied"] + len(fr["removed_near_track_ends"]) + len(fr["removed_position_unknown"]) + \
+    # frames near the ends are not shared; the record counts them (names and exact times would tell the
+    # trimmed ends, so it gives neither: a span rounded outward to the hour); the counts add up
+    assert fr["copied"] + fr["removed_near_track_ends"]["count"] + fr["removed_position_unknown"]["count"] + \
         fr["not_copied_untimed_or_unreadable"] == fr["frames_read"]
-    for rel in fr["removed_near_track_ends"]:
-        assert not (folder / rel).exists()
+    raw_frames = {p.name for p in (session_with_face / "camera").glob("*.jpg")}
+    shared_frames = {p.name for p in (folder / "camera").glob("*.jpg")}
+    assert fr["removed_near_track_ends"]["count"] >= 1 and len(shared_frames) == fr["copied"]
+    record_text = (folder / RECORD_NAME).read_text(encoding="utf-8")
+    assert not [n for n in raw_frames - shared_frames if n in record_text]
+    for t in fr["removed_near_track_ends"]["span_utc"]:
+        assert t.endswith(":00:00+00:00")
     # notes are emptied, the rest of the votes kept
     votes = (folder / "votes.csv").read_text(encoding="utf-8")
     assert "Ana" not in votes and "neighbour" not in votes
@@ -214,7 +221,8 @@ def test_share_csv_track_and_a_sync_frame_near_the_start(tmp_path, make_template
 
     raw = make_template_session(tmp_path / "raw", gps_csv=True)
     folder, record = share_session(raw, tmp_path / "shared", SECRET, radius_m=200.0, blur_faces=False)
-    assert "camera/IMG_0001.jpg" in record["frames"]["removed_near_track_ends"]
+    assert record["frames"]["removed_near_track_ends"]["count"] >= 1
+    assert not (folder / "camera" / "IMG_0001.jpg").exists() and "IMG_0001" not in json.dumps(record)
     assert record["manifest"]["sync_frames_rewritten_as_times"] == 1
     manifest = tomllib.loads((folder / "session.toml").read_text(encoding="utf-8"))
     cam = [ev for ev in manifest["sync"] if ev["device"] == "cam1"][0]
@@ -246,8 +254,6 @@ def test_share_in_worker_processes_gives_the_same_copy(tmp_path, session_with_fa
 
 @pytest.mark.parametrize("wrapped", [True, False])
 def test_share_json_votes(tmp_path, make_template_session, wrapped):
-    import json
-
     raw = make_template_session(tmp_path / "raw")
     lines = [ln for ln in (raw / "votes" / "votes.csv").read_text(encoding="utf-8").splitlines()
              if ln and not ln.startswith("#")][1:]
@@ -267,3 +273,83 @@ def test_share_json_votes(tmp_path, make_template_session, wrapped):
     assert all(v["note"] == "" for v in shared["votes"])
     assert record["files"]["votes/votes.json"]["notes_emptied"] == 1
     assert main(["check", str(folder)]) == 0
+
+
+# --- kept notes and timestamps outside the kept span --------------------------------------------
+
+
+@pytest.fixture
+def telling_session(session_with_face):
+    """Notes with an e-mail address, a phone number and a name; a GPX whose metadata tells the true start."""
+    votes = session_with_face / "votes.csv"
+    votes.write_text(votes.read_text(encoding="utf-8")
+                     .replace("met my neighbour Ana", "ask Ana Lopez: ana.lopez@example.org or +34 612 345 678"),
+                     encoding="utf-8")
+    gpx = session_with_face / "gps" / "track.gpx"
+    text = gpx.read_text(encoding="utf-8")
+    meta = ('<metadata><time>2026-07-14T07:58:30Z</time><bounds minlat="40.40" minlon="-3.71" maxlat="40.42" '
+            'maxlon="-3.70"/></metadata>\n<wpt lat="40.4165" lon="-3.7038"><time>2026-07-14T07:55:00Z</time>'
+            '<name>home</name></wpt>\n<trk>')
+    gpx.write_text(text.replace("<trk>", meta, 1), encoding="utf-8")
+    return session_with_face
+
+
+def test_kept_notes_with_personal_data_are_refused_in_one_line(tmp_path, telling_session, capsys):
+    secret = tmp_path / "project.secret"
+    secret.write_bytes(SECRET)
+    args = ["share", str(telling_session), "-o", str(tmp_path / "out"), "--secret-file", str(secret),
+            "--trim-radius", "50", "--no-blur", "--workers", "1", "--keep-notes"]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "personal data" in err and "votes.csv:2" in err and "--mask-notes" in err
+    for secret_text in ("Ana", "612", "example.org"):  # the message names the kind, never the finding
+        assert secret_text not in err
+    assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
+    assert main([*args, "--mask-notes", "--notes-reviewed"]) == 2
+    assert "both" in capsys.readouterr().err
+
+
+def test_masked_notes_and_no_timestamp_outside_the_kept_points(tmp_path, telling_session):
+    import re
+
+    raw_before = _tree_digests(telling_session)
+    folder, record = share_session(telling_session, tmp_path / "out", SECRET, radius_m=50.0, blur_faces=False,
+                                   keep_notes=True, note_policy="mask")
+    assert _tree_digests(telling_session) == raw_before
+    votes = (folder / "votes.csv").read_text(encoding="utf-8")
+    assert "ask [name] [name]: [e-mail] or [phone]" in votes
+    assert "hot, no shade" in votes  # notes without personal data are kept as written
+    assert record["notes"]["found"] == {"e-mail address": 1, "personal name": 2, "phone number": 1}
+    assert record["notes"]["notes_masked"] == 1
+    # the sync note ("logger and GPS read together at the start") holds none: kept
+    manifest = tomllib.loads((folder / "session.toml").read_text(encoding="utf-8"))
+    assert any(ev.get("note") == "logger and GPS read together at the start" for ev in manifest["sync"])
+    # every timestamp of the shared GPX lies within the kept points' span; no metadata time, bounds, waypoint
+    text = (folder / "gps" / "track.gpx").read_text(encoding="utf-8")
+    shared = gpxpy.parse(text)
+    pts = [p.time for t in shared.tracks for s in t.segments for p in s.points]
+    stamps = [np.datetime64(t.rstrip("Z")) for t in re.findall(r"<time>([^<]+)</time>", text)]
+    assert len(stamps) == len(pts) and shared.time is None and "<bounds" not in text and "<wpt" not in text
+    assert min(stamps) == np.datetime64(min(pts).replace(tzinfo=None))
+    assert record["files"]["gps/track.gpx"]["points_removed_near_ends"] > 0
+    # reviewed: kept as written, still counted
+    folder2, record2 = share_session(telling_session, tmp_path / "out2", SECRET, radius_m=50.0, blur_faces=False,
+                                     keep_notes=True, note_policy="reviewed")
+    assert "ana.lopez@example.org" in (folder2 / "votes.csv").read_text(encoding="utf-8")
+    assert record2["notes"]["found"]["e-mail address"] == 1
+
+
+@pytest.mark.parametrize(("text", "kinds"), [
+    ("met my neighbour Ana", ["personal name"]),            # a cue word, then a capitalised word
+    ("Too hot. Shade near the bank", []),                   # capitalised only at sentence starts
+    ("walk with Dr O'Neill today", ["personal name"]),      # the title is a cue, not the name
+    ("call +34 612 345 678", ["phone number"]),
+    ("phone 612-34-56-78.", ["phone number"]),
+    ("at 10:45 on 2026-07-14 UTCI was 35.2", []),           # dates, clock times, acronyms, decimals
+    ("write to a.b-c@mail.example.com", ["e-mail address"]),
+    ("shady start", []),
+])
+def test_note_patterns(text, kinds):
+    from walkcomfort.imagery.note_scan import find_personal_data
+
+    assert [k for k, _, _ in find_personal_data(text)] == kinds

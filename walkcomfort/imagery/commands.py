@@ -134,14 +134,20 @@ def _frames_sessions(sessions, out_dir, pool, workers, cache, no_people, labels_
               help="File holding the project's pseudonym secret [default: $WALKCOMFORT_SHARE_SECRET].")
 @click.option("--trim-radius", "radius_m", type=click.FloatRange(min=0), default=200.0, show_default=True,
               help="Remove track points and frames within this distance of the start and end [m].")
-@click.option("--keep-notes", is_flag=True, help="Keep free-text notes (votes, sync events); default: emptied.")
+@click.option("--keep-notes", is_flag=True, help="Keep free-text notes (votes, sync events); default: emptied. "
+              "Notes holding an e-mail address, phone number or name are refused unless masked or reviewed.")
+@click.option("--mask-notes", is_flag=True, help="With --keep-notes: replace e-mail addresses, phone numbers and "
+              "names in notes by [e-mail], [phone], [name].")
+@click.option("--notes-reviewed", is_flag=True, help="With --keep-notes: the notes were checked by hand; keep them "
+              "as written.")
 @click.option("--keep-extensions", is_flag=True,
               help="Keep GPX point extensions (heart rate is health data); default: removed.")
 @click.option("--plates", is_flag=True, help="Also blur licence-plate-like regions.")
 @click.option("--no-blur", is_flag=True, help="Do not blur faces (only for copies that stay within the team).")
 @click.option("--workers", type=click.IntRange(min=1), default=None,
               help="Worker processes for the face blurring [default: the usable cores].")
-def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, keep_extensions, plates, no_blur, workers):
+def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, mask_notes, notes_reviewed, keep_extensions,
+          plates, no_blur, workers):
     """Write a shareable copy of session folder(s): pseudonyms, track ends trimmed, faces blurred.
 
     The raw session is never modified. Each copy holds share_record.json, the list of
@@ -152,6 +158,13 @@ def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, keep_extensi
     from walkcomfort.imagery.share import share_session
     from walkcomfort.session.commands import find_sessions
 
+    if (mask_notes or notes_reviewed) and not keep_notes:
+        raise InputError("--mask-notes / --notes-reviewed apply to kept notes only", where="--keep-notes",
+                         fix="add --keep-notes, or leave them out (notes are then emptied)")
+    if mask_notes and notes_reviewed:
+        raise InputError("--mask-notes and --notes-reviewed were both given", where="--mask-notes",
+                         fix="give one of them")
+    note_policy = "mask" if mask_notes else "reviewed" if notes_reviewed else "refuse"
     secret = load_secret(secret_file)
     sessions = find_sessions(session_dirs)
     n_workers = default_workers() if workers is None else workers
@@ -159,14 +172,14 @@ def share(session_dirs, out_dir, secret_file, radius_m, keep_notes, keep_extensi
     try:
         for d in sessions:
             folder, rec = share_session(d, out_dir, secret, radius_m=radius_m, keep_notes=keep_notes,
-                                        keep_extensions=keep_extensions, blur_faces=not no_blur, plates=plates,
+                                        note_policy=note_policy, keep_extensions=keep_extensions, blur_faces=not no_blur, plates=plates,
                                         pool=pool)
             fr = rec["frames"]
             trimmed = sum(v.get("points_removed_near_ends", 0) for v in rec["files"].values()
                           if v.get("kind") == "gps")
             click.echo(f"{d} -> {folder}: {trimmed} track points trimmed, {fr['copied']} frames shared "
-                       f"({len(fr['removed_near_track_ends'])} near the ends and "
-                       f"{len(fr['removed_position_unknown'])} without a position left out), "
+                       f"({fr['removed_near_track_ends']['count']} near the ends and "
+                       f"{fr['removed_position_unknown']['count']} without a position left out), "
                        f"{fr['faces_blurred']} faces blurred in {len(fr['frames_with_faces'])} frames; "
                        f"record: {folder / 'share_record.json'}")
     finally:

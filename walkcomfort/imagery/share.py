@@ -10,13 +10,15 @@ What is done to each part
     Re-written from its parsed content (so comments, which may hold names, are gone);
     ``[session] id`` and ``participant`` replaced by keyed-hash pseudonyms
     (:func:`walkcomfort.imagery.privacy.pseudonym`); free-text ``note`` of sync
-    events removed unless ``keep_notes``; a sync event that names a frame which is not
-    shared is re-written with that frame's clock reading, so the clock fit is unchanged.
+    events removed unless ``keep_notes`` (then checked like vote notes); a sync event that names a frame which is not
+    shared is re-written with that frame's clock reading, so the clock fit is unchanged;
+    ``[session] start``/``end`` removed when the track was trimmed (they would tell the true start and end).
 GPS track
     Points within ``radius_m`` of the first or last fix removed
     (:func:`~walkcomfort.imagery.privacy.trim_mask`), and points without a time;
     GPX: author, names, descriptions, links, waypoints and routes removed, the
-    ``creator`` replaced, point extensions (heart rate is health data) removed unless
+    ``creator`` replaced, metadata ``time`` and ``bounds`` removed (they tell the untrimmed
+    start and extent), point extensions (heart rate is health data) removed unless
     ``keep_extensions``; CSV: comment and preamble lines removed.
 Frames
     Frames taken where the walker was within ``radius_m`` of the start or end — or
@@ -24,10 +26,14 @@ Frames
     shared; the others have faces blurred (:mod:`walkcomfort.imagery.faces`) and are
     written with only the EXIF time tags the frames reader needs
     (``DateTimeOriginal``, ``SubSecTimeOriginal``, ``OffsetTimeOriginal``): no GPS
-    tags, camera serials or maker notes. Files that are not frames are not copied.
+    tags, camera serials or maker notes. Files that are not frames are not copied. The
+    record names frames left out only by count and time span, rounded outward to
+    :data:`walkcomfort.imagery.share_frames.RECORD_SPAN_ROUND` (their file names and exact times would tell the trimmed ends).
 Votes
     Participant codes replaced by the same pseudonym as in the manifest; free-text
-    notes emptied unless ``keep_notes`` (a note can name people and places).
+    notes emptied unless ``keep_notes`` (a note can name people and places); kept notes
+    are scanned for e-mail addresses, phone numbers and names
+    (:mod:`walkcomfort.imagery.note_scan`) and refused, masked, or kept as reviewed.
 Other sensor files
     Header and data lines kept; comment and preamble lines (serial numbers, owner
     names) removed.
@@ -55,16 +61,15 @@ import pandas as pd
 
 from walkcomfort import _io
 from walkcomfort import columns as C
-from walkcomfort._progress import track
 from walkcomfort.errors import InputError
+from walkcomfort.errors import where as _where
 from walkcomfort.imagery import faces as _faces
+from walkcomfort.imagery.note_scan import NoteGuard
 from walkcomfort.imagery.privacy import TRIM_RADIUS_M, pseudonym, to_toml, trim_mask
+from walkcomfort.imagery.share_frames import share_frames
 
 RECORD_NAME = "share_record.json"
-RECORD_FORMAT = "walkcomfort-share-record/1"
-#: A frame's position is interpolated between GPS fixes at most this far apart [s].
-MAX_FIX_GAP_S = 30.0
-JPEG_QUALITY = 92
+RECORD_FORMAT = "walkcomfort-share-record/2"
 CAUTION = ("Face blurring uses cascade detectors that miss small, turned or shaded faces: review every shared "
            "frame before release. What may be shared is decided by the study's ethics approval and "
            "data-protection terms, not by this tool.")
@@ -72,7 +77,7 @@ CAUTION = ("Face blurring uses cascade detectors that miss small, turned or shad
 
 def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, secret: bytes, *,
                   radius_m: float = TRIM_RADIUS_M, keep_notes: bool = False, keep_extensions: bool = False,
-                  blur_faces: bool = True,
+                  note_policy: str = "refuse", blur_faces: bool = True,
                   plates: bool = False, face_params: _faces.FaceParams | None = None,
                   verify: bool = True, progress: bool | None = None, workers: int = 1,
                   pool=None) -> tuple[Path, dict]:
@@ -91,6 +96,9 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
         Trimming radius around the first and last GPS fix [m].
     keep_notes : bool
         Keep free-text notes of votes and sync events (default: emptied).
+    note_policy : {"refuse", "mask", "reviewed"}
+        With ``keep_notes``: what to do with a note that looks like it holds an e-mail
+        address, a phone number or a name (:class:`~walkcomfort.imagery.note_scan.NoteGuard`).
     keep_extensions : bool
         Keep the GPX point extensions (heart rate, device temperature). Default: removed —
         heart rate is health data, which data-protection law treats with extra care.
@@ -134,6 +142,10 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
         raise InputError(f"'{dest}' already exists and is not empty", where=dest,
                          fix="remove it, or share into another output folder")
     data = tomllib.loads(spec.manifest_path.read_bytes().decode("utf-8-sig"))
+    guard = NoteGuard(note_policy) if keep_notes else None
+    if keep_notes and note_policy == "refuse":  # sync notes first: a refusal comes before any slow work
+        for i, ev in enumerate(data.get("sync", []) or []):
+            NoteGuard()(ev.get("note"), f"{spec.manifest_path} [[sync]] {i + 1}")
     record: dict = {
         "format": RECORD_FORMAT,
         "session": {"id": sid, "participant": pid},
@@ -156,17 +168,20 @@ def share_session(session_dir: str | os.PathLike, out_dir: str | os.PathLike, se
                 copied.add(s.path)
         for s in spec.sources:
             if s.kind == "votes":
-                record["files"][s.path] = _share_votes(s, stage, pid, spec.participant, keep_notes)
+                record["files"][s.path] = _share_votes(s, stage, pid, spec.participant, guard)
                 copied.add(s.path)
             elif s.kind in ("weather", "noise", "light"):
                 record["files"][s.path] = _share_plain(s, stage)
                 copied.add(s.path)
-        frames_entry, frames_kept, frames_removed = _share_frames(spec, stage, radius_m, blur_faces,
+        frames_entry, frames_kept, frames_removed = share_frames(spec, stage, radius_m, blur_faces,
                                                                   plates, face_params, progress, workers, pool)
         record["frames"] = frames_entry
         copied |= frames_kept
-        record["manifest"] = _share_manifest(data, stage / MANIFEST_NAME, sid, pid, keep_notes, spec,
-                                             frames_removed)
+        trimmed = any(v.get("points_removed_near_ends") for v in record["files"].values())
+        record["manifest"] = _share_manifest(data, stage / MANIFEST_NAME, sid, pid, guard, spec,
+                                             frames_removed, trimmed)
+        if guard is not None:
+            record["notes"] = guard.record()
         record["not_copied"] = {"files": _count_unreferenced(folder, copied)}
         record["outputs"] = {p.relative_to(stage).as_posix(): _io.file_digest(p)
                              for p in sorted(stage.rglob("*")) if p.is_file()}
@@ -261,11 +276,13 @@ def _trim_gpx(text: str, radius_m: float, where: str, keep_extensions: bool = Fa
                  "link_text", "link_type", "keywords"):
         setattr(gpx, attr, None)
     gpx.creator = "walkcomfort share"
+    gpx.time, gpx.bounds = None, None  # the first fix's time and the untrimmed extent
     keep = ~drop
     entry = {"kind": "gps", "points_read": len(pts), "points_removed_near_ends": n_near,
              "points_removed_without_time": n_no_time, "points_kept": int(keep.sum()),
              "waypoints_removed": n_wpt, "routes_removed": n_rte, "point_extensions_removed": n_ext,
-             "metadata_removed": ["author", "names", "descriptions", "links", "keywords", "creator"]}
+             "metadata_removed": ["author", "names", "descriptions", "links", "keywords", "creator", "time",
+                                  "bounds"]}
     return gpx.to_xml(version=gpx.version or "1.1"), entry
 
 
@@ -339,7 +356,7 @@ def _share_plain(s, stage: Path) -> dict:
     return {"kind": s.kind, "rows_kept": len(body), "comment_or_preamble_lines_removed": removed}
 
 
-def _share_votes(s, stage: Path, pid: str, participant: str, keep_notes: bool) -> dict:
+def _share_votes(s, stage: Path, pid: str, participant: str, guard: NoteGuard | None) -> dict:
     note_col, part_col = s.column("note"), s.column("participant")
     if s.format == "json":
         from walkcomfort.session.readers.votes import _json_records
@@ -347,11 +364,13 @@ def _share_votes(s, stage: Path, pid: str, participant: str, keep_notes: bool) -
         obj = json.loads(s.abs_path.read_bytes().decode("utf-8-sig"))
         recs = _json_records(s.abs_path, s)      # a fresh parse: the list that is edited and written
         n_part = n_note = 0
-        for r in recs:
+        for i, r in enumerate(recs):
             if part_col in r and str(r[part_col]).strip():
                 r[part_col] = pid if str(r[part_col]).strip() == participant else "P-OTHER"
                 n_part += 1
-            if not keep_notes and note_col in r and str(r[note_col] or "").strip():
+            if guard is not None and note_col in r:
+                r[note_col] = guard(r[note_col], _where(s.display, row=i + 1))
+            elif note_col in r and str(r[note_col] or "").strip():
                 r[note_col] = ""
                 n_note += 1
         # other top-level members of a {"votes": [...]} file are not copied (they may name people)
@@ -371,14 +390,16 @@ def _share_votes(s, stage: Path, pid: str, participant: str, keep_notes: bool) -
     buf = io.StringIO()
     w = csv.writer(buf, delimiter=delim, lineterminator="\n")
     w.writerow(table.header)
-    for row in table.rows:
+    for line_no, row in zip(table.lines, table.rows, strict=True):
         row = list(row)
         if part_col in hi and row[hi[part_col]].strip():
             # a vote of another participant is kept as such (the reader quarantines it): it
             # gets a pseudonym that cannot be traced back, not the real code
             row[hi[part_col]] = pid if row[hi[part_col]].strip() == participant else "P-OTHER"
             n_part += 1
-        if not keep_notes and note_col in hi and row[hi[note_col]].strip():
+        if guard is not None and note_col in hi:
+            row[hi[note_col]] = guard(row[hi[note_col]], _where(s.display, line=line_no))
+        elif note_col in hi and row[hi[note_col]].strip():
             row[hi[note_col]] = ""
             n_note += 1
         w.writerow(row)
@@ -388,173 +409,22 @@ def _share_votes(s, stage: Path, pid: str, participant: str, keep_notes: bool) -
             "comment_or_preamble_lines_removed": _extra_lines(lines, table, q)}
 
 
-# --- frames --------------------------------------------------------------------------------------
-
-
-def _frame_positions(times: pd.DatetimeIndex, pts: pd.DataFrame | None):
-    """Interpolated lat/lon of each frame time (NaN outside the track or across long fix gaps)."""
-    n = len(times)
-    lat = np.full(n, np.nan)
-    lon = np.full(n, np.nan)
-    if pts is None or len(pts) == 0 or n == 0:
-        return lat, lon
-    t = pts["t"].to_numpy(dtype=np.int64)
-    ft = times.as_unit("ns").asi8
-    j = np.searchsorted(t, ft, side="right")
-    inside = (j > 0) & (j < len(t)) | (ft == t[-1])
-    jj = np.clip(j, 1, len(t) - 1) if len(t) > 1 else np.zeros_like(j)
-    if len(t) > 1:
-        gap = (t[jj] - t[jj - 1]) / 1e9
-        inside &= gap <= MAX_FIX_GAP_S
-    lat[inside] = np.interp(ft[inside], t, pts[C.LAT].to_numpy())
-    lon[inside] = np.interp(ft[inside], t, pts[C.LON].to_numpy())
-    return lat, lon
-
-
-def _gps_on_reference_clock(spec, fits) -> pd.DataFrame | None:
-    from walkcomfort.session.readers import read_source
-
-    gps = spec.sources_of("gps")
-    if not gps:
-        return None
-    df, _ = read_source(gps[0], spec)
-    fit = fits.get(gps[0].device)
-    t = fit.to_true(df.index) if fit is not None else df.index
-    return pd.DataFrame({"t": pd.DatetimeIndex(t).as_unit("ns").asi8, C.LAT: df[C.LAT].to_numpy(float),
-                         C.LON: df[C.LON].to_numpy(float)}).sort_values("t", kind="stable")
-
-
-def _share_frames(spec, stage: Path, radius_m, blur, plates, face_params, progress, workers=1, pool=None):
-    from walkcomfort.imagery.sessions import session_frames
-
-    frames, quarantine, _, fits = session_frames(spec, return_fits=True)
-    gps_points = _gps_on_reference_clock(spec, fits)
-    entry = {"frames_read": int(len(frames) + len(quarantine)), "not_copied_untimed_or_unreadable": int(len(quarantine)),
-             "removed_near_track_ends": [], "removed_position_unknown": [], "copied": 0,
-             "faces_blurred": 0, "frames_with_faces": {}, "exif_kept": ["DateTimeOriginal", "SubSecTimeOriginal",
-                                                                      "OffsetTimeOriginal"]}
-    kept: set[str] = set()
-    removed: set[str] = set(quarantine["file"]) if len(quarantine) else set()
-    if not len(frames):
-        return entry, kept, removed
-    lat, lon = _frame_positions(frames.index, gps_points)
-    ends = None
-    if gps_points is not None and len(gps_points):
-        g = gps_points.sort_values("t")
-        ends = (g[C.LAT].iloc[0], g[C.LON].iloc[0], g[C.LAT].iloc[-1], g[C.LON].iloc[-1])
-    params = face_params or _faces.FaceParams(plates=plates)
-    if plates and not params.plates:
-        params = _faces.FaceParams(params.min_face_px, params.scale_factor, params.min_neighbors, params.width, True)
-    from walkcomfort.imagery.privacy import great_circle_m
-
-    todo = []
-    for i, rel in enumerate(frames[C.FRAME_PATH]):
-        if not np.isfinite(lat[i]) or ends is None:
-            entry["removed_position_unknown"].append(rel)
-            removed.add(rel)
-            continue
-        d = min(great_circle_m(ends[0], ends[1], lat[i], lon[i]), great_circle_m(ends[2], ends[3], lat[i], lon[i]))
-        if d <= radius_m:
-            entry["removed_near_track_ends"].append(rel)
-            removed.add(rel)
-            continue
-        todo.append((rel, str(spec.session_dir / rel), str(stage / rel)))
-    results: dict[str, int] = {}
-    for rel, n_faces in track(_copy_frames(todo, blur, params, workers, pool), "share frames", total=len(todo),
-                              enabled=progress):
-        results[rel] = n_faces
-    for rel, _, _ in todo:      # the record in frame order, whatever order the workers finished in
-        n_faces = results[rel]
-        if n_faces:
-            entry["frames_with_faces"][rel] = n_faces
-            entry["faces_blurred"] += n_faces
-        entry["copied"] += 1
-        kept.add(rel)
-    return entry, kept, removed
-
-
-def _copy_chunk(items, blur, params) -> list[tuple[str, int]]:
-    from walkcomfort.session.readers.frames import exif_time
-
-    return [(rel, _copy_frame(Path(src), Path(dst), blur, params, exif_time)) for rel, src, dst in items]
-
-
-def _copy_frames(todo, blur, params, workers, pool):
-    """Copy (and blur) frames, in worker processes when there are several and enough frames."""
-    from concurrent.futures import as_completed
-
-    if (pool is None and workers <= 1) or len(todo) < 8:
-        for item in todo:
-            yield from _copy_chunk([item], blur, params)
-        return
-    from concurrent.futures.process import BrokenProcessPool
-
-    from walkcomfort.imagery.batch import make_pool
-
-    own = pool is None
-    pool = make_pool(workers) if own else pool
-    done: set[str] = set()
-    try:
-        futures = [pool.submit(_copy_chunk, todo[i:i + 4], blur, params) for i in range(0, len(todo), 4)]
-        for fut in as_completed(futures):
-            for item in fut.result():
-                done.add(item[0])
-                yield item
-    except BrokenProcessPool as exc:
-        import warnings
-
-        warnings.warn(f"share worker processes failed ({exc}); blurring the remaining frames in this process",
-                      RuntimeWarning, stacklevel=3)
-        for item in todo:
-            if item[0] not in done:
-                yield from _copy_chunk([item], blur, params)
-    finally:
-        if own:
-            pool.shutdown()
-
-
-def _copy_frame(src: Path, dst: Path, blur: bool, params, exif_time) -> int:
-    from PIL import Image, ImageOps
-
-    dto, off = exif_time(src)
-    with Image.open(src) as im:
-        fmt = im.format
-        rgb = np.asarray(ImageOps.exif_transpose(im).convert("RGB"))
-    n = 0
-    if blur:
-        rgb, boxes = _faces.blur_faces(rgb, params)
-        n = int(len(boxes))
-    exif = Image.Exif()
-    if dto:
-        ifd = exif.get_ifd(0x8769)
-        main, _, sub = dto.partition(".")
-        ifd[0x9003] = main
-        if sub:
-            ifd[0x9291] = sub
-        if off:
-            ifd[0x9011] = off
-    buf = io.BytesIO()
-    out = Image.fromarray(rgb)
-    if fmt == "PNG":
-        out.save(buf, format="PNG", exif=exif.tobytes())
-    else:
-        out.save(buf, format="JPEG", quality=JPEG_QUALITY, exif=exif.tobytes())
-    _io.atomic_write_bytes(dst, buf.getvalue())
-    return n
-
-
 # --- manifest ------------------------------------------------------------------------------------
 
 
-def _share_manifest(data: dict, path: Path, sid: str, pid: str, keep_notes: bool, spec, removed_frames: set) -> dict:
+def _share_manifest(data: dict, path: Path, sid: str, pid: str, guard, spec, removed_frames: set,
+                    trimmed: bool = False) -> dict:
     out = _deep_copy(data)
     out["session"]["id"] = sid
     out["session"]["participant"] = pid
+    window = [k for k in ("start", "end") if trimmed and out["session"].pop(k, None) is not None]
     notes = 0
     rewritten = 0
     frame_clock = None
-    for ev in out.get("sync", []) or []:
-        if not keep_notes and "note" in ev:
+    for i, ev in enumerate(out.get("sync", []) or []):
+        if guard is not None and "note" in ev:
+            ev["note"] = guard(ev["note"], f"{spec.manifest_path} [[sync]] {i + 1}")
+        elif "note" in ev:
             del ev["note"]
             notes += 1
         fr = ev.get("frame")
@@ -569,7 +439,8 @@ def _share_manifest(data: dict, path: Path, sid: str, pid: str, keep_notes: bool
             ev["device_time"] = frame_clock[key].isoformat()
             rewritten += 1
     _io.atomic_write_text(path, to_toml(out))
-    return {"comments_removed": True, "sync_notes_removed": notes, "sync_frames_rewritten_as_times": rewritten}
+    return {"comments_removed": True, "sync_notes_removed": notes, "sync_frames_rewritten_as_times": rewritten,
+            "session_window_removed": window}
 
 
 def _camera_clock_times(spec) -> dict:
