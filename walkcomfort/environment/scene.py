@@ -18,9 +18,15 @@ string) and ``properties.kind``:
     Polygon/MultiPolygon (pergola, awning, sail), ``height_m`` its underside,
     ``transmissivity`` 0 (opaque) … 1 (open). Modelled as a slab
     :data:`CANOPY_THICKNESS_M` thick.
+``ground``
+    Polygon/MultiPolygon of one ground surface, ``material`` one of
+    :data:`walkcomfort.environment.surfaces.MATERIALS` (asphalt, concrete, stone, brick,
+    grass). Not an obstacle: it only sets the surface energy balance of the ground there.
+    Ground not covered by any ``ground`` feature is ``walkcomfort.ground_material`` of the
+    collection, default asphalt. Buildings may give ``wall_material`` (default concrete).
 
 Optional top-level ``"walkcomfort": {"site": {"lat": .., "lon": .., "elev_m": ..}}``
-fixes the site (and so the local UTM frame); otherwise the centre of the features'
+fixes the site (and so the local UTM frame) and ``"ground_material"`` the default ground; otherwise the centre of the features'
 bounding box is used. The ground is taken as flat.
 
 By default each crossing of a crown multiplies the beam by that crown's transmissivity,
@@ -46,7 +52,9 @@ from shapely.geometry import mapping, shape
 from walkcomfort.environment.geo import LocalFrame, require_lonlat
 from walkcomfort.errors import InputError
 
-KINDS = ("building", "tree", "canopy")
+KINDS = ("building", "tree", "canopy", "ground")
+#: Kinds that cast shade and hide the sky (``ground`` only declares a surface material).
+OBSTACLE_KINDS = ("building", "tree", "canopy")
 KIND_CODE = {k: i for i, k in enumerate(KINDS)}
 #: Thickness given to canopies (pergolas, awnings) so that they are solids [m].
 CANOPY_THICKNESS_M = 0.2
@@ -101,7 +109,8 @@ class Scene:
     :meth:`project` maps lon/lat to local x/y metres.
     """
 
-    def __init__(self, features: list[dict], site: dict | None = None, source: str = "scene"):
+    def __init__(self, features: list[dict], site: dict | None = None, source: str = "scene",
+                 ground_material: str | None = None):
         try:  # own copy; a JSON round trip is much faster than deepcopy for GeoJSON content
             self._features = json.loads(json.dumps(list(features)))
         except (TypeError, ValueError):
@@ -117,6 +126,7 @@ class Scene:
             seen[fid] = i
         self.site = _site(site, self._geoms, source)
         self.frame = LocalFrame(self.site["lon"], self.site["lat"])
+        self.ground_material = _material_name(ground_material or _DEFAULT_GROUND, f"{source} walkcomfort.ground_material")
 
     # --- construction / export -----------------------------------------------------
     @classmethod
@@ -138,7 +148,8 @@ class Scene:
                              fix="add a 'features' array")
         meta = obj.get("walkcomfort") or {}
         site = meta.get("site") if isinstance(meta, dict) else None
-        return cls(feats, site=site, source=source)
+        ground = meta.get("ground_material") if isinstance(meta, dict) else None
+        return cls(feats, site=site, source=source, ground_material=ground)
 
     @classmethod
     def empty(cls, lat: float, lon: float, elev_m: float = 0.0) -> Scene:
@@ -147,7 +158,10 @@ class Scene:
 
     def to_geojson(self) -> dict:
         """The scene as a GeoJSON FeatureCollection dict (site included)."""
-        return {"type": "FeatureCollection", "walkcomfort": {"site": dict(self.site)},
+        meta = {"site": dict(self.site)}
+        if self.ground_material != _DEFAULT_GROUND:
+            meta["ground_material"] = self.ground_material
+        return {"type": "FeatureCollection", "walkcomfort": meta,
                 "features": copy.deepcopy(self._features)}
 
     # --- access ------------------------------------------------------------------------
@@ -236,6 +250,34 @@ class Scene:
         x[idx[pi]] = bx + dx / d * clearance_m
         y[idx[pi]] = by + dy / d * clearance_m
         return x, y, inside
+
+    def ground_material_at(self, x, y) -> np.ndarray:
+        """Ground material name at local points ``(x, y)`` [m] (object array; the scene default elsewhere)."""
+        x = np.asarray(x, dtype=float).reshape(-1)
+        y = np.asarray(y, dtype=float).reshape(-1)
+        out = np.full(x.size, self.ground_material, dtype=object)
+        polys, names = self._ground_index
+        ok = np.isfinite(x) & np.isfinite(y)
+        if not ok.any() or not len(names):
+            return out
+        pi, gi = polys.query(shapely.points(x[ok], y[ok]), predicate="within")
+        out[np.flatnonzero(ok)[pi]] = names[gi]
+        return out
+
+    def wall_material(self, feature: int) -> str:
+        """Wall material of feature ``feature`` (a building), default concrete."""
+        return str(self._features[int(feature)]["properties"].get("wall_material") or _DEFAULT_WALL)
+
+    @cached_property
+    def _ground_index(self):
+        idx = [i for i, f in enumerate(self._features) if f["properties"]["kind"] == "ground"]
+        if not idx:
+            return shapely.STRtree([]), np.empty(0, dtype=object)
+        geoms = np.empty(len(idx), dtype=object)
+        geoms[:] = [self._geoms[i] for i in idx]
+        local = shapely.transform(geoms, lambda xy: np.column_stack(self.frame.project(xy[:, 0], xy[:, 1])))
+        names = np.array([self._features[i]["properties"]["material"].strip().lower() for i in idx], dtype=object)
+        return shapely.STRtree(local), names
 
     @cached_property
     def obstacles(self) -> Obstacles:
@@ -333,6 +375,8 @@ def _validate_feature(f, i: int, source: str):
             raise InputError(f"a building needs a Polygon footprint, got {gtype}", where=where,
                              fix="draw the footprint as a Polygon")
         _num(props, "height_m", where, lo=0.0, lo_open=True)
+        if props.get("wall_material") is not None:
+            _material_name(props["wall_material"], f"{where} wall_material")
     elif kind == "tree":
         h = _num(props, "height_m", where, lo=0.0, lo_open=True)
         cb = _num(props, "crown_base_m", where, lo=0.0)
@@ -355,6 +399,11 @@ def _validate_feature(f, i: int, source: str):
                     raise InputError(f"transmissivity_by_month has month {k!r}", where=where,
                                      fix="use months \"1\" … \"12\"")
                 _num({"v": v}, "v", f"{where} transmissivity_by_month[{k}]", lo=0.0, hi=1.0)
+    elif kind == "ground":
+        if gtype not in _POLY:
+            raise InputError(f"a ground surface needs a Polygon, got {gtype}", where=where,
+                             fix="draw the paved or planted area as a Polygon")
+        _material_name(props.get("material"), f"{where} material")
     else:  # canopy
         if gtype not in _POLY:
             raise InputError(f"a canopy needs a Polygon, got {gtype}", where=where, fix="draw its outline as a Polygon")
@@ -389,7 +438,9 @@ def _tau_months(props: dict) -> np.ndarray:
 
 
 def _prepare(scene) -> Obstacles:
-    feats, geoms_in = scene._features, scene._geoms
+    keep = [i for i, f in enumerate(scene._features) if f["properties"]["kind"] in OBSTACLE_KINDS]
+    feats = [scene._features[i] for i in keep]
+    geoms_in = [scene._geoms[i] for i in keep]
     nf = len(feats)
     e = np.empty(0)
     if nf == 0:
@@ -443,6 +494,7 @@ def _prepare(scene) -> Obstacles:
     qr = qr * (1 + 1e-9) + 1e-6  # strictly enclosing
     # circles first, then polygon parts
     feat_idx = np.concatenate([pt, part_feat]).astype(np.int64)
+    scene_idx = np.asarray(keep, dtype=np.int64)
     n = feat_idx.size
     # mean chord length of each solid, 4V/S (Cauchy's formula for convex bodies)
     depth = zt[feat_idx] - zb[feat_idx]
@@ -456,7 +508,7 @@ def _prepare(scene) -> Obstacles:
     fps[:pt.size] = pfoot
     fps[pt.size:] = parts
     return Obstacles(
-        kind=kind[feat_idx], feature=feat_idx, z_bottom=zb[feat_idx], z_top=zt[feat_idx],
+        kind=kind[feat_idx], feature=scene_idx[feat_idx] if scene_idx.size else feat_idx, z_bottom=zb[feat_idx], z_top=zt[feat_idx],
         tau_base=tau_base[feat_idx], tau_month=tau_m[feat_idx],
         is_circle=np.concatenate([np.ones(pt.size, bool), np.zeros(parts.size, bool)]),
         cx=np.concatenate([pcx, qcx]), cy=np.concatenate([pcy, qcy]), r=np.concatenate([radius[pt], qr]),
@@ -465,6 +517,21 @@ def _prepare(scene) -> Obstacles:
         footprints=fps, tree=shapely.STRtree(fps), grid_convergence_deg=_convergence(scene),
         mean_chord_m=np.concatenate([chord_c, chord_p]),
     )
+
+
+_DEFAULT_GROUND = "asphalt"
+_DEFAULT_WALL = "concrete"
+
+
+def _material_name(name, where: str) -> str:
+    """A known surface material name (lower case), else an InputError listing the choices."""
+    from walkcomfort.environment.surfaces import MATERIALS  # surfaces imports sun, not scene
+
+    key = str(name).strip().lower() if isinstance(name, str) else None
+    if key not in MATERIALS:
+        raise InputError(f"surface material {name!r} is not known", where=where,
+                         fix=f"use one of {', '.join(sorted(MATERIALS))}")
+    return key
 
 
 def _convergence(scene) -> float:

@@ -214,3 +214,56 @@ def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: flo
         crowns[p] = np.clip(1.0 - blocked_c.mean(axis=1), 0.0, 1.0)
     return pd.DataFrame({C.SVF: svf, C.SKY_VIEW_CROWN_FRAC: crowns},
                         index=index if index is not None else pd.RangeIndex(n))
+
+
+def wall_sectors(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: float = 200.0) -> dict:
+    """The building wall seen in each azimuth sector above the horizon of a point.
+
+    For every point and sector the building that sets the sector's horizon (as in
+    :func:`sky_view_factor`): the sin² measure of the band it hides (its share of the
+    sector's upper hemisphere), the horizontal distance to the wall, the wall's top
+    height and the scene feature it belongs to.
+
+    Returns
+    -------
+    dict of ndarray, each shape (N, n_sectors)
+        ``band`` [-] (0 where no building), ``dist_m``, ``top_m`` (NaN where none),
+        ``feature`` (−1 where none); and ``azim_deg`` (n_sectors,) the sector directions
+        (true azimuth, 0 = north, clockwise).
+    """
+    x = _arr(x_m)
+    n = x.size
+    y, z = _arr(y_m, n), _arr(z_m, n)
+    obs = _obstacles(scene) or _EMPTY
+    S = int(n_sectors)
+    band = np.zeros((n, S))
+    dist = np.full((n, S), np.nan)
+    top = np.full((n, S), np.nan)
+    feat = np.full((n, S), -1, dtype=np.int64)
+    azim = (np.arange(S) + 0.5) * 360.0 / S
+    ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(z)
+    pts = np.flatnonzero(ok & (z < obs.z_max)) if obs.n else np.empty(0, np.int64)
+    theta = np.radians(azim + obs.grid_convergence_deg)
+    sdx, sdy = np.sin(theta), np.cos(theta)
+    per_chunk = max(1, _CHUNK_RAYS // S)
+    for c0 in range(0, pts.size, per_chunk):
+        p = pts[c0:c0 + per_chunk]
+        px, py, pz = np.repeat(x[p], S), np.repeat(y[p], S), np.repeat(z[p], S)
+        dx, dy = np.tile(sdx, p.size), np.tile(sdy, p.size)
+        ray, ob, lo, hi = _bands(obs, px, py, pz, dx, dy, radius_m)
+        wall = (obs.kind[ob] == KIND_CODE["building"]) & (lo <= 0.0) & (hi > 0.0)
+        ray, ob, hi = ray[wall], ob[wall], hi[wall]
+        best = np.full(px.size, -1.0)
+        np.maximum.at(best, ray, hi)
+        win = hi >= best[ray]
+        ray, ob, hi = ray[win], ob[win], hi[win]
+        b = np.zeros(px.size)
+        d = np.full(px.size, np.nan)
+        t = np.full(px.size, np.nan)
+        f = np.full(px.size, -1, dtype=np.int64)
+        b[ray] = np.sin(hi) ** 2
+        d[ray] = (obs.z_top[ob] - pz[ray]) / np.tan(np.maximum(hi, 1e-9))
+        t[ray] = obs.z_top[ob]
+        f[ray] = obs.feature[ob]
+        band[p], dist[p], top[p], feat[p] = (v.reshape(p.size, S) for v in (b, d, t, f))
+    return {"band": band, "dist_m": dist, "top_m": top, "feature": feat, "azim_deg": azim}

@@ -18,6 +18,9 @@ References
 .. [3] Erbs, D. G., Klein, S. A., Duffie, J. A. (1982). Estimation of the diffuse
    radiation fraction for hourly, daily and monthly-average global radiation. Solar
    Energy 28, 293–302. doi:10.1016/0038-092X(82)90302-4
+.. [5] Long, C. N., Shi, Y. (2008). An automated quality assessment and control algorithm
+   for surface radiation measurements. Open Atmos. Sci. J. 2, 23–37.
+   doi:10.2174/1874282300802010023 (BSRN "extremely rare" limits; from memory)
 .. [4] Holmgren, W. F., Hansen, C. W., Mikofski, M. A. (2018). pvlib python: a python
    package for modeling solar energy systems. JOSS 3(29), 884. doi:10.21105/joss.00884
 """
@@ -275,6 +278,11 @@ def decompose_ghi(ghi_wm2, sun_zenith_deg, times, min_cos_zenith: float = 0.065,
                   max_zenith_deg: float = 87.0) -> pd.DataFrame:
     """Split measured global horizontal irradiance into direct normal and diffuse (Erbs).
 
+    The direct normal irradiance is then bounded by :func:`max_dni` (never above the
+    extraterrestrial value times the clear-sky bound) and by GHI/cos Z (the beam on the
+    horizontal cannot exceed the global), and the diffuse is the remainder, so
+    GHI = DNI·cos Z + DHI holds on every row.
+
     Low-sun guard: the clearness index uses ``max(cos Z, min_cos_zenith)`` and the
     direct beam is set to zero for zenith above ``max_zenith_deg`` (pvlib's guards);
     with the sun at or below the horizon all of GHI is diffuse and DNI is zero.
@@ -315,9 +323,84 @@ def decompose_ghi(ghi_wm2, sun_zenith_deg, times, min_cos_zenith: float = 0.065,
     res = pvlib.irradiance.erbs(ghi, np.where(np.isnan(zen), 90.0, zen), doy,
                                 min_cos_zenith=min_cos_zenith, max_zenith=max_zenith_deg)
     dni = np.asarray(res["dni"], dtype=float)
-    dhi = np.asarray(res["dhi"], dtype=float)
+    dni = np.minimum(dni, max_dni(zen, idx))  # never above the clear-sky bound
+    cosz = np.clip(np.cos(np.radians(np.where(np.isnan(zen), 90.0, zen))), 0.0, None)
+    dni = np.clip(np.minimum(dni, np.where(cosz > 0, ghi / np.where(cosz > 0, cosz, 1.0), 0.0)), 0.0, None)
+    dhi = ghi - dni * cosz  # closure: the diffuse takes what the beam cannot
     night = zen >= 90.0
     dni = np.where(night, 0.0, dni)
     dhi = np.where(night, ghi, dhi)
     bad = np.isnan(ghi) | np.isnan(zen)
     return frame({C.DNI_WM2: np.where(bad, np.nan, dni), C.DHI_WM2: np.where(bad, np.nan, dhi)}, index)
+
+
+#: Share of the extraterrestrial normal irradiance a clear atmosphere can pass toward a
+#: sun at the zenith, and the air-mass exponent, of the BSRN "extremely rare" upper limit
+#: for direct normal irradiance, DNI ≤ 0.95·E₀·cos(Z)^0.2 + 10 W m⁻² (Long & Shi 2008;
+#: from memory). The +10 W m⁻² instrument allowance is dropped here: it is a bound for
+#: modelled beams, not for noisy measurements.
+DNI_BOUND_FRAC = 0.95
+DNI_BOUND_EXP = 0.2
+#: Largest clear-sky index a stated global irradiance may imply (cloud enhancement under
+#: broken cloud reaches 1.1–1.5 for minutes, not for an hour; common practice).
+MAX_CLEAR_INDEX = 1.2
+
+
+def max_dni(sun_zenith_deg, times) -> np.ndarray:
+    """Largest physically plausible direct normal irradiance [W m⁻²] at each time.
+
+    ``0.95·E₀·cos(Z)^0.2`` with E₀ the extraterrestrial normal irradiance of the day
+    (Spencer 1971 via pvlib) — the BSRN "extremely rare" limit of Long & Shi (2008), from
+    memory; zero with the sun at or below the horizon. Always below E₀.
+    """
+    zen = np.asarray(sun_zenith_deg, dtype=float)
+    e0 = extraterrestrial_irradiance(times).to_numpy()
+    cosz = np.clip(np.cos(np.radians(np.where(np.isnan(zen), 90.0, zen))), 0.0, None)
+    out = DNI_BOUND_FRAC * e0 * np.power(cosz, DNI_BOUND_EXP)
+    return np.where(np.isnan(zen), np.nan, np.where(zen < 90.0, out, 0.0))
+
+
+def stated_ghi_to_series(ghi_wm2: float, times, lat, lon, elev_m=0.0, position=None,
+                         where: str = "ghi_wm2") -> pd.DataFrame:
+    """A single stated global irradiance turned into a clear-sky index applied at each time.
+
+    The stated value is read as the global irradiance at the day's highest sun: its
+    ratio to the clear-sky global irradiance at solar noon of that day (Ineichen–Perez)
+    is the clear-sky index :math:`k_c`, and each time step gets
+    :math:`k_c \\cdot GHI_{clear}(t)`, split by Erbs with the bounds of :func:`decompose_ghi`.
+    A stated value that would need :math:`k_c` above :data:`MAX_CLEAR_INDEX` is refused:
+    no sky at that site and date gives it.
+
+    Returns
+    -------
+    DataFrame
+        ``ghi_wm2, dni_wm2, dhi_wm2`` [W m⁻²] on ``times``; ``attrs["clear_index"]``.
+    """
+    given = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
+    idx = _utc_index(given, where)
+    if position is None:
+        position = solar_position(given, lat, lon, elev_m)
+    cs = clearsky_irradiance(given, lat, lon, elev_m=elev_m, position=position)
+    lat_m = float(np.nanmean(np.broadcast_to(np.asarray(lat, float), (len(idx),)))) if len(idx) else 0.0
+    lon_m = float(np.nanmean(np.broadcast_to(np.asarray(lon, float), (len(idx),)))) if len(idx) else 0.0
+    days = idx.floor("D").unique()
+    noon_ghi = {}
+    for d in days:
+        fine = pd.date_range(d, periods=24 * 12, freq="5min")
+        c = clearsky_irradiance(fine, lat_m, lon_m, elev_m=float(np.nanmean(np.asarray(elev_m, float))))
+        noon_ghi[d] = float(c[C.GHI_WM2].max())
+    ref = np.array([noon_ghi[d] for d in idx.floor("D")], dtype=float)
+    kc = np.where(ref > 0, float(ghi_wm2) / np.where(ref > 0, ref, 1.0), 0.0)
+    if (kc > MAX_CLEAR_INDEX).any():
+        i = int(np.argmax(kc))
+        raise InputError(f"a global irradiance of {ghi_wm2:g} W/m² is {kc[i]:.2f}× the clear-sky value at the "
+                         f"highest sun of {idx[i].date()} here ({ref[i]:.0f} W/m²), more than any sky gives",
+                         where=where, fix=f"state at most {MAX_CLEAR_INDEX * ref[i]:.0f} W/m² (the value at the "
+                         "day's highest sun), or give a weather file with hourly irradiance")
+    ghi = kc * cs[C.GHI_WM2].to_numpy(float)
+    dec = decompose_ghi(ghi, position[C.SUN_ZENITH_DEG].to_numpy(float), given)
+    out = pd.DataFrame({C.GHI_WM2: ghi, C.DNI_WM2: dec[C.DNI_WM2].to_numpy(), C.DHI_WM2: dec[C.DHI_WM2].to_numpy()},
+                       index=given)
+    out.attrs["clear_index"] = {str(d.date()): round(float(ghi_wm2) / noon_ghi[d], 4) if noon_ghi[d] > 0 else None
+                                for d in days}
+    return out
