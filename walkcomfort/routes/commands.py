@@ -12,7 +12,8 @@ DESIGN_HELP = ("Put clock-time departures on a design day from the weather file:
                "closest to the NNth percentile of daily maxima, e.g. p95), or a date YYYY-MM-DD.")
 
 
-def _common(f):
+def route_options(f):
+    """The options shared by ``route``, ``compare`` and ``advise`` (inputs of a planned walk)."""
     opts = [
         click.option("-o", "--out", "out_dir", type=click.Path(path_type=Path), required=True,
                      help="Output folder."),
@@ -66,12 +67,10 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     """
     from walkcomfort import _io
     from walkcomfort.routes.compare import compare_schemes
-    from walkcomfort.routes.designday import design_day as pick_day
     from walkcomfort.routes.geometry import load_route
     from walkcomfort.routes.predict import Predictor
     from walkcomfort.routes.schemes import load_scheme
-    from walkcomfort.routes.timing import parse_departures
-    from walkcomfort.routes.weather import WeatherFile, open_weather, parse_conditions
+    from walkcomfort.routes.weather import open_weather, parse_conditions
 
     echo = echo or (lambda s: None)
     scene = None
@@ -88,23 +87,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     weather = open_weather(weather_path, parse_conditions(conditions), typical=not actual_year,
                            max_distance_km=max_station_km,
                            wind_height_m=logger_wind_height)
-    day = None
-    chosen = None
-    if design_day is not None:
-        if not isinstance(weather, WeatherFile):
-            raise InputError("a design day is picked from a weather file (EPW/TMY), none was given",
-                             where="--design-day", fix="give --weather with an EPW/TMY file, or full dates in --depart")
-        text = design_day.strip().lower()
-        if text == "hottest":
-            chosen = pick_day(weather, "hottest", months=season)
-        elif text.startswith("p") and text[1:].replace(".", "", 1).isdigit():
-            chosen = pick_day(weather, "percentile", percentile=float(text[1:]), months=season)
-        else:
-            chosen = pick_day(weather, "date", date=design_day, months=season)
-        day = chosen.date
-        typical = " of the file's typical year (the year stands for any year)" if weather.typical else ""
-        echo(f"design day {chosen.date}{typical} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
-    deps = parse_departures(list(departures), timezone=timezone, day=day)
+    deps, chosen, day_note = resolve_departures(weather, departures, timezone, design_day, season, echo)
     predictor = Predictor.from_bundle(model_path)
     for n in route.notices:
         echo(f"note: {n}")
@@ -120,8 +103,8 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     for n in result.notices:
         if n not in told:
             echo(f"note: {n}")
-    if chosen is not None:
-        result.notices.append(f"design day {chosen.date}{typical} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}")
+    if day_note:
+        result.notices.append(day_note)
     written = {}
     if out_dir is not None:
         inputs = [p for p in [route_path, scene_path, weather_path, *scheme_paths] if p is not None]
@@ -135,6 +118,37 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         prov = _io.provenance(inputs, params)
         written = _write(result, out_dir, prov, timezone)
     return result, written
+
+
+def resolve_departures(weather, departures, timezone, design_day, season, echo):
+    """Departure instants (UTC) from ``--depart``, put on a design day of the weather file if asked.
+
+    Returns
+    -------
+    (DatetimeIndex, DesignDay or None, str or None)
+        The departures, the design day picked, and the line that tells the user about it.
+    """
+    from walkcomfort.routes.designday import design_day as pick_day
+    from walkcomfort.routes.timing import parse_departures
+    from walkcomfort.routes.weather import WeatherFile
+
+    day = chosen = note = None
+    if design_day is not None:
+        if not isinstance(weather, WeatherFile):
+            raise InputError("a design day is picked from a weather file (EPW/TMY), none was given",
+                             where="--design-day", fix="give --weather with an EPW/TMY file, or full dates in --depart")
+        text = design_day.strip().lower()
+        if text == "hottest":
+            chosen = pick_day(weather, "hottest", months=season)
+        elif text.startswith("p") and text[1:].replace(".", "", 1).isdigit():
+            chosen = pick_day(weather, "percentile", percentile=float(text[1:]), months=season)
+        else:
+            chosen = pick_day(weather, "date", date=design_day, months=season)
+        day = chosen.date
+        typical = " of the file's typical year (the year stands for any year)" if weather.typical else ""
+        note = f"design day {chosen.date}{typical} (Tmax {chosen.t_max_c:.1f} °C): {chosen.detail}"
+        echo(note)
+    return parse_departures(list(departures), timezone=timezone, day=day), chosen, note
 
 
 def parse_walker(text: str | None) -> dict | None:
@@ -184,7 +198,7 @@ def _report(result, written, out_dir, timezone=None):
 @click.argument("route_path", metavar="ROUTE", type=click.Path(path_type=Path))
 @click.option("--scheme", "scheme_path", type=click.Path(path_type=Path), default=None,
               help="One shade scheme GeoJSON applied to the scene (default: the base scene).")
-@_common
+@route_options
 def route(route_path, scheme_path, **kw):
     """Predict comfort along one planned route for one scheme and one or many departures.
 
@@ -201,7 +215,7 @@ def route(route_path, scheme_path, **kw):
 @click.argument("route_path", metavar="ROUTE", type=click.Path(path_type=Path))
 @click.option("--scheme", "scheme_paths", type=click.Path(path_type=Path), multiple=True, required=True,
               help="Shade scheme GeoJSON; repeat for each scheme. The base scene is always included.")
-@_common
+@route_options
 def compare(route_path, scheme_paths, **kw):
     """Compare shade schemes side by side along a planned route (with the base scene).
 
