@@ -239,3 +239,18 @@ def test_timeline_page_documents_every_column_of_an_ingested_walk():
         if key in {"rows_read", "rows_used", "rows_quarantined", "reconciles"}:
             assert f"`{key}`" in text, f"timeline.md does not name qa summary key {key}"
     assert {"summary", "sources", "clocks"} <= set(tl.qa)
+
+
+# --- placement advice ----------------------------------------------------------------
+
+def test_advice_outputs_page_lists_exactly_the_files_and_ranked_columns():
+    from walkcomfort.routes.placement.advisor import Advice
+    from walkcomfort.routes.placement.outputs import FILES
+    from walkcomfort.routes.placement.select import Selection
+
+    documented = {n for row in table_rows("advice-outputs.md", "## Files") for n in names_in(row[0])}
+    assert documented == set(FILES)
+    cols = {n for row in table_rows("advice-outputs.md", "## `ranked_sites.csv` columns") for n in names_in(row[0])}
+    empty = Advice("heat-dose", "", Selection(), [], pd.DataFrame(), pd.DataFrame(), 0.0, pd.DatetimeIndex([]), [],
+                   1, None, 32.0)
+    assert cols == set(empty.ranked().columns)

@@ -32,6 +32,8 @@ VERBS: dict[str, tuple[str, str, str]] = {
     "evaluate": ("walkcomfort.model.commands", "evaluate", "Score a saved model bundle on labelled timelines."),
     "route": ("walkcomfort.routes.commands", "route", "Predict comfort along one planned route."),
     "compare": ("walkcomfort.routes.commands", "compare", "Compare shade schemes along a planned route."),
+    "advise": ("walkcomfort.routes.placement.commands", "advise",
+               "Choose where trees or canopy panels help most, for a budget."),
     "network": ("walkcomfort.network.commands", "network", "Batch every street segment x hour x scheme."),
     "map": ("walkcomfort.report.commands", "map_", "Write the HTML route map."),
     "report": ("walkcomfort.report.commands", "report", "Write HTML session or model reports."),
