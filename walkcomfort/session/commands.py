@@ -83,6 +83,7 @@ def ingest(session_dirs, out_dir, step_s, max_gap_s, lag_correction, write_csv, 
     """Align one or many session folders on one timeline each; write timeline, QA and quarantine."""
     from walkcomfort import _io
     from walkcomfort._progress import track
+    from walkcomfort.session.heat_safety import walk_heat_safety
     from walkcomfort.session.timeline import build_timeline, combine_campaign
 
     sessions = find_sessions(session_dirs)
@@ -99,10 +100,13 @@ def ingest(session_dirs, out_dir, step_s, max_gap_s, lag_correction, write_csv, 
         if tl.walk_id in {t.walk_id for t in done}:
             raise InputError(f"walk id '{tl.walk_id}' is used by two sessions", where=d / MANIFEST_NAME,
                              fix="give each session its own [session] id")
+        tl.qa["heat_safety"] = walk_heat_safety(tl.data)  # WBGT minutes above the walker's limit
         paths = tl.write(out_dir, csv=write_csv)
         done.append(tl)
         for line in summary_lines(tl):
             click.echo(line)
+        if tl.qa["heat_safety"]["caution"]:
+            click.echo(f"  {tl.qa['heat_safety']['caution']}")
         click.echo(f"  wrote {paths['timeline'].parent}")
     if campaign and done:
         table = combine_campaign(done)
