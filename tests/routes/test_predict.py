@@ -106,7 +106,8 @@ def test_empty_scheme_is_identical_to_base(street, scene):
     b = res.points[res.points["scheme"] == "nothing"].drop(columns="scheme")
     # a scheme with no edits leaves the scene as it is: identical rows (from the definition)
     pd.testing.assert_frame_equal(a, b, check_exact=True)
-    assert (res.comparison.filter(like="delta_") == 0).all().all()
+    deltas = res.comparison.filter(regex=r"^delta_.*(?<!_lo)(?<!_hi)$")
+    assert len(deltas.columns) > 5 and (deltas == 0).all().all()
 
 
 def test_sweep_gives_one_row_per_departure_and_minutes_add_up(street, scene):
@@ -233,3 +234,65 @@ def test_along_route_sections_show_where_a_scheme_helps(street, scene):
 
 def _scheme_named_half(edits):
     return scheme_from_geojson({"type": "FeatureCollection", "walkcomfort": {"scheme": "half"}, "features": edits})
+
+
+@pytest.fixture(scope="module")
+def folded_bundle(tmp_path_factory):
+    """A small fitted bundle with its 4 fold models (grouped validation by walker)."""
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.evaluate import training_table
+    from walkcomfort.model.workflow import fit_table, write_fit_outputs
+
+    table = training_table(synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900, seed=2))
+    folder = tmp_path_factory.mktemp("bundle")
+    write_fit_outputs(fit_table(table, n_estimators=30, n_boot=0, feature_set="planned"), folder)
+    return folder
+
+
+def test_scheme_differences_carry_intervals_and_the_flag(street, scene, folded_bundle):
+    from walkcomfort.routes.compare import DELTA_COLUMNS
+
+    pred = Predictor.from_bundle(folded_bundle)
+    assert pred.n_folds == 4
+    r = load_route(street, crs=scene.crs)
+    deps = parse_departures("2026-07-15T09:00..2026-07-15T17:00/4h", timezone=TZ)
+    res = compare_schemes(r, [tree_row_scheme()], deps, HOT, scene=scene, predictor=pred, explain=False)
+    cmp_ = res.comparison
+    for col in DELTA_COLUMNS:  # the contract: delta_<col>_lo / delta_<col>_hi beside every delta_<col>
+        lo, d, hi = (cmp_[f"delta_{col}{s}"].to_numpy(float) for s in ("_lo", "", "_hi"))
+        assert np.all(np.isfinite(lo)) and np.all(lo <= d + 1e-12) and np.all(d <= hi + 1e-12)
+    # model-free differences (shade, UTCI, heat dose) have no model error: zero-width intervals
+    np.testing.assert_allclose(cmp_["delta_heat_dose_cmin_lo"], cmp_["delta_heat_dose_cmin"])
+    np.testing.assert_allclose(cmp_["delta_shade_share_hi"], cmp_["delta_shade_share"])
+    # the model's comfortable minutes have a real spread across the fold models
+    assert (cmp_["delta_exp_min_comfortable_hi"] - cmp_["delta_exp_min_comfortable_lo"]).max() > 0
+    flag = cmp_["within_model_error"]
+    assert flag.dtype == "boolean"
+    expected = (cmp_["delta_exp_min_comfortable_lo"] <= 0) & (cmp_["delta_exp_min_comfortable_hi"] >= 0)
+    assert flag.astype(bool).tolist() == expected.tolist()
+    # the same walks with the full model and fold models predicted from one feature pass: the
+    # interval is centred on the full model's difference (jackknife: estimate ± t·se)
+    mid = (cmp_["delta_exp_min_comfortable_lo"] + cmp_["delta_exp_min_comfortable_hi"]) / 2
+    np.testing.assert_allclose(mid, cmp_["delta_exp_min_comfortable"], atol=1e-9)
+
+
+def test_without_fold_models_the_bounds_are_missing(street, scene):
+    r = load_route(street, crs=scene.crs)
+    res = compare_schemes(r, [tree_row_scheme()], parse_departures("2026-07-15T17:00", timezone=TZ), HOT,
+                          scene=scene)
+    cmp_ = res.comparison
+    assert cmp_["delta_exp_min_comfortable_lo"].isna().all() and cmp_["within_model_error"].isna().all()
+
+
+def test_delta_interval_is_the_delete_a_group_jackknife():
+    from scipy.stats import t as student_t
+
+    from walkcomfort.routes.compare import delta_interval
+
+    reps = np.array([[1.0, 2.0], [1.2, 2.0], [0.8, 2.0], [1.0, 2.0]])
+    lo, hi = delta_interval(np.array([1.0, 2.0]), reps)
+    # by hand: K = 4, replicates 1.0, 1.2, 0.8, 1.0 -> se = sqrt(3/4 · 0.08) ; t(3, 0.975) = 3.182 (tables)
+    se = np.sqrt(0.75 * 0.08)
+    assert student_t.ppf(0.975, 3) == pytest.approx(3.182, abs=1e-3)
+    np.testing.assert_allclose([lo[0], hi[0]], [1.0 - student_t.ppf(0.975, 3) * se, 1.0 + student_t.ppf(0.975, 3) * se])
+    assert lo[1] == hi[1] == 2.0

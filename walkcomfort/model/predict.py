@@ -37,6 +37,12 @@ def predictor_label(model) -> str:
 
 def predict_timeline(model, timeline: pd.DataFrame, reasons: bool = True, n_reasons: int = 3,
                      participants: dict | None = None) -> pd.DataFrame:
+    """Per-row comfort probabilities, class and reasons for a timeline (see :func:`predict_timeline_folds`)."""
+    return predict_timeline_folds(model, timeline, reasons, n_reasons, participants, folds=False)[0]
+
+
+def predict_timeline_folds(model, timeline: pd.DataFrame, reasons: bool = True, n_reasons: int = 3,
+                           participants: dict | None = None, folds: bool = True):
     """Per-row comfort probabilities, class and reasons for a timeline.
 
     Parameters
@@ -51,14 +57,19 @@ def predict_timeline(model, timeline: pd.DataFrame, reasons: bool = True, n_reas
         Reasons per row, joined by ``"; "``.
     participants : dict, optional
         Walker attributes when not in the timeline (see :func:`build_features`).
+    folds : bool
+        Also give the probabilities of the bundle's fold models (the features are built once).
 
     Returns
     -------
-    pandas.DataFrame
-        Index of ``timeline``; ``p_comfortable, p_neutral, p_uncomfortable`` (sum to 1),
+    (pandas.DataFrame, ndarray or None)
+        The table: index of ``timeline``; ``p_comfortable, p_neutral, p_uncomfortable`` (sum to 1),
         ``comfort_class``, ``predictor`` (``"model:<digest>"``), ``reasons``, and
         ``main_factors`` (the one or two feature families behind the class, in words; empty
-        without ``reasons``).
+        without ``reasons``). Then the fold models' probabilities, shape (folds, rows, 3) in
+        ``comfortable, neutral, uncomfortable`` order
+        (:func:`walkcomfort.model.uncertainty.fold_probabilities`), or None without fold models
+        or with ``folds=False``.
     """
     if isinstance(model, (str, os.PathLike)):
         from walkcomfort.model.bundle import load_bundle
@@ -88,4 +99,9 @@ def predict_timeline(model, timeline: pd.DataFrame, reasons: bool = True, n_reas
     else:
         out[REASONS] = ""
         out[MAIN_FACTORS] = ""
-    return out
+    fold_proba = None
+    if folds:
+        from walkcomfort.model.uncertainty import fold_probabilities
+
+        fold_proba = fold_probabilities(model, X, C.COMFORT_CLASSES)
+    return out, fold_proba

@@ -14,6 +14,16 @@ use). Heat dose is the time integral of UTCI above 26 °C (the upper edge of "no
 thermal stress", Bröde et al. 2012, doi:10.1007/s00484-011-0454-1) [°C·min].
 UTCI statistics are time-weighted.
 
+Every difference to the base carries an interval (``delta_<col>_lo``, ``delta_<col>_hi``):
+the same walks are predicted by each fold model of the bundle (each fitted without some
+walkers), the difference is recomputed with each, and the delete-a-group jackknife turns
+their spread into a 95 % interval (:mod:`walkcomfort.model.uncertainty`).
+``within_model_error`` is True when the interval of ``delta_exp_min_comfortable`` includes
+0: the scheme's effect on comfortable minutes is then not distinguishable from the model's
+error. Differences that do not depend on the model (shade, UTCI, Tmrt, heat dose) get a
+zero-width interval; without fold models (the physics rule, or an older bundle) the bounds
+are NaN and the flag is missing (<NA>).
+
 These are planning estimates from a model, not a safety assessment: heat-health
 decisions follow local public-health and occupational guidance.
 """
@@ -27,15 +37,16 @@ import pandas as pd
 
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
+from walkcomfort.model.uncertainty import includes_zero, jackknife_interval
 from walkcomfort.routes.geometry import Route
-from walkcomfort.routes.predict import COMFORT_CLASS, PREDICTOR, PROBA, Predictor, predict_route
+from walkcomfort.routes.predict import COMFORT_CLASS, PREDICTOR, PROBA, Predictor, predict_route_folds
 from walkcomfort.routes.schemes import BASE, Scheme, scheme_inventory
 from walkcomfort.routes.simulate import DEPARTURE, ROUTE_ID, SCHEME, STEP_S, simulate_timeline
+from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
+from walkcomfort.routes.weather import WeatherSource
 
 # model features that come from the walker (stated with --walker), not from sensors
 _WALKER_FEATURES = frozenset({C.CLO, C.ACCLIMATISED, "age_band_lower"})
-from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS
-from walkcomfort.routes.weather import WeatherSource
 
 #: Heat-dose threshold [°C]: the upper bound of the UTCI band "no thermal stress".
 DOSE_THRESHOLD_C = 26.0
@@ -117,27 +128,114 @@ def summarise(points: pd.DataFrame) -> pd.DataFrame:
     return pd.concat([keys, out.reset_index(drop=True)], axis=1)
 
 
-def compare_to_base(summary: pd.DataFrame, base: str = BASE) -> pd.DataFrame:
-    """Each scheme's summary beside the base at the same route and departure, with differences.
+#: The flag column: the interval of ``delta_exp_min_comfortable`` includes 0.
+WITHIN_MODEL_ERROR = "within_model_error"
+#: Two-sided coverage of the intervals on differences.
+INTERVAL_LEVEL = 0.95
+
+
+def delta_interval(delta, fold_deltas, level: float = INTERVAL_LEVEL) -> tuple[np.ndarray, np.ndarray]:
+    """Interval of a difference from its fold-model replicates (public: the street-network batch uses it).
+
+    Parameters
+    ----------
+    delta : array-like
+        Differences (scheme − base) computed with the bundle's model, any shape ``S``
+        (per walk, per segment × hour, …).
+    fold_deltas : array-like
+        The same differences computed with each fold model, shape ``(K, *S)``: predict the
+        same points with :meth:`Predictor.predict_folds`, aggregate each fold's probabilities
+        exactly as the model's, subtract the base's.
+    level : float
+        Two-sided coverage (default 95 %).
+
+    Returns
+    -------
+    (lo, hi) : ndarray
+        Shape ``S`` (delete-a-group jackknife, :func:`walkcomfort.model.uncertainty.jackknife_interval`);
+        NaN without at least 2 replicates. ``includes_zero(lo, hi)`` gives the "within model
+        error" flag.
+    """
+    return jackknife_interval(delta, fold_deltas, level)
+
+
+def within_model_error(lo, hi) -> pd.array:
+    """Nullable boolean: True where [lo, hi] includes 0, <NA> where there is no interval."""
+    flag = includes_zero(lo, hi)
+    return pd.array([pd.NA if np.isnan(f) else bool(f) for f in np.atleast_1d(flag)], dtype="boolean")
+
+
+def compare_to_base(summary: pd.DataFrame, base: str = BASE, fold_summaries=None,
+                    level: float = INTERVAL_LEVEL) -> pd.DataFrame:
+    """Each scheme's summary beside the base at the same route and departure, with differences and intervals.
+
+    Parameters
+    ----------
+    summary : DataFrame
+        From :func:`summarise`.
+    base : str
+        The scheme the others are compared with.
+    fold_summaries : list of DataFrame, optional
+        :func:`summarise` of the same points with each fold model's probabilities
+        (:func:`fold_summaries`); gives the intervals.
+    level : float
+        Coverage of the intervals.
 
     Returns
     -------
     DataFrame
-        The summary rows of the non-base schemes plus ``base_<col>`` and
-        ``delta_<col>`` (scheme − base) for :data:`DELTA_COLUMNS`.
+        The summary rows of the non-base schemes plus ``base_<col>``, ``delta_<col>``
+        (scheme − base), ``delta_<col>_lo`` and ``delta_<col>_hi`` for :data:`DELTA_COLUMNS`,
+        and ``within_model_error`` (nullable boolean).
     """
     if base not in set(summary[SCHEME]):
         raise InputError(f"no '{base}' rows to compare against", fix="include the base scene in the comparison")
-    b = summary[summary[SCHEME] == base].set_index([ROUTE_ID, DEPARTURE])
     others = summary[summary[SCHEME] != base].copy()
     if others.empty:
         return others
-    key = pd.MultiIndex.from_frame(others[[ROUTE_ID, DEPARTURE]])
+    folds = list(fold_summaries or [])
     for col in DELTA_COLUMNS:
-        base_vals = b[col].reindex(key).to_numpy(float)
+        base_vals, delta = _delta(summary, others, col, base)
         others[f"base_{col}"] = base_vals
-        others[f"delta_{col}"] = others[col].to_numpy(float) - base_vals
+        others[f"delta_{col}"] = delta
+        reps = np.array([_delta(f, others, col, base)[1] for f in folds]) if folds else np.zeros((0, len(others)))
+        lo, hi = delta_interval(delta, reps, level)
+        others[f"delta_{col}_lo"] = lo
+        others[f"delta_{col}_hi"] = hi
+    others[WITHIN_MODEL_ERROR] = within_model_error(others["delta_exp_min_comfortable_lo"].to_numpy(float),
+                                                    others["delta_exp_min_comfortable_hi"].to_numpy(float))
     return others.reset_index(drop=True)
+
+
+def _delta(summary: pd.DataFrame, rows: pd.DataFrame, col: str, base: str) -> tuple[np.ndarray, np.ndarray]:
+    """(base value, scheme − base) of ``col`` for ``rows``' keys, looked up in ``summary``."""
+    idx = summary.set_index([ROUTE_ID, SCHEME, DEPARTURE])[col]
+    keys = pd.MultiIndex.from_arrays([rows[ROUTE_ID], rows[SCHEME], rows[DEPARTURE]])
+    base_keys = pd.MultiIndex.from_arrays([rows[ROUTE_ID], np.full(len(rows), base, dtype=object), rows[DEPARTURE]])
+    base_vals = idx.reindex(base_keys).to_numpy(float)
+    return base_vals, idx.reindex(keys).to_numpy(float) - base_vals
+
+
+def fold_summaries(points: pd.DataFrame, fold_proba) -> list[pd.DataFrame]:
+    """:func:`summarise` of ``points`` once per fold model, with that model's probabilities.
+
+    ``fold_proba`` is (folds, rows, 3) in ``points``' row order and class order
+    ``comfortable, neutral, uncomfortable``; the class of a row is that model's most probable one.
+    """
+    if fold_proba is None or len(fold_proba) < 2:
+        return []
+    need = [*KEYS, STEP_S, C.UTCI_C, C.SHADE_FRAC, *(c for c in (C.SUN_ELEV_DEG, C.TMRT_C, C.DIST_M, PREDICTOR)
+                                                     if c in points.columns)]
+    base = points[need].copy()
+    out = []
+    classes = np.array(C.COMFORT_CLASSES, dtype=object)
+    for p in fold_proba:
+        f = base.copy()
+        for j, c in enumerate(C.COMFORT_CLASSES):
+            f[PROBA[c]] = p[:, j]
+        f[COMFORT_CLASS] = classes[np.argmax(p, axis=1)]
+        out.append(summarise(f))
+    return out
 
 
 #: Length of the route sections in :func:`along_route` [m].
@@ -267,7 +365,8 @@ class Comparison:
 def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, scene=None,
                     predictor: Predictor | None = None, include_base: bool = True,
                     flat_speed_ms: float = DEFAULT_FLAT_SPEED_MS, timezone: str | None = None,
-                    walker: dict | None = None, explain: bool = True, **env_kw) -> Comparison:
+                    walker: dict | None = None, explain: bool = True, intervals: bool = True,
+                    **env_kw) -> Comparison:
     """Predict one route under several schemes and compare them with the base scene.
 
     The walk (positions, times, weather) is simulated once and reused for every
@@ -281,6 +380,8 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
         The schemes; their names must be unique.
     include_base : bool, default True
         Add the base scene (needed for differences).
+    intervals : bool, default True
+        Predict with the bundle's fold models too, for the intervals on differences.
 
     Returns
     -------
@@ -297,10 +398,13 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
     timeline = simulate_timeline(route, departures, weather, flat_speed_ms=flat_speed_ms, timezone=timezone,
                                  walker=walker)
     tables = []
+    fold_parts = []
     inventories = {}
     for s in schemes:
-        tables.append(predict_route(route, None, weather, scene=scene, scheme=s, predictor=predictor,
-                                    explain=explain, timeline=timeline, **env_kw))
+        table, fold_proba = predict_route_folds(route, None, weather, scene=scene, scheme=s, predictor=predictor,
+                                                explain=explain, timeline=timeline, folds=intervals, **env_kw)
+        tables.append(table)
+        fold_parts.append(fold_proba)
         inventories[s.name] = scheme_inventory(scene, s) if scene is not None else scheme_inventory_empty()
     notices = _scene_coverage_notices(route, scene)
     if predictor.is_model:
@@ -322,7 +426,14 @@ def compare_schemes(route: Route, schemes, departures, weather: WeatherSource, s
     points.attrs = dict(tables[0].attrs)
     points.attrs["scheme"] = [s.name for s in schemes]
     summary = summarise(points)
-    comparison = compare_to_base(summary) if BASE in set(summary[SCHEME]) else summary.iloc[0:0]
+    folds = []
+    if fold_parts and all(f is not None for f in fold_parts):
+        folds = fold_summaries(points, np.concatenate(fold_parts, axis=1))
+    elif intervals and predictor.is_model:
+        notices.append("the model bundle carries no fold models, so scheme differences have no interval; re-fit it "
+                       "with this walkcomfort version (`walkcomfort fit`) to get them")
+    comparison = compare_to_base(summary, fold_summaries=folds) if BASE in set(summary[SCHEME]) \
+        else summary.iloc[0:0]
     best = best_departures(summary)
     cost = cost_effectiveness(comparison, inventories)
     points.attrs["notices"] = list(points.attrs.get("notices", [])) + notices

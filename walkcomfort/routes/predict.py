@@ -107,6 +107,11 @@ class Predictor:
         names = [str(c) for c in getattr(self.model, "feature_names_in_", X.columns)]
         return [c for c in names if c in X.columns and X[c].isna().all()]
 
+    @property
+    def n_folds(self) -> int:
+        """Fold models the bundle carries (0: no intervals on differences)."""
+        return len(getattr(self.model, "fold_models_", None) or []) if self.model is not None else 0
+
     def predict(self, timeline: pd.DataFrame, explain: bool = True) -> pd.DataFrame:
         """Class probabilities, class and reasons per timeline row.
 
@@ -116,15 +121,28 @@ class Predictor:
             Same index as ``timeline``: ``p_comfortable, p_neutral, p_uncomfortable``
             (sum to 1), ``comfort_class``, ``predictor``, ``reasons``.
         """
+        return self.predict_folds(timeline, explain=explain, folds=False)[0]
+
+    def predict_folds(self, timeline: pd.DataFrame, explain: bool = True, folds: bool = True):
+        """:meth:`predict` and, from the same features, the fold models' probabilities.
+
+        Returns
+        -------
+        (DataFrame, ndarray or None)
+            The prediction columns, and an array (folds, rows, 3) of ``p_comfortable,
+            p_neutral, p_uncomfortable`` by each fold model of the bundle (None for the
+            physics rule or a bundle without fold models). Differences computed with each
+            fold model give :func:`walkcomfort.routes.compare.delta_interval` its replicates.
+        """
         n = len(timeline)
         if self.model is None:
-            return _physics(timeline)
-        from walkcomfort.model.predict import predict_timeline
+            return _physics(timeline), None
+        from walkcomfort.model.predict import predict_timeline_folds
 
-        out = predict_timeline(self.model, timeline, reasons=explain)
+        out, fold_proba = predict_timeline_folds(self.model, timeline, reasons=explain, folds=folds)
         if len(out) != n:
             raise RuntimeError(f"the model gave {len(out)} rows for {n} timeline rows")
-        return out
+        return out, fold_proba
 
 
 def _physics(timeline: pd.DataFrame) -> pd.DataFrame:
@@ -149,6 +167,19 @@ def predict_route(route: Route, departures, weather: WeatherSource, scene=None, 
                   predictor: Predictor | None = None, flat_speed_ms: float = DEFAULT_FLAT_SPEED_MS,
                   timezone: str | None = None, walker: dict | None = None, explain: bool = True,
                   timeline: pd.DataFrame | None = None, **env_kw) -> pd.DataFrame:
+    """Per-point predicted comfort for one route, one scheme and one or many departures.
+
+    The table of :func:`predict_route_folds` (see there for the parameters), without the
+    fold models' probabilities.
+    """
+    return predict_route_folds(route, departures, weather, scene, scheme, predictor, flat_speed_ms, timezone,
+                               walker, explain, timeline, folds=False, **env_kw)[0]
+
+
+def predict_route_folds(route: Route, departures, weather: WeatherSource, scene=None, scheme: Scheme | None = None,
+                        predictor: Predictor | None = None, flat_speed_ms: float = DEFAULT_FLAT_SPEED_MS,
+                        timezone: str | None = None, walker: dict | None = None, explain: bool = True,
+                        timeline: pd.DataFrame | None = None, folds: bool = True, **env_kw):
     """Per-point predicted comfort for one route, one scheme and one or many departures.
 
     Parameters
@@ -176,15 +207,18 @@ def predict_route(route: Route, departures, weather: WeatherSource, scene=None, 
     timeline : DataFrame, optional
         A timeline from :func:`~walkcomfort.routes.simulate.simulate_timeline` for the
         same route and departures, to reuse across schemes (weather is computed once).
+    folds : bool, default True
+        Also predict with the bundle's fold models (:meth:`Predictor.predict_folds`).
     **env_kw
         Passed to the environment stage.
 
     Returns
     -------
-    DataFrame
+    (DataFrame, ndarray or None)
         The per-point prediction table (:data:`POINT_COLUMNS` then :data:`EXTRA_COLUMNS`
         where present); index ``time`` (UTC); ``attrs`` carry route, scheme, weather,
-        predictor and notices.
+        predictor and notices. Then the fold models' probabilities (folds, rows, 3) in the
+        table's row order, or None.
     """
     scheme = scheme or Scheme.base()
     if scene is None and not scheme.is_empty:
@@ -196,7 +230,7 @@ def predict_route(route: Route, departures, weather: WeatherSource, scene=None, 
         timeline = simulate_timeline(route, departures, weather, flat_speed_ms=flat_speed_ms, timezone=timezone,
                                      walker=walker)
     env = add_simulated_environment(timeline, scene=scene_s, **env_kw)
-    pred = predictor.predict(env, explain=explain)
+    pred, fold_proba = predictor.predict_folds(env, explain=explain, folds=folds)
     # assign by position: departures of a sweep may share instants, so the index can repeat
     table = env.copy()
     for c in pred.columns:
@@ -217,4 +251,4 @@ def predict_route(route: Route, departures, weather: WeatherSource, scene=None, 
                  "weather": getattr(weather, "label", ""), "predictor": predictor.label,
                  "notices": list(route.notices) + list(getattr(weather, "notices", []) or []),
                  "session": dict(timeline.attrs.get("session", {}))}
-    return out
+    return out, fold_proba
