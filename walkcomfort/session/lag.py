@@ -5,9 +5,22 @@ dT̃/dt = (T − T̃)/τ. Sampled at Δt with the true value held over each step
 exactly T̃[k] = a·T̃[k−1] + (1−a)·T[k], a = exp(−Δt/τ) (the zero-order-hold
 discretisation of a first-order lag; e.g. Doebelin, *Measurement Systems*, ch. 3,
 from memory). Its inverse T̂[k] = (T̃[k] − a·T̃[k−1])/(1−a) recovers T but
-multiplies noise by about 2/(1−a) ≈ 2τ/Δt, so the readings are smoothed (centred
-moving average) first; the two operations are linear and commute, so the result
-is the smoothed true temperature.
+multiplies noise by about 2/(1−a) ≈ 2τ/Δt, so the readings are smoothed first; the
+two operations are linear and commute, so the result is the smoothed true temperature.
+
+The smoothing is *causal* (a trailing mean): a corrected value uses no reading taken
+after it, so a change is never announced before it happens; the price is a delay of
+half the smoothing span (e.g. 15 s for a 30 s span, instead of the sensor's minutes).
+
+A globe's time constant falls as the air speed rises (its convective coefficient grows
+as V^0.6, ISO 7726), so a declared τ is taken as the value at
+:data:`TAU_REFERENCE_SPEED_MS` and scaled per sample by
+τ(V) = τ_ref·(h_c(V_ref) + h_r)/(h_c(V) + h_r), with h_c = 6.3 V^0.6/D^0.4 (ISO 7726) and
+h_r ≈ 6 W m⁻² K⁻¹ the radiative coefficient near 30 °C (4εσT³; from the definition).
+
+Noise: the inverse is a linear filter T̂[k] = Σ c_j y[k−j], so reading noise of standard
+deviation σ becomes σ·√Σc_j²; :func:`lag_uncertainty` reports it, with σ estimated from
+the readings' second differences (common practice for white noise on a smooth signal).
 """
 
 from __future__ import annotations
@@ -58,6 +71,62 @@ def first_order_response(true_values, dt_s, tau_s, initial=None) -> np.ndarray:
     return y
 
 
+#: Air speed at which a declared globe time constant holds [m s⁻¹] (the manifest's convention).
+TAU_REFERENCE_SPEED_MS = 1.0
+#: Radiative heat-transfer coefficient of a globe near 30 °C, 4εσT³ [W m⁻² K⁻¹].
+H_RADIATIVE = 6.0
+
+
+def tau_at_speed(tau_ref_s: float, air_speed_ms, diameter_m: float = 0.038) -> np.ndarray:
+    """A globe's time constant at each air speed, from the one declared at 1 m s⁻¹ [s]."""
+    def h(v):
+        return 6.3 * np.power(np.clip(np.asarray(v, float), 0.05, 20.0), 0.6) / diameter_m ** 0.4 + H_RADIATIVE
+    v = np.asarray(air_speed_ms, float)
+    ratio = h(TAU_REFERENCE_SPEED_MS) / h(np.where(np.isfinite(v), v, TAU_REFERENCE_SPEED_MS))
+    return float(tau_ref_s) * ratio
+
+
+def trailing_average(values, window: int) -> np.ndarray:
+    """Mean of the last ``window`` samples (fewer at the start); NaN-aware; never looks ahead."""
+    v = np.asarray(values, dtype=float)
+    w = max(int(window), 1)
+    ok = np.isfinite(v)
+    cs = np.concatenate([[0.0], np.cumsum(np.where(ok, v, 0.0))])
+    cc = np.concatenate([[0.0], np.cumsum(ok.astype(float))])
+    i = np.arange(1, v.size + 1)
+    lo = np.maximum(i - w, 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = (cs[i] - cs[lo]) / (cc[i] - cc[lo])
+    out[~ok] = np.nan
+    return out
+
+
+def lag_uncertainty(noise_k: float, a, window: int) -> np.ndarray:
+    """Standard deviation [K] the causal inverse gives to reading noise ``noise_k``.
+
+    The filter's weights are 1/(w(1−a)) on the newest reading, −a/(w(1−a)) on the
+    one w samples back and 1/w on the w−1 between; the output's standard deviation is
+    ``noise_k`` times the root of the sum of their squares.
+    """
+    a = np.asarray(a, float)
+    w = max(int(window), 1)
+    if w == 1:
+        s2 = (1.0 + a * a) / (1.0 - a) ** 2
+    else:
+        s2 = (1.0 / (w * (1 - a))) ** 2 + (a / (w * (1 - a))) ** 2 + (w - 1) * ((1 - a) / (w * (1 - a))) ** 2
+    return noise_k * np.sqrt(s2)
+
+
+def reading_noise(values) -> float:
+    """Standard deviation of white reading noise from second differences: std(Δ²y)/√6 [K]."""
+    v = np.asarray(values, float)
+    v = v[np.isfinite(v)]
+    if v.size < 5:
+        return 0.0
+    d2 = np.diff(v, 2)
+    return float(1.4826 * np.median(np.abs(d2 - np.median(d2))) / np.sqrt(6.0))
+
+
 def moving_average(values, window: int) -> np.ndarray:
     """Centred moving average over ``window`` samples (odd), shrinking at the ends; NaN-aware."""
     v = np.asarray(values, dtype=float)
@@ -77,36 +146,28 @@ def moving_average(values, window: int) -> np.ndarray:
 
 
 def inverse_first_order(readings, dt_s, tau_s, smooth_samples: int = 1) -> np.ndarray:
-    """Recover the true value from first-order sensor readings.
+    """Recover the true value from first-order sensor readings (causal; see the module notes).
 
-    Parameters
-    ----------
-    readings : array_like
-        Sensor readings [°C], evenly or unevenly sampled.
-    dt_s : float or array_like
-        Sampling interval [s] (scalar, or the interval before each sample).
-    tau_s : float
-        Sensor time constant [s].
-    smooth_samples : int
-        Centred moving-average window applied to the readings first (1 = none).
-
-    Returns
-    -------
-    ndarray
-        Estimated true values [°C]; the first sample is returned as read.
+    ``tau_s`` may be one value or one per sample (a time constant that follows air speed).
     """
-    y = moving_average(readings, smooth_samples)
+    y = np.asarray(readings, dtype=float)
     if y.size == 0:
-        return y
-    a = np.broadcast_to(_a(dt_s, tau_s), y.shape) if np.ndim(dt_s) else np.full(y.shape, _a(dt_s, tau_s))
-    out = np.empty_like(y)
-    out[0] = y[0]
-    out[1:] = (y[1:] - a[1:] * y[:-1]) / (1.0 - a[1:])
-    return out
+        return y.copy()
+    if np.ndim(tau_s):
+        tau = np.asarray(tau_s, float)
+        _a(dt_s, float(np.nanmin(tau)) if np.isfinite(tau).any() else None)
+        a = np.exp(-np.broadcast_to(np.asarray(dt_s, float), y.shape) / tau)
+    else:
+        a = np.broadcast_to(_a(dt_s, tau_s), y.shape) if np.ndim(dt_s) else np.full(y.shape, _a(dt_s, tau_s))
+    raw = np.empty_like(y)
+    raw[0] = y[0]
+    # the exact inverse sample by sample (exact also when tau changes), then the trailing mean
+    raw[1:] = (y[1:] - a[1:] * y[:-1]) / (1.0 - a[1:])
+    return trailing_average(raw, smooth_samples)
 
 
 def correct_lag(series: pd.Series, tau_s: float, smooth_s: float | None = None,
-                max_gap_s: float = 10.0) -> pd.Series:
+                max_gap_s: float = 10.0, air_speed_ms=None, diameter_m: float | None = None) -> pd.Series:
     """Lag-correct a time series, restarting after every gap longer than ``max_gap_s``.
 
     Parameters
@@ -120,6 +181,18 @@ def correct_lag(series: pd.Series, tau_s: float, smooth_s: float | None = None,
         inverse is time resolution of about this span.
     max_gap_s : float
         Larger spacing starts a new segment (the filter state is unknown across it).
+    air_speed_ms : array-like, optional
+        Air speed at the sensor per reading [m s⁻¹]; with ``diameter_m`` (a globe) the
+        time constant follows it (:func:`tau_at_speed`), ``tau_s`` being its value at 1 m s⁻¹.
+    diameter_m : float, optional
+        Globe diameter [m].
+
+    Returns
+    -------
+    Series
+        Corrected values; ``attrs["lag"]`` holds ``noise_k`` (reading noise estimated),
+        ``uncertainty_k`` (median standard deviation the correction gives that noise),
+        ``tau_s_median``, ``smooth_s`` and ``delay_s`` (half the smoothing span).
     """
     s = series.astype(float)
     if len(s) < 2:
@@ -130,6 +203,8 @@ def correct_lag(series: pd.Series, tau_s: float, smooth_s: float | None = None,
     span = (0.5 * tau_s) if smooth_s is None else smooth_s
     window = max(3, int(round(span / med))) if span > 0 else 1
     out = np.full(len(s), np.nan)
+    taus = (tau_at_speed(tau_s, air_speed_ms, diameter_m) if air_speed_ms is not None and diameter_m
+            else np.full(len(s), float(tau_s)))
     breaks = np.flatnonzero(dt > max_gap_s) + 1
     bounds = np.concatenate([[0], breaks, [len(s)]])
     vals = s.to_numpy()
@@ -138,8 +213,15 @@ def correct_lag(series: pd.Series, tau_s: float, smooth_s: float | None = None,
             out[lo:hi] = vals[lo:hi]
             continue
         d = np.concatenate([[med], dt[lo:hi - 1]])
-        out[lo:hi] = inverse_first_order(vals[lo:hi], d, tau_s, smooth_samples=window)
-    return pd.Series(out, index=s.index, name=s.name)
+        out[lo:hi] = inverse_first_order(vals[lo:hi], d, taus[lo:hi], smooth_samples=window)
+    res = pd.Series(out, index=s.index, name=s.name)
+    noise = reading_noise(vals)
+    a = np.exp(-med / taus)
+    res.attrs["lag"] = {"noise_k": round(noise, 4),
+                        "uncertainty_k": round(float(np.nanmedian(lag_uncertainty(noise, a, window))), 4),
+                        "tau_s_median": round(float(np.nanmedian(taus)), 2),
+                        "smooth_s": round(window * med, 2), "delay_s": round(0.5 * (window - 1) * med, 2)}
+    return res
 
 
 def settling_mask(sample_times: pd.DatetimeIndex, step_times: pd.DatetimeIndex, tau_s: float | None,

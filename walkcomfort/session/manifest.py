@@ -76,6 +76,13 @@ SENSOR_KEYS: dict[str, tuple[float, float, float | None]] = {
     "tau_globe_s": (0.0, 7200.0, None),
     "camera_hfov_deg": (1.0, 360.0, None),
 }
+# [sensors] keys with a choice of words: key -> (choices, default). globe_type names the
+# globe's published calibration (environment.globe); anemometer says whether the wind
+# sensor moved with the walker (reads air speed relative to them) or stood still.
+SENSOR_CHOICES: dict[str, tuple[tuple[str, ...], str | None]] = {
+    "globe_type": (("black_150mm", "grey_38mm"), None),
+    "anemometer": (("carried", "fixed"), "carried"),
+}
 
 
 @dataclass(frozen=True)
@@ -267,10 +274,16 @@ def parse_manifest(data: dict, session_dir: str | os.PathLike, manifest_name: st
         attributes["acclimatised"] = v
 
     sens = _table(data, "sensors", m)
-    _no_unknown(sens, tuple(SENSOR_KEYS), m, "[sensors]")
-    sensors: dict[str, float | None] = {}
+    _no_unknown(sens, tuple(SENSOR_KEYS) + tuple(SENSOR_CHOICES), m, "[sensors]")
+    sensors: dict = {}
     for key, (lo, hi, default) in SENSOR_KEYS.items():
         sensors[key] = _number(sens, key, m, "[sensors]", lo=lo, hi=hi) if key in sens else default
+    for key, (choices, default) in SENSOR_CHOICES.items():
+        val = sens.get(key, default)
+        if val is not None and val not in choices:
+            raise InputError(f"{key} = {val!r} is not known", where=f"{m} [sensors] {key}",
+                             fix=f"write one of {', '.join(repr(c) for c in choices)}")
+        sensors[key] = val
 
     sources = _sources(data, folder, m, tz)
     source_devices = {s.device for s in sources}

@@ -74,6 +74,7 @@ CONTINUOUS = ("weather", "noise", "light")
 #: Attributes in ``.data.attrs["session"]`` (and the Parquet metadata).
 SESSION_ATTRS = ("walk_id", "participant", "timezone", "site", "wind_height_m", "globe_height_m",
                  "globe_diameter_m", "globe_emissivity", "tau_air_s", "tau_globe_s", "camera_hfov_deg",
+                 "globe_type", "anemometer",
                  "age_band", "clo", "acclimatised", "activity", "step_s", "lag_corrected", "session_dir")
 TIMELINE_FILE, QA_FILE, QUARANTINE_FILE = "timeline.parquet", "qa.json", "quarantine.csv"
 
@@ -399,7 +400,8 @@ def build_timeline(session_dir, step_s: float = 1.0, max_gap_s: float = 10.0, *,
     attrs = {
         "walk_id": spec.id, "participant": spec.participant, "timezone": spec.timezone, "site": spec.site,
         **{k: spec.sensors.get(k) for k in ("wind_height_m", "globe_height_m", "globe_diameter_m",
-                                           "globe_emissivity", "tau_air_s", "tau_globe_s", "camera_hfov_deg")},
+                                           "globe_emissivity", "tau_air_s", "tau_globe_s", "camera_hfov_deg",
+                                           "globe_type", "anemometer")},
         **spec.attributes, "step_s": float(step_s), "lag_corrected": bool(lag_done),
         "session_dir": Path(spec.session_dir).resolve().as_posix(),
     }
