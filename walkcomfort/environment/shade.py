@@ -154,10 +154,7 @@ def segment_polygon_crossings(obs: Obstacles, ob, ax, ay, bx, by, want_t: bool =
             cross = (den != 0) & (tt >= 0) & (tt <= 1) & (uu >= 0) & (uu <= 1)
         m = hi - lo
         n_cross[sl] = np.bincount(rep, weights=cross, minlength=m).astype(np.int64)
-        if may_start_inside is None:
-            sub = slice(None)
-        else:
-            sub = np.flatnonzero(np.asarray(may_start_inside[sl])[rep])
+        sub = slice(None) if may_start_inside is None else np.flatnonzero(np.asarray(may_start_inside[sl])[rep])
         if may_start_inside is None or sub.size:
             py_, px_ = pay[sub], pax[sub]
             y1, y2, x1 = e1y[sub], e2y[sub], e1x[sub]
