@@ -191,3 +191,14 @@ def test_advise_without_a_budget_is_one_line(street, capsys):
     err = capsys.readouterr().err
     assert code == 2
     assert "--count/--cost" in err and len(err.strip().splitlines()) == 1
+
+
+def test_the_advisor_response_reproduces_the_chain_on_the_base_scene(street):
+    # the advisor re-evaluates Tmrt and UTCI for a new beam transmittance; with the base beam it
+    # must give back exactly what the environment chain gave the walk (same formulas, same inputs)
+    from walkcomfort.routes.placement.select import environment_with_beam
+
+    table = add_scene_xy(walk_table([street["walk"]]), street["scene"])
+    tmrt, utci = environment_with_beam(table, np.arange(len(table)), table["beam_trans_frac"].to_numpy(float))
+    np.testing.assert_allclose(tmrt, table["tmrt_c"].to_numpy(float), atol=1e-9)
+    np.testing.assert_allclose(utci, table["utci_c"].to_numpy(float), atol=1e-9)
