@@ -56,9 +56,34 @@ class Advice:
                          "lon": o.lon, "lat": o.lat, "marginal_gain": g, "cumulative_gain": cum_gain,
                          "cost": o.cost, "cumulative_cost": cum_cost, "gain_per_cost": g / o.cost,
                          "shaded_rows_n": int(o.rows.size)})
-        return pd.DataFrame(rows, columns=["rank", "site_id", "intervention", "lon", "lat", "marginal_gain",
-                                           "cumulative_gain", "cost", "cumulative_cost", "gain_per_cost",
-                                           "shaded_rows_n"])
+        out = pd.DataFrame(rows, columns=["rank", "site_id", "intervention", "lon", "lat", "marginal_gain",
+                                          "cumulative_gain", "cost", "cumulative_cost", "gain_per_cost",
+                                          "shaded_rows_n"])
+        lo, hi, clo, chi = self.intervals()
+        out["marginal_gain_lo"], out["marginal_gain_hi"] = lo, hi
+        out["cumulative_gain_lo"], out["cumulative_gain_hi"] = clo, chi
+        return out
+
+    def intervals(self, level: float = 0.95):
+        """95 % intervals of marginal and cumulative gains from the model's fold replicates.
+
+        Delete-a-group jackknife over the bundle's fold models (the same intervals as the
+        scheme comparison, :func:`walkcomfort.routes.compare.delta_interval`); NaN for the
+        physics objectives, which have no model error to carry.
+        """
+        from walkcomfort.routes.compare import delta_interval
+
+        sel = self.selection
+        n = len(sel.chosen)
+        nan = np.full(n, np.nan)
+        folds = sel.fold_gains
+        if not n or any(f is None for f in folds):
+            return nan, nan.copy(), nan.copy(), nan.copy()
+        reps = np.stack(folds, axis=1)                   # (K, n)
+        gains = np.asarray(sel.gains, float)
+        lo, hi = delta_interval(gains, reps, level)
+        clo, chi = delta_interval(np.cumsum(gains), np.cumsum(reps, axis=1), level)
+        return lo, hi, clo, chi
 
     def runners_up(self, n: int = 10) -> pd.DataFrame:
         """The best options not taken, by their last evaluated marginal gain."""

@@ -142,6 +142,7 @@ class Selection:
 
     chosen: list[Option] = field(default_factory=list)
     gains: list[float] = field(default_factory=list)
+    fold_gains: list = field(default_factory=list)  # per chosen item: gains by each fold model, or None
     evaluations: int = 0
     last_gain: dict[int, float] = field(default_factory=dict)
     note: str = ""
@@ -187,6 +188,7 @@ def greedy(options: list[Option], objective, max_count: int | None = None,
         objective.commit(o)
         sel.chosen.append(o)
         sel.gains.append(g)
+        sel.fold_gains.append(getattr(objective, "last_commit_folds", None))
         spent += o.cost
     if by_cost:
         _compare_best_single(options, objective, sel, max_cost)
@@ -201,7 +203,7 @@ def _compare_best_single(options, objective, sel: Selection, max_cost: float) ->
     best = max(affordable, key=lambda o: objective.gain(o))
     g = objective.gain(best)
     if g > sel.total:
-        sel.chosen, sel.gains = [best], [g]
+        sel.chosen, sel.gains, sel.fold_gains = [best], [g], [None]
         sel.note = "a single item beat the greedy set under this cost budget and was kept instead"
     objective.reset()
     for o in sel.chosen:
@@ -261,13 +263,20 @@ class ComfortObjective:
         w[C.SHADE_FRAC] = 1.0 - beam_rows
         w[C.TMRT_C], w[C.UTCI_C] = tmrt, utci
         w[C.UTCI_BAND] = np.asarray(utci_band(utci), dtype=object)
-        p = self.predictor.predict(w, explain=False)["p_comfortable"].to_numpy(float)
-        return float((p * self.weight[rows]).sum())
+        out, folds = self.predictor.predict_folds(w, explain=False)
+        wt = self.weight[rows]
+        value = float((out["p_comfortable"].to_numpy(float) * wt).sum())
+        if folds is not None:
+            self.trial_folds[key] = (folds[:, :, 0] * wt[None, :]).sum(axis=1)
+        return value
 
     def reset(self) -> None:
         self.beam = self.base_beam.copy()
+        self.trial_folds: dict = {}
         self.value = {k: self.walk_value(k, self.beam[r]) for k, r in self.rows_of.items()}
+        self.fold_value = dict(self.trial_folds)
         self.base_total = float(sum(self.value.values()))
+        self.last_commit_folds = None
 
     def _trial(self, opt: Option) -> dict:
         out = {}
@@ -285,15 +294,22 @@ class ComfortObjective:
         return float(sum(v - self.value[k] for k, (_, v) in self._trial(opt).items()))
 
     def commit(self, opt: Option) -> None:
+        self.trial_folds = {}
+        fold_gain = None
         for k, (beam, v) in self._trial(opt).items():
             self.beam[self.rows_of[k]] = beam
             self.value[k] = v
+            if k in self.trial_folds and k in self.fold_value:
+                d = self.trial_folds[k] - self.fold_value[k]
+                fold_gain = d if fold_gain is None else fold_gain + d
+                self.fold_value[k] = self.trial_folds[k]
+        self.last_commit_folds = fold_gain
 
     def set_gain(self, chosen: list[Option]) -> float:
-        saved = (self.beam.copy(), dict(self.value))
+        saved = (self.beam.copy(), dict(self.value), dict(self.fold_value))
         self.reset()
         for o in chosen:
             self.commit(o)
         g = float(sum(self.value.values()) - self.base_total)
-        self.beam, self.value = saved
+        self.beam, self.value, self.fold_value = saved
         return g
