@@ -202,3 +202,41 @@ def test_the_advisor_response_reproduces_the_chain_on_the_base_scene(street):
     tmrt, utci = environment_with_beam(table, np.arange(len(table)), table["beam_trans_frac"].to_numpy(float))
     np.testing.assert_allclose(tmrt, table["tmrt_c"].to_numpy(float), atol=1e-9)
     np.testing.assert_allclose(utci, table["utci_c"].to_numpy(float), atol=1e-9)
+
+
+@pytest.fixture(scope="module")
+def small_bundle(tmp_path_factory):
+    """A small fitted bundle with its fold models (as in the route prediction tests)."""
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.evaluate import training_table
+    from walkcomfort.model.workflow import fit_table, write_fit_outputs
+
+    table = training_table(synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900, seed=2))
+    folder = tmp_path_factory.mktemp("bundle")
+    write_fit_outputs(fit_table(table, n_estimators=30, n_boot=0, feature_set="planned"), folder)
+    return folder
+
+
+def test_comfort_objective_gains_carry_the_fold_interval(street, small_bundle):
+    from walkcomfort.routes.predict import Predictor
+
+    pred = Predictor.from_bundle(small_bundle)
+    sites = sites_along_routes([street["route"]], street["scene"], offset_m=3, spacing_m=10)
+    adv = advise([street["walk"]], street["scene"], sites, TREE, objective="comfort", max_count=2,
+                 predictor=pred)
+    ranked = adv.ranked()
+    assert len(ranked) >= 1
+    lo, g, hi = ranked["marginal_gain_lo"], ranked["marginal_gain"], ranked["marginal_gain_hi"]
+    assert np.isfinite(lo).all() and (lo <= g + 1e-12).all() and (g <= hi + 1e-12).all()
+    # the physics objective has no model error to carry
+    phys = advise([street["walk"]], street["scene"], sites, TREE, max_count=2).ranked()
+    assert phys["marginal_gain_lo"].isna().all()
+
+
+def test_comfort_objective_without_a_model_is_refused(street):
+    from walkcomfort.routes.predict import Predictor
+
+    sites = sites_along_routes([street["route"]], street["scene"], offset_m=3, spacing_m=10)
+    with pytest.raises(InputError, match="needs a comfort model"):
+        advise([street["walk"]], street["scene"], sites, TREE, objective="comfort", max_count=2,
+               predictor=Predictor(None))
