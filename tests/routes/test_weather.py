@@ -7,13 +7,13 @@ import pandas as pd
 import pytest
 
 from walkcomfort import columns as C
+from walkcomfort.environment.sky import cloud_scaled_ghi
 from walkcomfort.errors import InputError
 from walkcomfort.routes.designday import daily_max_temperature, design_day
 from walkcomfort.routes.weather import (
     LoggerSeries,
     StatedConditions,
     WeatherFile,
-    cloud_scaled_ghi,
     open_weather,
     read_weather_file,
 )

@@ -43,7 +43,8 @@ DEFAULT_T_AIR_C = 12.0
 ATMOS_REFRACT_DEG = 0.5667
 
 
-def _utc_index(times, where: str = "times") -> pd.DatetimeIndex:
+def utc_index(times, where: str = "times") -> pd.DatetimeIndex:
+    """Instants as a UTC DatetimeIndex; naive instants are refused (InputError naming ``where``)."""
     idx = pd.DatetimeIndex(times)
     if idx.tz is None:
         raise InputError("times are naive (no time zone)", where=where,
@@ -96,7 +97,7 @@ def solar_position(times, lat, lon, elev_m=0.0, pressure_hpa=None, t_air_c=None,
     Reda & Andreas (2004), doi:10.1016/j.solener.2003.12.003; pvlib ``spa``.
     """
     given = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
-    idx = _utc_index(given)
+    idx = utc_index(given)
     n = len(idx)
     lat_a = np.broadcast_to(np.asarray(lat.to_numpy(dtype=float, na_value=np.nan) if isinstance(lat, pd.Series)
                                        else lat, dtype=float), (n,))
@@ -179,7 +180,7 @@ def extraterrestrial_irradiance(times) -> pd.Series:
         Irradiance at the top of the atmosphere on a plane normal to the sun [W m⁻²].
     """
     idx = pd.DatetimeIndex(times)
-    _utc_index(idx)
+    utc_index(idx)
     doy = np.asarray(idx.day_of_year, dtype=float)  # day numbers, not the index (pandas deprecations)
     e0 = np.asarray(pvlib.irradiance.get_extra_radiation(np.nan_to_num(doy, nan=1.0)), dtype=float)
     return pd.Series(np.where(np.isnan(doy), np.nan, e0), index=idx, name="dni_extra_wm2")
@@ -238,7 +239,7 @@ def clearsky_irradiance(times, lat, lon, elev_m=0.0, linke_turbidity=None, posit
     Ineichen & Perez (2002), doi:10.1016/S0038-092X(02)00045-2.
     """
     given = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
-    idx = _utc_index(given)
+    idx = utc_index(given)
     n = len(idx)
     if position is None:
         position = solar_position(given, lat, lon, elev_m)
@@ -313,7 +314,7 @@ def decompose_ghi(ghi_wm2, sun_zenith_deg, times, min_cos_zenith: float = 0.065,
     Erbs et al. (1982), doi:10.1016/0038-092X(82)90302-4; pvlib ``irradiance.erbs``.
     """
     given = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
-    idx = _utc_index(given)
+    idx = utc_index(given)
     index = first_index(ghi_wm2, sun_zenith_deg)
     index = given if index is None else index
     ghi = np.maximum(np.asarray(ghi_wm2, dtype=float), 0.0)

@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from walkcomfort.errors import InputError
+from walkcomfort.routes.weather import FORMAT_CHOICES
 
 DESIGN_HELP = ("Put clock-time departures on a design day from the weather file: 'hottest', 'pNN' (the day "
                "closest to the NNth percentile of daily maxima, e.g. p95), or a date YYYY-MM-DD.")
@@ -24,10 +25,17 @@ def route_options(f):
                           "(e.g. 08:00..18:00/1h). Repeatable."),
         click.option("--timezone", default=None, help="IANA zone for departures without an offset and for reports."),
         click.option("--weather", "weather_path", type=click.Path(path_type=Path), default=None,
-                     help="EPW, TMY2 (.tm2) or TMY3 (.csv) file, or a logger series (.csv/.parquet)."),
+                     help="Weather file (EPW, TMY2, TMY3, PVGIS typical year or hourly CSV/JSON, NSRDB PSM CSV, "
+                          "MIDC, SURFRAD, USCRN; recognised from its content), a logger CSV or a timeline.parquet."),
+        click.option("--weather-format", type=click.Choice(FORMAT_CHOICES), default=None,
+                     help="Read --weather as this format instead of recognising it from the content."),
+        click.option("--weather-map", type=click.Path(path_type=Path), default=None,
+                     help="TOML column map for a logger CSV given as --weather (the keys of a session "
+                          "manifest's weather [[source]] table, plus timezone and wind_height_m)."),
         click.option("--conditions", default=None,
                      help="Stated weather instead of a file: 't_air_c=33,rh_pct=30,wind_ms=1.5"
-                          "[,wind_height_m=10][,cloud_frac=0.2|ghi_wm2=800]'."),
+                          "[,wind_height_m=10][,cloud_frac=0.2|ghi_wm2=800]'. With --weather, only fills "
+                          "what the file lacks (e.g. 'rh_pct=40')."),
         click.option("--design-day", default=None, help=DESIGN_HELP),
         click.option("--season", default=None, help="Months for the design-day rule, e.g. 6-8."),
         click.option("--model", "model_path", type=click.Path(path_type=Path), default=None,
@@ -44,7 +52,8 @@ def route_options(f):
         click.option("--max-station-km", type=float, default=50.0, show_default=True,
                      help="Refuse a weather file whose station is farther from the route [km]."),
         click.option("--logger-wind-height", type=float, default=None,
-                     help="Wind sensor height of a logger series [m] (if the file does not say)."),
+                     help="Wind sensor height of the weather data [m] (a logger, or a station file whose format "
+                          "does not state it)."),
         click.option("--walker", default=None,
                      help="Walker attributes the model may use: 'clo=0.5,acclimatised=1,age_band=25-34'."),
         click.option("--no-reasons", is_flag=True, help="Skip per-point explanations (faster)."),
@@ -58,7 +67,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
                    weather_path=None, conditions=None, design_day=None, season=None, model_path=None,
                    spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
                    logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None,
-                   actual_year=False):
+                   actual_year=False, weather_format=None, weather_map=None):
     """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
 
     Returns
@@ -84,9 +93,9 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     if schemes and scene is None:
         raise InputError(f"scheme '{schemes[0].name}' edits a scene, but no scene was given", where=scheme_paths[0],
                          fix="give the base scene with --scene")
-    weather = open_weather(weather_path, parse_conditions(conditions), typical=not actual_year,
-                           max_distance_km=max_station_km,
-                           wind_height_m=logger_wind_height)
+    weather = open_weather(weather_path, parse_conditions(conditions, complete=weather_path is None),
+                           fmt=weather_format, column_map=weather_map, typical=False if actual_year else None,
+                           max_distance_km=max_station_km, wind_height_m=logger_wind_height)
     deps, chosen, day_note = resolve_departures(weather, departures, timezone, design_day, season, echo)
     predictor = Predictor.from_bundle(model_path)
     for n in route.notices:
@@ -107,7 +116,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         result.notices.append(day_note)
     written = {}
     if out_dir is not None:
-        inputs = [p for p in [route_path, scene_path, weather_path, *scheme_paths] if p is not None]
+        inputs = [p for p in [route_path, scene_path, weather_path, weather_map, *scheme_paths] if p is not None]
         if model_path is not None:
             inputs += sorted(p for p in Path(model_path).iterdir() if p.is_file())
         params = {"departures": [d.isoformat() for d in deps], "timezone": timezone, "conditions": conditions,

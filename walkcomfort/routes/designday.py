@@ -51,14 +51,18 @@ class DesignDay:
 
 
 def daily_max_temperature(weather: WeatherFile) -> pd.Series:
-    """Daily maximum air temperature [°C] by local-standard-time calendar day.
+    """Daily maximum air temperature [°C] by calendar day in the file's own time (local standard or UTC).
 
-    The hourly temperature at an hour's end is assigned to the day of that hour's
-    start, so 24:00 closes the day it ends.
+    A temperature stamped at an interval's end (EPW, TMY) is assigned to the day of that
+    interval's start, so 24:00 closes the day it ends; instants (PVGIS, NSRDB) belong to
+    their own day.
     """
     d = weather.data
     off = pd.Timedelta(hours=weather.meta["utc_offset_h"])
-    start_local = d.index.tz_localize(None) + off - pd.Timedelta(hours=1)
+    t = weather.meta["time"]
+    # a value stamped at an interval's end belongs to the day the interval starts in
+    back = pd.Timedelta(seconds=t["interval_s"]) if t["label"] == "interval_end" else pd.Timedelta(0)
+    start_local = d.index.tz_localize(None) + off - back
     s = pd.Series(d[C.T_AIR_C].to_numpy(float), index=start_local)
     out = s.groupby(start_local.normalize()).max()
     out.index = out.index.date

@@ -99,7 +99,9 @@ def run_advice(route_paths, out_dir, echo=None, **kw) -> dict:
     scene = load_scene(kw["scene_path"])
     routes = [load_route(p, spacing_m=kw["spacing_m"], dem=kw["dem"], route_id=kw["route_id"], crs=scene.crs)
               for p in route_paths]
-    weather = open_weather(kw["weather_path"], parse_conditions(kw["conditions"]), typical=not kw["actual_year"],
+    weather = open_weather(kw["weather_path"], parse_conditions(kw["conditions"], complete=kw["weather_path"] is None),
+                           fmt=kw["weather_format"], column_map=kw["weather_map"],
+                           typical=False if kw["actual_year"] else None,
                            max_distance_km=kw["max_station_km"], wind_height_m=kw["logger_wind_height"])
     deps, chosen, _ = resolve_departures(weather, kw["departures"], kw["timezone"], kw["design_day"], kw["season"],
                                          echo)
