@@ -233,3 +233,36 @@ def test_logger_from_an_ingested_timeline_parquet(tmp_path):
     # the measured global irradiance is kept and split into beam and diffuse (Erbs)
     assert c[C.GHI_WM2].iloc[0] == pytest.approx(800.0)
     assert c[C.DNI_WM2].iloc[0] > 0 and c[C.DHI_WM2].iloc[0] > 0
+
+
+def test_logger_csv_through_a_column_map(tmp_path):
+    # a met-station export in its own columns and units, naive local times (Madrid, UTC+2 in July)
+    rows = ["DateTime;Temp_F;RH;Wind_kmh"] + [f"15/07/2026 14:{m:02d};{86 + m / 10:.1f};40;7,2".replace(".", ",")
+                                               for m in range(0, 60, 10)]
+    csv = tmp_path / "station.csv"
+    csv.write_text("\n".join(rows) + "\n")
+    cmap = tmp_path / "station.toml"
+    cmap.write_text('timezone = "Europe/Madrid"\nwind_height_m = 2.0\ntime_format = "%d/%m/%Y %H:%M"\n'
+                    'delimiter = ";"\ndecimal = ","\n'
+                    '[columns]\ntime = "DateTime"\nt_air = "Temp_F"\nrh = "RH"\nwind = "Wind_kmh"\n'
+                    '[units]\nt_air = "degF"\nwind = "km/h"\n')
+    src = open_weather(csv, column_map=cmap)
+    assert isinstance(src, LoggerSeries) and src.wind_height_m == 2.0
+    c = src.conditions(pd.DatetimeIndex(["2026-07-15T12:10Z"]), 40.4, -3.7)
+    # 14:10 Madrid = 12:10 UTC: 87.0 °F = 30.5556 °C; 7.2 km/h = 2 m/s (unit definitions)
+    assert c[C.T_AIR_C].iloc[0] == pytest.approx((87.0 - 32) / 1.8)
+    assert c[C.WIND_MS].iloc[0] == pytest.approx(2.0)
+    bad = tmp_path / "nozone.toml"
+    bad.write_text('[columns]\ntime = "DateTime"\nt_air = "Temp_F"\n[units]\nt_air = "degF"\n')
+    with pytest.raises(InputError, match="names none"):
+        open_weather(csv, column_map=bad)
+    with pytest.raises(InputError, match="--weather-map"):
+        open_weather(csv, wind_height_m=2.0)  # no map: not our columns, not a weather-file format
+
+
+def test_weather_file_and_statement_fill_only_what_is_missing(greensboro_tmy3):
+    w = open_weather(greensboro_tmy3, {"rh_pct": 5.0})
+    t = pd.DatetimeIndex(["2026-07-09T15:00-05:00"])
+    # the file has humidity: the statement is not used
+    assert w.conditions(t, *GSO)[C.RH_PCT].iloc[0] != 5.0 and not w.fill
+    assert w.describe()["time"]["irradiance"] == "interval_mean"

@@ -65,8 +65,10 @@ def read_mapped_logger(path: Path, map_path: str | os.PathLike) -> tuple[pd.Data
         raise InputError("naive logger times are read in the local zone, but the map names none", where=map_path,
                          fix='add timezone = "Europe/Madrid" (IANA), or time_zone = "UTC" if the logger runs on UTC')
     source = {"kind": "weather", "path": path.name, "device": "logger", "format": "csv", **spec}
+    # the manifest validator wants the GPS track a walk is laid along; this one is never read
+    track = {"kind": "gps", "path": path.name, "device": "gps", "format": "csv"}
     manifest = {"schema": SCHEMA, "session": {"id": "weather", "participant": "-", "timezone": tz or "UTC"},
-                "source": [source]}
+                "source": [source, track]}
     if height is not None:
         manifest["sensors"] = {"wind_height_m": height}
     session = parse_manifest(manifest, path.parent, manifest_name=str(map_path))

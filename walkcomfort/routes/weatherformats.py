@@ -168,9 +168,13 @@ def _load_epw(buffer) -> Loaded:
     # (e.g. "-0.8239" h before the hour-ending stamp): instants, not hour means
     m = _EPW_OFFSET.search("\n".join(text.splitlines()[:8]))
     if m:
+        # PVGIS states that offset against the file's hour number read as UTC (h:00Z), while its
+        # values sit at the instants its CSV/JSON twins give, (h-1):00Z = our stamp when the
+        # LOCATION zone is +1; in general the irradiance instant is our UTC stamp + zone + offset
+        # (checked on the twins of one PVGIS download: the same values, the same instants)
         units.update({k: "instant at the stamp plus the file's irradiance time offset" for k in IRRADIANCE_COLUMNS})
         return Loaded(data, site, units, label_shift_h=1.0, irradiance="instant",
-                       irradiance_offset_s=float(m.group(1)) * 3600.0)
+                      irradiance_offset_s=(float(m.group(1)) + float(meta.get("TZ", 0.0))) * 3600.0)
     # pvlib labels EPW rows at the hour's start (it subtracts one from the file's hour 1…24)
     return Loaded(data, site, units, label_shift_h=1.0)
 
