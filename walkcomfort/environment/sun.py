@@ -378,7 +378,7 @@ def stated_ghi_to_series(ghi_wm2: float, times, lat, lon, elev_m=0.0, position=N
         ``ghi_wm2, dni_wm2, dhi_wm2`` [W m⁻²] on ``times``; ``attrs["clear_index"]``.
     """
     given = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
-    idx = _utc_index(given, where)
+    idx = utc_index(given, where)
     if position is None:
         position = solar_position(given, lat, lon, elev_m)
     cs = clearsky_irradiance(given, lat, lon, elev_m=elev_m, position=position)
