@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from skimage import data
 
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
@@ -163,3 +164,38 @@ def test_colour_functions_refuse_arrays_without_three_channels(func):
     with pytest.raises(InputError, match="3 channels") as exc:
         func(np.zeros((4, 4, 4)))
     assert "Fix:" in str(exc.value) and "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize("colour", [(255, 210, 0), (255, 255, 0), (204, 119, 34), (230, 190, 60), (196, 160, 40)])
+def test_yellow_and_ochre_are_not_greenery(colour):
+    # solid yellow, ochre, mustard and straw patches: Excess Green is positive for several of
+    # them (255, 210, 0 gives 0.355), but their hue is below 65° (pure yellow is 60°)
+    img = np.zeros((32, 32, 3), np.uint8)
+    img[:] = colour
+    assert cues.green_fraction(img) == 0.0
+    assert cues.frame_cues(img)[C.GREEN_FRAC] == 0.0
+
+
+@pytest.mark.parametrize("colour", [(60, 140, 40), (120, 160, 60), (40, 90, 50), (90, 150, 110)])
+def test_leaf_greens_stay_greenery(colour):
+    # foliage colours from sunlit (120, 160, 60: hue 84°) to shaded (40, 90, 50: hue 132°)
+    img = np.zeros((32, 32, 3), np.uint8)
+    img[:] = colour
+    assert cues.green_fraction(img) == 1.0
+
+
+def test_green_pixels_of_the_colour_wheel_lie_between_65_and_180_degrees():
+    import colorsys
+
+    # scikit-image's colour wheel holds every hue: only the green sector may be counted
+    wheel = data.colorwheel()[..., :3]
+    mask = cues.green_mask(wheel)
+    hues = np.array([colorsys.rgb_to_hsv(*(px / 255.0))[0] * 360 for px in wheel[mask][::50]])
+    assert mask.mean() > 0.1
+    assert hues.min() >= cues.GREEN_MIN_HUE_DEG - 0.5 and hues.max() <= 180.5
+
+
+@pytest.mark.parametrize("name", ["chelsea", "coffee"])
+def test_photographs_without_vegetation_have_no_greenery(name):
+    # scikit-image's orange cat and coffee cup photographs contain no plant
+    assert cues.green_fraction(getattr(data, name)()) <= 0.001

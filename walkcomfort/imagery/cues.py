@@ -16,7 +16,12 @@ Greenery
     (Meyer & Camargo Neto 2008 used ExG with Otsu), never below a floor so that a
     frame without vegetation is not split into two "classes" anyway. Very dark pixels
     (R+G+B below :data:`MIN_CHROMA_SUM`) have meaningless chromatic coordinates and are
-    never green.
+    never green. Excess Green alone also rises for yellow and ochre (a solid (255, 210, 0)
+    patch has ExG 0.36): so a green pixel must also have green as its strongest channel
+    and a hue of at least :data:`GREEN_MIN_HUE_DEG` (65°; pure yellow is 60°, ochre and
+    sand 30–50°, sunlit foliage in daylight photographs about 70–160° — from memory,
+    common practice in colour segmentation of vegetation). Yellow autumn leaves and
+    dry grass are therefore not counted as greenery: the cue is of *green* vegetation.
 Green view
     ``green_frac`` is the share of *all* frame pixels that are green — the per-image
     quantity that Li et al. (2015) pool over several views into the Green View Index.
@@ -73,6 +78,8 @@ from walkcomfort.errors import InputError
 EXG_THRESHOLD = 0.10
 #: Lowest threshold Otsu may return (a frame without vegetation must not be split).
 EXG_OTSU_FLOOR = 0.08
+#: Lowest HSV hue of a green pixel [°] (pure yellow is 60°; see the module notes).
+GREEN_MIN_HUE_DEG = 65.0
 #: Pixels with R+G+B below this (of 765) are too dark for chromatic coordinates.
 MIN_CHROMA_SUM = 60
 #: Share of rows, from the top, in which sky is looked for.
@@ -214,6 +221,21 @@ def _exg_u8(rgb: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return exg, total
 
 
+def green_hue(rgb) -> np.ndarray:
+    """Whether each pixel's hue is that of green vegetation (see the module notes).
+
+    Green is the strongest channel (hue above 60°, at most 180°) and the hue is at least
+    :data:`GREEN_MIN_HUE_DEG`. In HSV, with green the maximum,
+    ``H = 60° · (2 + (B − R) / (G − min(R, B)))``, so ``H ≥ 65°`` is
+    ``12 (B − R) + 11 (G − min(R, B)) ≥ 0`` for the default: integers, no division.
+    """
+    i = np.asarray(rgb).astype(np.int32)
+    r, g, b = i[..., 0], i[..., 1], i[..., 2]
+    span = g - np.minimum(r, b)
+    k = (GREEN_MIN_HUE_DEG - 60.0) / 60.0  # (B - R)/span >= k - 1
+    return (g > r) & (g >= b) & ((b - r) >= (k - 1.0) * span)
+
+
 def otsu_threshold(values, bins: int = 256, value_range: tuple[float, float] | None = None) -> float:
     """Otsu's threshold on a set of values (maximises the between-class variance).
 
@@ -282,7 +304,7 @@ def green_mask(rgb, threshold: float | str = EXG_THRESHOLD, otsu_floor: float = 
     img = check_rgb(rgb)
     exg, total = _exg_u8(img)
     t = _resolve_exg_threshold(exg, total, threshold, otsu_floor)
-    return (exg > t) & (total >= MIN_CHROMA_SUM)
+    return (exg > t) & (total >= MIN_CHROMA_SUM) & green_hue(img)
 
 
 def _resolve_exg_threshold(exg, total, threshold, otsu_floor) -> float:
@@ -460,13 +482,13 @@ def frame_cues(rgb, params: CueParams | None = None, return_masks: bool = False)
     if isinstance(p.exg_threshold, str):
         exg, total = _exg_u8(img)
         t = _resolve_exg_threshold(exg, total, p.exg_threshold, p.exg_otsu_floor)
-        green = (exg > t) & (total >= MIN_CHROMA_SUM)
+        green = (exg > t) & (total >= MIN_CHROMA_SUM) & green_hue(img)
     else:
         # ExG > t  <=>  2G - R - B > t·(R+G+B) where the sum is positive: integers, no division
         i = img.astype(np.int16)
         num = 2 * i[..., 1] - i[..., 0] - i[..., 2]
         total = i[..., 0] + i[..., 1] + i[..., 2]
-        green = (num > float(p.exg_threshold) * total) & (total >= MIN_CHROMA_SUM)
+        green = (num > float(p.exg_threshold) * total) & (total >= MIN_CHROMA_SUM) & green_hue(img)
     n = img.shape[0] * img.shape[1]
     green_px = int(np.count_nonzero(green))
     out = {
