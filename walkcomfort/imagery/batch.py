@@ -47,7 +47,7 @@ from walkcomfort.imagery.people import MIN_SOURCE_WIDTH, PeopleParams, count_peo
 from walkcomfort.imagery.quality import QualityParams, quality_flags
 
 #: Bump when a rule changes in a way that changes results: old cache entries stop matching.
-ANALYSIS_VERSION = 4
+ANALYSIS_VERSION = 5  # 5: greenery needs a green hue (yellow and ochre excluded)
 #: Width [px] frames are analysed at.
 ANALYSIS_WIDTH = 640
 #: Below this many frames to compute, worker processes cost more than they save.
