@@ -34,7 +34,7 @@ def test_batch_matches_single_frame_and_truth(tmp_path, make_street):
     assert list(cues.columns) == list(batch.CUE_COLUMNS)
     assert cues.index.equals(frames.index)
     assert meta["counts"] == {"read": 4, "used": 4, "quarantined": 0, "frame_ok": 4, "cache_hits": 0, "computed": 4}
-    for (t, row), truth in zip(cues.iterrows(), truths, strict=False):
+    for (_t, row), truth in zip(cues.iterrows(), truths, strict=False):
         # PNG is lossless, so the batch must give exactly the single-frame result
         rgb = np.asarray(Image.open(tmp_path / row[C.FRAME_PATH]))
         assert row[C.SKY_FRAC] == frame_cues(rgb)[C.SKY_FRAC]

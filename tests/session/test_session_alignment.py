@@ -12,7 +12,8 @@ import pytest
 from walkcomfort import columns as C
 from walkcomfort.session.lag import first_order_response
 from walkcomfort.session.readers import energy_average
-from walkcomfort.session.timeline import _to_steps, build_timeline
+from walkcomfort.session.stepping import to_steps as _to_steps
+from walkcomfort.session.timeline import build_timeline
 
 SESSIONS = Path(__file__).resolve().parents[1] / "fixtures" / "sessions"
 WALK_OK = SESSIONS / "walk_ok"

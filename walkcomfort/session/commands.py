@@ -42,7 +42,7 @@ def summary_lines(tl) -> list[str]:
                  f"{s['duplicate_rows']}, out of order {s['out_of_order_rows']}, GPS jumps {s['gps_jumps']}, "
                  f"clock corrections {s['clock_corrections']} (max residual {s['max_clock_residual_s']:.3f} s)")
     for w in qa.get("warnings", []):
-        lines.append(f"  note: {w}")
+        lines.append(f"  warning: {w}")
     return lines
 
 
@@ -52,23 +52,59 @@ def _options(f):
     f = click.option("--max-gap", "max_gap_s", type=float, default=10.0, show_default=True,
                      help="Longest spacing of readings interpolated across [s].")(f)
     f = click.option("--lag-correction", is_flag=True, help="Correct air/globe temperature for sensor lag (τ from the manifest).")(f)
+    f = click.option("--accept-losses", is_flag=True,
+                     help="Proceed although a source loses more rows than [checks] allows (recorded in qa.json).")(f)
+    f = click.option("--quarantine-to", "quarantine_to", type=click.Path(path_type=Path), default=None,
+                     help="Where to write the quarantine table of a refused session (ingest: OUT/refused/).")(f)
     return f
+
+
+def _build(d, step_s, max_gap_s, lag_correction, accept_losses, quarantine_to):
+    """Build one timeline; a refused session prints its reason counts and writes its quarantine table first."""
+    from walkcomfort.session.losses import SessionRefused
+    from walkcomfort.session.timeline import build_timeline
+
+    try:
+        return build_timeline(d, step_s=step_s, max_gap_s=max_gap_s, lag_correction=lag_correction,
+                              accept_losses=True if accept_losses else None)
+    except SessionRefused as exc:
+        write_refused(exc, d, quarantine_to)
+        raise
+
+
+def write_refused(exc, session_dir, folder) -> Path | None:
+    """Print the quarantine reason counts of a refused session and write its table (and QA) to ``folder``."""
+    from walkcomfort import _io
+
+    q = exc.quarantine
+    if q is None:
+        return None
+    counts = q.groupby(["source", "reason"]).size() if len(q) else {}
+    click.echo(f"{exc.walk_id or Path(session_dir).name}: refused; {len(q)} row(s) set aside so far")
+    for (src, reason), n in sorted(dict(counts).items()):
+        click.echo(f"  {src:<8} {reason} {int(n)}")
+    if folder is None:
+        return None
+    out = Path(folder) / (exc.walk_id or Path(session_dir).name)
+    p = _io.write_csv(out / "quarantine.csv", q, index=False)
+    if exc.qa is not None:
+        _io.write_json(out / "qa.json", exc.qa)
+    click.echo(f"  wrote {p}")
+    return p
 
 
 @click.command()
 @click.argument("session_dirs", nargs=-1, required=True, type=click.Path(path_type=Path))
 @_options
-def check(session_dirs, step_s, max_gap_s, lag_correction):
-    """Validate session folder(s): manifest, every file, QA counts. Writes nothing."""
-    from walkcomfort.session.timeline import build_timeline
-
+def check(session_dirs, step_s, max_gap_s, lag_correction, accept_losses, quarantine_to):
+    """Validate session folder(s): manifest, every file, QA counts, losses. Writes nothing (but --quarantine-to)."""
     for d in find_sessions(session_dirs):
-        tl = build_timeline(d, step_s=step_s, max_gap_s=max_gap_s, lag_correction=lag_correction)
+        tl = _build(d, step_s, max_gap_s, lag_correction, accept_losses, quarantine_to)
         for line in summary_lines(tl):
             click.echo(line)
         if not tl.qa["summary"]["reconciles"]:  # pragma: no cover - would be a bug
             raise WalkcomfortError("row counts do not reconcile", where=d, fix="please report this")
-    click.echo("check passed: nothing was written.")
+    click.echo("check passed: nothing was written." if not quarantine_to else "check passed.")
 
 
 @click.command()
@@ -79,18 +115,24 @@ def check(session_dirs, step_s, max_gap_s, lag_correction):
 @click.option("--csv", "write_csv", is_flag=True, help="Also write timeline.csv.")
 @click.option("--campaign", is_flag=True, help="Also write OUT/campaign.parquet stacking every walk.")
 @click.option("--keep-going", is_flag=True, help="Report a failing session and go on with the others.")
-def ingest(session_dirs, out_dir, step_s, max_gap_s, lag_correction, write_csv, campaign, keep_going):
-    """Align one or many session folders on one timeline each; write timeline, QA and quarantine."""
+def ingest(session_dirs, out_dir, step_s, max_gap_s, lag_correction, accept_losses, quarantine_to, write_csv,
+           campaign, keep_going):
+    """Align one or many session folders on one timeline each; write timeline, QA and quarantine.
+
+    A refused session writes no timeline; its quarantine table goes to OUT/refused/<walk_id>/
+    (or --quarantine-to) so the reasons can be read.
+    """
     from walkcomfort import _io
     from walkcomfort._progress import track
     from walkcomfort.session.heat_safety import walk_heat_safety
-    from walkcomfort.session.timeline import build_timeline, combine_campaign
+    from walkcomfort.session.timeline import combine_campaign
 
     sessions = find_sessions(session_dirs)
     done, failed = [], []
     for d in track(sessions, "ingest", total=len(sessions), enabled=None if len(sessions) > 1 else False):
         try:
-            tl = build_timeline(d, step_s=step_s, max_gap_s=max_gap_s, lag_correction=lag_correction)
+            tl = _build(d, step_s, max_gap_s, lag_correction, accept_losses,
+                        quarantine_to or Path(out_dir) / "refused")
         except WalkcomfortError as exc:
             if not keep_going:
                 raise

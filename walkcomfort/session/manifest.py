@@ -13,24 +13,31 @@ path stays inside the session folder.
 
 from __future__ import annotations
 
-import datetime as _dt
-import difflib
-import math
+import codecs
 import os
-import re
 import tomllib
 from dataclasses import dataclass, field
-from pathlib import Path, PurePosixPath, PureWindowsPath
+from pathlib import Path
 from typing import Any
-from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+from zoneinfo import ZoneInfo
 
 import pandas as pd
 
+from walkcomfort.columns import COMFORT_CLASSES
 from walkcomfort.errors import InputError
+from walkcomfort.session.limits import default_limits, parse_checks
+from walkcomfort.session.readers.timeparse import check_time_format
+from walkcomfort.session.tomlcheck import manifest_time as _time
+from walkcomfort.session.tomlcheck import no_unknown as _no_unknown
+from walkcomfort.session.tomlcheck import number as _number
+from walkcomfort.session.tomlcheck import safe_path
+from walkcomfort.session.tomlcheck import str_table as _str_table
+from walkcomfort.session.tomlcheck import string as _string
+from walkcomfort.session.tomlcheck import suggest as _suggest
+from walkcomfort.session.tomlcheck import table as _table
+from walkcomfort.session.tomlcheck import zone as _zone
 
 SCHEMA = "walkcomfort-session/1"
-# a date and a time of day (pandas alone would read "10:00" as today at 10:00)
-_ISO_DATETIME = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
 MANIFEST_NAME = "session.toml"
 
 KINDS = ("gps", "weather", "noise", "light", "frames", "votes")
@@ -55,7 +62,7 @@ FIELDS = {
     "votes": ("time", "participant", "comfort", "tsv", "note", "kind"),
 }
 
-_TOP_KEYS = ("schema", "session", "participant", "sensors", "devices", "sync", "source")
+_TOP_KEYS = ("schema", "session", "participant", "sensors", "devices", "sync", "source", "checks")
 _SESSION_KEYS = ("id", "participant", "timezone", "site", "start", "end")
 _PARTICIPANT_KEYS = ("age_band", "clo", "acclimatised", "activity")
 _DEVICE_KEYS = ("offset_s", "drift_ppm", "reference")
@@ -63,7 +70,7 @@ _SYNC_KEYS = ("device", "device_time", "true_time", "frame", "device_a", "time_a
               "device_b", "time_b", "note")
 _SOURCE_KEYS = ("kind", "path", "device", "format", "time_zone", "columns", "units",
                 "time_format", "delimiter", "decimal", "na_values", "time_from",
-                "filename_pattern", "max_gap_s", "comfort_labels", "name")
+                "filename_pattern", "max_gap_s", "comfort_labels", "name", "encoding")
 
 # [sensors]: key -> (allowed min, allowed max, default). Ranges are plausibility
 # limits for field kit (common practice), not physics.
@@ -127,7 +134,8 @@ class SourceSpec:
     columns: dict[str, str] = field(default_factory=dict)
     units: dict[str, str] = field(default_factory=dict)
     time_columns: tuple[str, ...] = ("time",)   # raw columns joined with a space to form the time text
-    time_format: str | None = None  # strftime pattern, "ISO8601" (default), "epoch_s" or "epoch_ms"
+    time_format: str | tuple[str, ...] | None = None  # strftime, "ISO8601" (default), "epoch_s"/"_ms"/"_us",
+    #                                                   or one entry per time column ("YEAR", "DOY", "HHMM", ...)
     delimiter: str | None = None    # sniffed from the header line when not given
     decimal: str = "."
     na_values: tuple[str, ...] = ()
@@ -136,6 +144,7 @@ class SourceSpec:
     max_gap_s: float | None = None
     comfort_labels: dict[str, str] = field(default_factory=dict)
     manifest: str = MANIFEST_NAME
+    encoding: str | None = None     # declared text encoding; default: strict UTF-8 (Windows-1252 if no byte is UTF-8)
 
     @property
     def where(self) -> str:
@@ -169,6 +178,7 @@ class SessionSpec:
     reference_device: str = "gps"
     sync: tuple[SyncEvent, ...] = ()
     sources: tuple[SourceSpec, ...] = ()
+    checks: dict[str, Any] = field(default_factory=default_limits)   # [checks]: see session.limits
 
     @property
     def tz(self) -> ZoneInfo:
@@ -287,7 +297,152 @@ def parse_manifest(data: dict, session_dir: str | os.PathLike, manifest_name: st
 
     sources = _sources(data, folder, m, tz)
     source_devices = {s.device for s in sources}
+    checks = parse_checks(_table(data, "checks", m), m)
 
+    devices, reference = _devices(data, m, sources)
+    known = source_devices | set(devices) | {reference}
+
+    sync = _sync_events(data, m, tz, known, reference, folder)
+    return SessionSpec(session_dir=folder, manifest_path=folder / MANIFEST_NAME if manifest_name == MANIFEST_NAME
+                       else Path(manifest_name), id=sid, participant=participant, timezone=tzname, site=site,
+                       start=start, end=end, attributes=attributes, sensors=sensors, devices=devices,
+                       reference_device=reference, sync=tuple(sync), sources=tuple(sources), checks=checks)
+
+
+# --------------------------------------------------------------------------------------
+def _sources(data: dict, folder: Path, m: str, tz) -> list[SourceSpec]:
+    raw = data.get("source")
+    if raw is None:
+        raise InputError("no [[source]] table", where=m, fix="declare each data file in a [[source]] table")
+    if not isinstance(raw, list) or not all(isinstance(x, dict) for x in raw):
+        raise InputError("source must be an array of tables", where=f"{m} source",
+                         fix="write each source as [[source]] (double brackets)")
+    out: list[SourceSpec] = []
+    for i, s in enumerate(raw, start=1):
+        out.append(_source(s, i, folder, m, out))
+    if not any(s.kind == "gps" for s in out):
+        raise InputError("no gps source; the timeline is laid along the GPS track", where=f"{m} [[source]]",
+                         fix='add a [[source]] with kind = "gps"')
+    return out
+
+
+def _source(s: dict, i: int, folder: Path, m: str, before: list[SourceSpec]) -> SourceSpec:
+    """One ``[[source]]`` table."""
+    w = f"[[source]] #{i}"
+    _no_unknown(s, _SOURCE_KEYS, m, w)
+    kind = _string(s, "kind", m, w, required=True)
+    if kind not in KINDS:
+        raise InputError(f"kind '{kind}' is not known; allowed: {', '.join(KINDS)}", where=f"{m} {w} kind",
+                         fix=_suggest(kind, KINDS) or "use one of the listed kinds")
+    w = f"[[source]] #{i} ({kind})"
+    if kind not in MULTI_KINDS and any(o.kind == kind for o in before):
+        raise InputError(f"a second '{kind}' source; one walk has one {kind} record", where=f"{m} {w}",
+                         fix="keep one file per continuous sensor (join split files first)")
+    rel, abs_path, fmt = _source_file(s, kind, folder, m, w)
+    names = {o.name for o in before}
+    name = _string(s, "name", m, w) or (kind if kind not in names else f"{kind}_{i}")
+    if name in names:
+        raise InputError(f"source name '{name}' is used twice", where=f"{m} {w} name", fix="give each source its own name")
+    time_zone = _string(s, "time_zone", m, w) or ("UTC" if fmt == "gpx" else "local")
+    if time_zone not in ("local", "UTC"):
+        _zone(time_zone, f"{m} {w} time_zone")
+    columns, time_columns = _source_columns(s, kind, m, w)
+    return SourceSpec(index=i, name=name, kind=kind, path=rel, abs_path=abs_path,
+                      device=_string(s, "device", m, w) or name, format=fmt, time_zone=time_zone, columns=columns,
+                      units=_source_units(s, kind, m, w), time_columns=time_columns,
+                      time_format=check_time_format(s.get("time_format"), len(time_columns), f"{m} {w} time_format"),
+                      manifest=m, **_source_options(s, kind, m, w))
+
+
+def _source_file(s: dict, kind: str, folder: Path, m: str, w: str) -> tuple[str, Path, str]:
+    rel = _string(s, "path", m, w, required=True)
+    abs_path = safe_path(folder, rel, f"{m} {w} path")
+    fmt_default = {"gps": "gpx" if rel.lower().endswith(".gpx") else "csv", "frames": "folder",
+                   "votes": "json" if rel.lower().endswith(".json") else "csv"}.get(kind, "csv")
+    fmt = _string(s, "format", m, w) or fmt_default
+    if fmt not in FORMATS[kind]:
+        raise InputError(f"format '{fmt}' is not readable for kind '{kind}'; allowed: {', '.join(FORMATS[kind])}",
+                         where=f"{m} {w} format", fix=f"write format = \"{FORMATS[kind][0]}\" or convert the file")
+    optional = "" if kind == "gps" else (f" (a {kind} source is optional: delete this [[source]] table if the "
+                                         f"instrument was not carried)")
+    if fmt == "folder" and not abs_path.is_dir():
+        raise InputError(f"folder '{rel}' not found", where=f"{m} {w} path",
+                         fix="give the folder of frames relative to the session folder" + optional)
+    if fmt != "folder" and not abs_path.is_file():
+        raise InputError(f"file '{rel}' not found", where=f"{m} {w} path",
+                         fix="give the file's path relative to the session folder" + optional)
+    return rel, abs_path, fmt
+
+
+def _source_columns(s: dict, kind: str, m: str, w: str) -> tuple[dict[str, str], tuple[str, ...]]:
+    raw_cols = s.get("columns", {})
+    tcols = None
+    if isinstance(raw_cols, dict) and isinstance(raw_cols.get("time"), list):
+        # a logger writing date and time of day in separate columns: time = ["Date", "Time"]
+        tcols = raw_cols["time"]
+        if not (1 <= len(tcols) <= 4) or not all(isinstance(x, str) and x for x in tcols):
+            raise InputError(f"columns.time = {tcols!r} must be a column name or a list of 1-4 names",
+                             where=f"{m} {w} columns.time", fix='write time = "DateTime" or time = ["Date", "Time"]')
+        raw_cols = {k: v for k, v in raw_cols.items() if k != "time"}
+    columns = _str_table({"columns": raw_cols}, "columns", m, w)
+    bad = [k for k in columns if k not in FIELDS[kind]]
+    if bad:
+        raise InputError(f"columns.{bad[0]} is not a field of a {kind} source; fields: {', '.join(FIELDS[kind])}",
+                         where=f"{m} {w} columns.{bad[0]}", fix=_suggest(bad[0], FIELDS[kind]) or "map only listed fields")
+    return columns, tuple(tcols) if tcols else (columns.get("time", "time"),)
+
+
+def _source_units(s: dict, kind: str, m: str, w: str) -> dict[str, str]:
+    units = _str_table(s, "units", m, w)
+    badu = [k for k in units if k not in FIELDS[kind] or k == "time"]
+    if badu:
+        raise InputError(f"units.{badu[0]} is not a measured field of a {kind} source",
+                         where=f"{m} {w} units.{badu[0]}", fix=_suggest(badu[0], FIELDS[kind]) or "remove it")
+    return units
+
+
+def _source_options(s: dict, kind: str, m: str, w: str) -> dict:
+    """The reading options of a source (frames' time source, delimiter, decimal, missing markers, ...)."""
+    time_from = _string(s, "time_from", m, w) or "exif"
+    if time_from not in ("exif", "filename"):
+        raise InputError(f"time_from '{time_from}' is not known; allowed: exif, filename",
+                         where=f"{m} {w} time_from", fix="write time_from = \"exif\" or \"filename\"")
+    pattern = _string(s, "filename_pattern", m, w)
+    if kind == "frames" and time_from == "filename" and (not pattern or "%" not in pattern):
+        raise InputError("time_from = \"filename\" needs a filename_pattern with strftime codes",
+                         where=f"{m} {w} filename_pattern", fix='write e.g. filename_pattern = "IMG_%Y%m%d_%H%M%S"')
+    delim = _string(s, "delimiter", m, w)
+    if delim is not None:
+        delim = {"\\t": "\t", "tab": "\t"}.get(delim, delim)
+        if len(delim) != 1:
+            raise InputError(f"delimiter {delim!r} must be one character", where=f"{m} {w} delimiter",
+                             fix='write delimiter = "," (or ";", "\\t")')
+    decimal = _string(s, "decimal", m, w) or "."
+    if decimal not in (".", ","):
+        raise InputError(f"decimal {decimal!r} must be '.' or ','", where=f"{m} {w} decimal", fix='write decimal = ","')
+    na = s.get("na_values", [])
+    if not isinstance(na, list) or not all(isinstance(x, str) for x in na):
+        raise InputError("na_values must be a list of strings", where=f"{m} {w} na_values",
+                         fix='write na_values = ["-9999", "---"]')
+    labels = _str_table(s, "comfort_labels", m, w)
+    badl = [v for v in labels.values() if v not in COMFORT_CLASSES]
+    if badl:
+        raise InputError(f"comfort_labels maps to '{badl[0]}'; allowed: {', '.join(COMFORT_CLASSES)}",
+                         where=f"{m} {w} comfort_labels", fix="map each raw label to one of the three classes")
+    encoding = _string(s, "encoding", m, w)
+    if encoding is not None:
+        try:
+            codecs.lookup(encoding)
+        except LookupError:
+            raise InputError(f"encoding {encoding!r} is not known", where=f"{m} {w} encoding",
+                             fix='write e.g. encoding = "utf-8", "cp1252" or "latin-1"') from None
+    return {"delimiter": delim, "decimal": decimal, "na_values": tuple(na), "time_from": time_from,
+            "filename_pattern": pattern, "comfort_labels": labels, "encoding": encoding,
+            "max_gap_s": _number(s, "max_gap_s", m, w, lo=0.0, hi=86400.0) if "max_gap_s" in s else None}
+
+
+def _devices(data: dict, m: str, sources: list[SourceSpec]) -> tuple[dict[str, DeviceSpec], str]:
+    """The ``[devices]`` clocks and the name of the reference clock."""
     devs = _table(data, "devices", m)
     devices: dict[str, DeviceSpec] = {}
     for name, spec in devs.items():
@@ -319,120 +474,7 @@ def parse_manifest(data: dict, session_dir: str | os.PathLike, manifest_name: st
         raise InputError(f"the reference clock '{reference}' has a non-zero offset_s/drift_ppm",
                          where=f"{m} [devices.{reference}]",
                          fix="the reference defines true time: remove its offset or choose another reference")
-    known = source_devices | set(devices) | {reference}
-
-    sync = _sync_events(data, m, tz, known, reference, folder)
-    return SessionSpec(session_dir=folder, manifest_path=folder / MANIFEST_NAME if manifest_name == MANIFEST_NAME
-                       else Path(manifest_name), id=sid, participant=participant, timezone=tzname, site=site,
-                       start=start, end=end, attributes=attributes, sensors=sensors, devices=devices,
-                       reference_device=reference, sync=tuple(sync), sources=tuple(sources))
-
-
-# --------------------------------------------------------------------------------------
-def _sources(data: dict, folder: Path, m: str, tz) -> list[SourceSpec]:
-    raw = data.get("source")
-    if raw is None:
-        raise InputError("no [[source]] table", where=m, fix="declare each data file in a [[source]] table")
-    if not isinstance(raw, list) or not all(isinstance(x, dict) for x in raw):
-        raise InputError("source must be an array of tables", where=f"{m} source",
-                         fix="write each source as [[source]] (double brackets)")
-    out: list[SourceSpec] = []
-    names: set[str] = set()
-    for i, s in enumerate(raw, start=1):
-        w = f"[[source]] #{i}"
-        _no_unknown(s, _SOURCE_KEYS, m, w)
-        kind = _string(s, "kind", m, w, required=True)
-        if kind not in KINDS:
-            raise InputError(f"kind '{kind}' is not known; allowed: {', '.join(KINDS)}", where=f"{m} {w} kind",
-                             fix=_suggest(kind, KINDS) or "use one of the listed kinds")
-        w = f"[[source]] #{i} ({kind})"
-        if kind not in MULTI_KINDS and any(o.kind == kind for o in out):
-            raise InputError(f"a second '{kind}' source; one walk has one {kind} record", where=f"{m} {w}",
-                             fix="keep one file per continuous sensor (join split files first)")
-        rel = _string(s, "path", m, w, required=True)
-        abs_path = safe_path(folder, rel, f"{m} {w} path")
-        fmt_default = {"gps": "gpx" if rel.lower().endswith(".gpx") else "csv", "frames": "folder",
-                       "votes": "json" if rel.lower().endswith(".json") else "csv"}.get(kind, "csv")
-        fmt = _string(s, "format", m, w) or fmt_default
-        if fmt not in FORMATS[kind]:
-            raise InputError(f"format '{fmt}' is not readable for kind '{kind}'; allowed: {', '.join(FORMATS[kind])}",
-                             where=f"{m} {w} format", fix=f"write format = \"{FORMATS[kind][0]}\" or convert the file")
-        if fmt == "folder":
-            if not abs_path.is_dir():
-                raise InputError(f"folder '{rel}' not found", where=f"{m} {w} path",
-                                 fix="give the folder of frames relative to the session folder")
-        elif not abs_path.is_file():
-            raise InputError(f"file '{rel}' not found", where=f"{m} {w} path",
-                             fix="give the file's path relative to the session folder")
-        name = _string(s, "name", m, w) or (kind if kind not in names else f"{kind}_{i}")
-        if name in names:
-            raise InputError(f"source name '{name}' is used twice", where=f"{m} {w} name", fix="give each source its own name")
-        names.add(name)
-        device = _string(s, "device", m, w) or name
-        tz_default = "UTC" if fmt == "gpx" else "local"
-        time_zone = _string(s, "time_zone", m, w) or tz_default
-        if time_zone not in ("local", "UTC"):
-            _zone(time_zone, f"{m} {w} time_zone")
-        raw_cols = s.get("columns", {})
-        tcols = None
-        if isinstance(raw_cols, dict) and isinstance(raw_cols.get("time"), list):
-            # a logger writing date and time of day in separate columns: time = ["Date", "Time"]
-            tcols = raw_cols["time"]
-            if not (1 <= len(tcols) <= 3) or not all(isinstance(x, str) and x for x in tcols):
-                raise InputError(f"columns.time = {tcols!r} must be a column name or a list of 1-3 names",
-                                 where=f"{m} {w} columns.time", fix='write time = "DateTime" or time = ["Date", "Time"]')
-            raw_cols = {k: v for k, v in raw_cols.items() if k != "time"}
-        columns = _str_table({"columns": raw_cols}, "columns", m, w)
-        time_columns = tuple(tcols) if tcols else (columns.get("time", "time"),)
-        bad = [k for k in columns if k not in FIELDS[kind]]
-        if bad:
-            raise InputError(f"columns.{bad[0]} is not a field of a {kind} source; fields: {', '.join(FIELDS[kind])}",
-                             where=f"{m} {w} columns.{bad[0]}", fix=_suggest(bad[0], FIELDS[kind]) or "map only listed fields")
-        units = _str_table(s, "units", m, w)
-        badu = [k for k in units if k not in FIELDS[kind] or k == "time"]
-        if badu:
-            raise InputError(f"units.{badu[0]} is not a measured field of a {kind} source",
-                             where=f"{m} {w} units.{badu[0]}", fix=_suggest(badu[0], FIELDS[kind]) or "remove it")
-        time_from = _string(s, "time_from", m, w) or "exif"
-        if time_from not in ("exif", "filename"):
-            raise InputError(f"time_from '{time_from}' is not known; allowed: exif, filename",
-                             where=f"{m} {w} time_from", fix="write time_from = \"exif\" or \"filename\"")
-        pattern = _string(s, "filename_pattern", m, w)
-        if kind == "frames" and time_from == "filename":
-            if not pattern or "%" not in pattern:
-                raise InputError("time_from = \"filename\" needs a filename_pattern with strftime codes",
-                                 where=f"{m} {w} filename_pattern", fix='write e.g. filename_pattern = "IMG_%Y%m%d_%H%M%S"')
-        delim = _string(s, "delimiter", m, w)
-        if delim is not None:
-            delim = {"\\t": "\t", "tab": "\t"}.get(delim, delim)
-            if len(delim) != 1:
-                raise InputError(f"delimiter {delim!r} must be one character", where=f"{m} {w} delimiter",
-                                 fix='write delimiter = "," (or ";", "\\t")')
-        decimal = _string(s, "decimal", m, w) or "."
-        if decimal not in (".", ","):
-            raise InputError(f"decimal {decimal!r} must be '.' or ','", where=f"{m} {w} decimal", fix='write decimal = ","')
-        na = s.get("na_values", [])
-        if not isinstance(na, list) or not all(isinstance(x, str) for x in na):
-            raise InputError("na_values must be a list of strings", where=f"{m} {w} na_values",
-                             fix='write na_values = ["-9999", "---"]')
-        max_gap = _number(s, "max_gap_s", m, w, lo=0.0, hi=86400.0) if "max_gap_s" in s else None
-        labels = _str_table(s, "comfort_labels", m, w)
-        from walkcomfort.columns import COMFORT_CLASSES
-
-        badl = [v for v in labels.values() if v not in COMFORT_CLASSES]
-        if badl:
-            raise InputError(f"comfort_labels maps to '{badl[0]}'; allowed: {', '.join(COMFORT_CLASSES)}",
-                             where=f"{m} {w} comfort_labels", fix="map each raw label to one of the three classes")
-        out.append(SourceSpec(index=i, name=name, kind=kind, path=rel, abs_path=abs_path, device=device,
-                              format=fmt, time_zone=time_zone, columns=columns, units=units,
-                              time_columns=time_columns,
-                              time_format=_string(s, "time_format", m, w), delimiter=delim, decimal=decimal,
-                              na_values=tuple(na), time_from=time_from, filename_pattern=pattern,
-                              max_gap_s=max_gap, comfort_labels=labels, manifest=m))
-    if not any(s.kind == "gps" for s in out):
-        raise InputError("no gps source; the timeline is laid along the GPS track", where=f"{m} [[source]]",
-                         fix='add a [[source]] with kind = "gps"')
-    return out
+    return devices, reference
 
 
 def _sync_events(data, m, tz, known, reference, folder) -> list[SyncEvent]:
@@ -474,114 +516,3 @@ def _sync_events(data, m, tz, known, reference, folder) -> list[SyncEvent]:
     return out
 
 
-# --------------------------------------------------------------------------------------
-def safe_path(folder: Path, rel: str, where: str) -> Path:
-    """Resolve ``rel`` inside ``folder``; refuse absolute paths, ``..`` and symlinks leading out."""
-    if not rel or rel.strip() != rel:
-        raise InputError(f"path {rel!r} is empty or has surrounding spaces", where=where, fix="write the path exactly")
-    if PurePosixPath(rel).is_absolute() or PureWindowsPath(rel).is_absolute() or PureWindowsPath(rel).drive:
-        raise InputError(f"path '{rel}' is absolute", where=where,
-                         fix="write paths relative to the session folder and keep the files inside it")
-    parts = PurePosixPath(rel.replace("\\", "/")).parts
-    if ".." in parts:
-        raise InputError(f"path '{rel}' leaves the session folder ('..')", where=where,
-                         fix="copy the file into the session folder and give its relative path")
-    base = folder.resolve()
-    target = (base / Path(*parts)).resolve()
-    if target != base and base not in target.parents:
-        raise InputError(f"path '{rel}' resolves outside the session folder (a symlink out)", where=where,
-                         fix="copy the file into the session folder instead of linking to it")
-    return folder / Path(*parts)
-
-
-def _no_unknown(table: dict, allowed, m: str, w: str) -> None:
-    for key in table:
-        if key not in allowed:
-            hint = _suggest(key, allowed)
-            raise InputError(f"unknown key '{key}'" + (f" in {w}" if w else ""), where=f"{m} {w} {key}".replace("  ", " "),
-                             fix=hint or f"allowed keys: {', '.join(allowed)}")
-
-
-def _suggest(word: str, options) -> str | None:
-    close = difflib.get_close_matches(str(word), [str(o) for o in options], n=1, cutoff=0.6)
-    return f"use '{close[0]}' (the closest known name)" if close else None
-
-
-def _table(data: dict, key: str, m: str, required: bool = False) -> dict:
-    if key not in data:
-        if required:
-            raise InputError(f"missing [{key}] table", where=m, fix=f"add a [{key}] table (see field_protocol/manifest.md)")
-        return {}
-    v = data[key]
-    if not isinstance(v, dict):
-        raise InputError(f"{key} must be a table", where=f"{m} {key}", fix=f"write it as [{key}]")
-    return v
-
-
-def _string(t: dict, key: str, m: str, w: str, required: bool = False) -> str | None:
-    if key not in t:
-        if required:
-            raise InputError(f"missing key '{key}'", where=f"{m} {w}", fix=f'add {key} = "..."')
-        return None
-    v = t[key]
-    if not isinstance(v, str):
-        raise InputError(f"{key} is {v!r}, expected text", where=f"{m} {w} {key}", fix=f'quote it: {key} = "{v}"')
-    if required and not v.strip():
-        raise InputError(f"{key} is empty", where=f"{m} {w} {key}", fix=f"give {key} a value")
-    return v
-
-
-def _str_table(t: dict, key: str, m: str, w: str) -> dict[str, str]:
-    v = t.get(key, {})
-    if not isinstance(v, dict) or not all(isinstance(x, str) for x in v.values()):
-        raise InputError(f"{key} must be a table of text values", where=f"{m} {w} {key}",
-                         fix=f'write [source.{key}] with lines like t_air = "..."')
-    return dict(v)
-
-
-def _number(t: dict, key: str, m: str, w: str, lo: float, hi: float) -> float:
-    v = t[key]
-    if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
-        raise InputError(f"{key} is {v!r}, expected a number", where=f"{m} {w} {key}", fix=f"write {key} = <number>")
-    if not lo <= v <= hi:
-        raise InputError(f"{key} = {v} is outside the plausible range {lo}…{hi}", where=f"{m} {w} {key}",
-                         fix="check the value and its unit (the key's suffix)")
-    return float(v)
-
-
-def _zone(name: str, where: str) -> None:
-    try:
-        ZoneInfo(name)
-    except (ZoneInfoNotFoundError, ValueError, TypeError):
-        raise InputError(f"time zone '{name}' is not an IANA zone name", where=where,
-                         fix="write a name such as \"Europe/Madrid\" or \"America/Phoenix\"") from None
-
-
-def _time(v, tz, where: str, required: bool = False) -> pd.Timestamp | None:
-    """A manifest time (TOML datetime or ISO text) as UTC; naive values are in the session zone."""
-    if v is None:
-        if required:
-            raise InputError("missing time", where=where, fix='write an ISO time such as "2026-07-14T10:00:00"')
-        return None
-    if isinstance(v, _dt.datetime):
-        ts = pd.Timestamp(v)
-    elif isinstance(v, str):
-        try:
-            if not _ISO_DATETIME.match(v.strip()):
-                raise ValueError(v)
-            ts = pd.Timestamp(v)
-        except (ValueError, TypeError):
-            raise InputError(f"time '{v}' is not an ISO 8601 date and time", where=where,
-                             fix='write e.g. "2026-07-14T10:00:00" (local) or "2026-07-14T08:00:00Z"') from None
-        if ts is pd.NaT:
-            raise InputError(f"time '{v}' is empty", where=where, fix="give a date and time")
-    else:
-        raise InputError(f"time {v!r} is not a date and time", where=where,
-                         fix='write e.g. "2026-07-14T10:00:00" (date and time, not only a time of day)')
-    if ts.tzinfo is None:
-        try:
-            ts = ts.tz_localize(tz, ambiguous="raise", nonexistent="raise")
-        except Exception:
-            raise InputError(f"local time '{v}' does not exist or is ambiguous (daylight-saving change)",
-                             where=where, fix="write it with its UTC offset, e.g. '2026-10-25T02:30:00+01:00'") from None
-    return ts.tz_convert("UTC")

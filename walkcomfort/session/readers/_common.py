@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import csv
 import re
+from collections import Counter
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -20,6 +21,7 @@ import pandas as pd
 from walkcomfort.columns import PHYSICAL_RANGES, TIME
 from walkcomfort.errors import InputError
 from walkcomfort.errors import where as _where
+from walkcomfort.session.readers import timeparse as _tp
 
 QUARANTINE_COLUMNS = ("source", "file", "row", "reason", "raw")
 MISSING = ("", "na", "n/a", "nan", "null", "none", "-", "--", "---")
@@ -70,13 +72,103 @@ class RawTable:
     encoding: str
 
 
-def read_text(path: Path) -> tuple[str, str]:
+#: Longest field of a delimited file [characters]: a free-text vote note of a few MB is fine; a
+#: file that is one unterminated quote is not (the csv module's default is 128 kB).
+MAX_FIELD_CHARS = 16 * 1024 * 1024
+csv.field_size_limit(max(csv.field_size_limit(), MAX_FIELD_CHARS))
+# only these end a line: U+2028, NEL, form feed... are text a field may hold (str.splitlines would split there)
+_LINE_BREAK = re.compile(r"\r\n|\n|\r")
+
+
+def read_text(path: Path, encoding: str | None = None, where=None) -> tuple[str, str]:
+    """The text of a file: strict UTF-8 first, a declared ``encoding``, or Windows-1252 when *no* byte is UTF-8.
+
+    A file that is UTF-8 in places and something else elsewhere (one line pasted from
+    another program) is refused, naming the line and byte, rather than decoded wrongly as
+    a whole: decoding it as Windows-1252 would turn every correct "ñ" into "Ã±".
+    """
     data = path.read_bytes()
+    if encoding:
+        try:
+            return data.decode(encoding), encoding
+        except (UnicodeDecodeError, LookupError) as exc:
+            raise InputError(f"cannot decode as declared encoding {encoding!r} ({exc})", where=where or path,
+                             fix="declare the encoding the file was written in, or save it as UTF-8") from None
     try:
         return data.decode("utf-8-sig"), "utf-8"
-    except UnicodeDecodeError:
-        # field loggers on older systems write Windows-1252 (e.g. a '°' in the header)
-        return data.decode("cp1252", errors="replace"), "cp1252"
+    except UnicodeDecodeError as exc:
+        bad = exc
+    if _has_utf8_sequences(data):
+        line = data.count(b"\n", 0, bad.start) + 1
+        col = bad.start - (data.rfind(b"\n", 0, bad.start) + 1) + 1
+        raise InputError(f"the file mixes encodings: UTF-8 text elsewhere, but byte 0x{data[bad.start]:02x} at line "
+                         f"{line}, byte {col} is not UTF-8", where=_where(where or path, line=line),
+                         fix="save the file as UTF-8 (retype that line), or declare encoding = \"cp1252\" in its "
+                             "[[source]] if the whole file is Windows-1252")
+    # field loggers on older systems write Windows-1252 (e.g. a '°' in the header)
+    return data.decode("cp1252", errors="replace"), "cp1252"
+
+
+_UTF8_MULTI = re.compile(rb"[\xc2-\xdf][\x80-\xbf]|[\xe0-\xef][\x80-\xbf]{2}|[\xf0-\xf4][\x80-\xbf]{3}")
+
+
+def _has_utf8_sequences(data: bytes) -> bool:
+    """Whether the bytes hold any well-formed multi-byte UTF-8 sequence (then non-UTF-8 bytes are a mix)."""
+    return _UTF8_MULTI.search(data) is not None
+
+
+def logical_lines(text: str) -> tuple[list[str], list[int]]:
+    """Records of a delimited text and their first line numbers (1-based).
+
+    A record ends at a line break outside a quoted field, so a quoted field may hold any
+    line break; U+2028, NEL and form feed never end a record. A quote opens a quoted field
+    only at the start of a field (after a delimiter or the line start); a quote inside an
+    unquoted field is text. A quoted field left open at the end of the file does not swallow
+    the lines after it: they are read again one by one.
+    """
+    physical = _LINE_BREAK.split(text)
+    if physical and physical[-1] == "":
+        physical.pop()
+    records: list[str] = []
+    starts: list[int] = []
+    i = 0
+    while i < len(physical):
+        j, state = i, False
+        while True:
+            state = _quote_state(physical[j], state)
+            if not state or j + 1 >= len(physical):
+                break
+            j += 1
+        if state:   # never closed: the first line alone is the (bad) record
+            j = i
+        records.append("\n".join(physical[i:j + 1]))
+        starts.append(i + 1)
+        i = j + 1
+    return records, starts
+
+
+def _quote_state(line: str, in_quotes: bool) -> bool:
+    """Whether a quoted field is still open at the end of ``line`` (given the state at its start)."""
+    if '"' not in line:
+        return in_quotes
+    field_start = not in_quotes
+    k, n = 0, len(line)
+    while k < n:
+        c = line[k]
+        if in_quotes:
+            if c == '"':
+                if k + 1 < n and line[k + 1] == '"':
+                    k += 1
+                else:
+                    in_quotes = False
+        elif c == '"' and field_start:
+            in_quotes = True
+        field_start = c in _FIELD_SEPARATORS or (field_start and c == " ")
+        k += 1
+    return in_quotes
+
+
+_FIELD_SEPARATORS = ",;\t|"
 
 
 def read_delimited(path: Path, spec, required: list[str], optional: list[str], q: Quarantine) -> RawTable:
@@ -85,31 +177,12 @@ def read_delimited(path: Path, spec, required: list[str], optional: list[str], q
     The header is the first line (among the first 50, skipping comment lines that
     start with ``#``) that holds every ``required`` raw column name. Blank and
     comment lines are not rows. A line with the wrong number of fields, or with
-    control bytes, is quarantined with reason ``bad_line``.
+    control bytes outside quotes, is quarantined with reason ``bad_line``.
     """
-    text, encoding = read_text(path)
-    lines = text.splitlines()
-    where = spec.display
-    header_at = None
-    delim = spec.delimiter
-    for i, line in enumerate(lines[:50]):
-        s = line.strip()
-        if not s or s.startswith("#"):
-            continue
-        d = delim or _sniff(line)
-        fields = [f.strip() for f in _split(line, d)]
-        if all(r in fields for r in required):
-            header_at, delim, header = i, d, fields
-            break
-    if header_at is None:
-        first = next((ln for ln in lines if ln.strip() and not ln.strip().startswith("#")), "")
-        raise InputError(f"no header line with the columns {', '.join(repr(r) for r in required)} "
-                         f"(first line: {first[:80]!r})", where=_where(where, line=1),
-                         fix="map the raw column names in [source.columns] (names are case-sensitive)")
-    dupe = sorted({h for h in header if header.count(h) > 1 and h in required + optional})
-    if dupe:
-        raise InputError(f"column '{dupe[0]}' appears twice in the header", where=_where(where, line=header_at + 1),
-                         fix="rename one of the columns in the file's header")
+    text, encoding = read_text(path, getattr(spec, "encoding", None), where=spec.display)
+    lines, starts = logical_lines(text)
+    header_at, delim, header = _find_header(lines, spec, required)
+    _refuse_duplicate_columns(header, required + optional, _where(spec.display, line=starts[header_at]))
     n = len(header)
     rows: list[list[str]] = []
     nums: list[int] = []
@@ -119,19 +192,54 @@ def read_delimited(path: Path, spec, required: list[str], optional: list[str], q
         s = line.strip()
         if not s or s.startswith("#"):
             continue
-        if _CONTROL.search(line):
-            q.add(i + 1, "bad_line", line)
-            continue
-        fields = _split(line, delim)
-        if len(fields) > n and not any(f.strip() for f in fields[n:]):
-            fields = fields[:n]
-        if len(fields) != n:
-            q.add(i + 1, "bad_line", line)
+        fields = _fields(line, delim, n)
+        if fields is None:
+            q.add(starts[i], "bad_line", line)
             continue
         rows.append(fields)
-        nums.append(i + 1)
+        nums.append(starts[i])
         raws.append(line)
     return RawTable(header, rows, np.asarray(nums, dtype=np.int64), raws, encoding)
+
+
+def _find_header(lines: list[str], spec, required: list[str]) -> tuple[int, str, list[str]]:
+    delim = spec.delimiter
+    for i, line in enumerate(lines[:50]):
+        s = line.strip()
+        if not s or s.startswith("#"):
+            continue
+        d = delim or _sniff(line)
+        fields = [f.strip() for f in _split(line, d)]
+        if all(r in fields for r in required):
+            return i, d, fields
+    first = next((ln for ln in lines if ln.strip() and not ln.strip().startswith("#")), "")
+    raise InputError(f"no header line with the columns {', '.join(repr(r) for r in required)} "
+                     f"(first line: {first[:80]!r})", where=_where(spec.display, line=1),
+                     fix="map the raw column names in [source.columns] (names are case-sensitive)")
+
+
+def _refuse_duplicate_columns(header: list[str], wanted: list[str], where: str) -> None:
+    counts = Counter(header)   # linear: a header of 100,000 columns must not take minutes
+    dupe = sorted(h for h in set(wanted) if counts.get(h, 0) > 1)
+    if dupe:
+        raise InputError(f"column '{dupe[0]}' appears twice in the header", where=where,
+                         fix="rename one of the columns in the file's header")
+
+
+def _fields(line: str, delim: str, n: int) -> list[str] | None:
+    """The fields of one record, or None when it is a bad line (field count, control bytes, a broken quote)."""
+    if _CONTROL.search(_QUOTED.sub("", line)) or "\x00" in line:
+        return None
+    try:
+        fields = _split(line, delim)
+    except csv.Error:
+        return None
+    if len(fields) > n and not any(f.strip() for f in fields[n:]):
+        fields = fields[:n]
+    return fields if len(fields) == n else None
+
+
+_QUOTED = re.compile(r'"(?:[^"]|"")*"', re.S)
 
 
 def _sniff(line: str) -> str:
@@ -143,7 +251,11 @@ def _sniff(line: str) -> str:
 def _split(line: str, delim: str) -> list[str]:
     if '"' not in line:
         return line.split(delim)
-    return next(csv.reader([line], delimiter=delim))
+    return next(csv.reader([line], delimiter=delim, strict=True))
+
+
+sniff_delimiter = _sniff   # public names for other modules (the underscored ones stay for old callers)
+split_fields = _split
 
 
 def column(table: RawTable, name: str) -> pd.Series:
@@ -154,9 +266,16 @@ def column(table: RawTable, name: str) -> pd.Series:
 
 def time_text(table: RawTable, spec) -> pd.Series:
     """The time text of each row: the time column, or the declared columns joined by a space."""
-    parts = [column(table, c) for c in spec.time_columns]
-    if len(parts) == 1:
-        return parts[0]
+    parts = time_parts(table, spec)
+    return parts[0] if len(parts) == 1 else _join_parts(parts)
+
+
+def time_parts(table: RawTable, spec) -> list[pd.Series]:
+    """The text of each declared time column (``columns.time`` may list several)."""
+    return [column(table, c) for c in spec.time_columns]
+
+
+def _join_parts(parts: list[pd.Series]) -> pd.Series:
     out = parts[0].astype(str)
     for p in parts[1:]:
         out = out + " " + p.astype(str)
@@ -180,64 +299,87 @@ def to_number(s: pd.Series, decimal: str = ".", na_values=()) -> tuple[np.ndarra
     return vals, bad | inf
 
 
-def parse_times(s: pd.Series, spec, session, where: str, lines=None) -> tuple[pd.DatetimeIndex, np.ndarray]:
-    """Parse a column of time text to UTC.
+def parse_times(s, spec, session, where: str, lines=None) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """Parse time text to UTC.
 
-    Text with a UTC offset (or ``Z``) is taken as written; naive text is read in the
-    zone named by ``spec.time_zone`` (``"local"`` = the session zone). A file mixing
-    naive and offset times is an error. Returns the UTC index (NaT where a row
-    cannot be used) and a reason per row (``""`` when fine): ``bad_time``,
-    ``nonexistent_local_time`` (skipped by a daylight-saving change) or
-    ``ambiguous_local_time`` (repeated hour whose order cannot tell which).
+    ``s`` is one Series of time text, or a list of Series (one per column of
+    ``columns.time``). Text with a UTC offset (or ``Z``) is taken as written; naive
+    text is read in the zone named by ``spec.time_zone`` (``"local"`` = the session
+    zone). A file mixing naive and offset times is an error, and so is text that the
+    format would read by dropping a digit (see :mod:`~walkcomfort.session.readers.timeparse`).
+    Returns the UTC index (NaT where a row cannot be used) and a reason per row (``""``
+    when fine): ``bad_time``, ``nonexistent_local_time`` (skipped by a daylight-saving
+    change) or ``ambiguous_local_time`` (repeated hour whose order cannot tell which).
     """
-    n = len(s)
-    reason = np.full(n, "", dtype=object)
+    parts = list(s) if isinstance(s, (list, tuple)) else [s]
     fmt = spec.time_format
-    if fmt in ("epoch_s", "epoch_ms"):
-        vals, bad = to_number(s)
-        out = pd.to_datetime(vals, unit=fmt[6:], utc=True, errors="coerce")
-        idx = pd.DatetimeIndex(out).as_unit("ns")
-        reason[np.asarray(idx.isna())] = "bad_time"
-        return idx, reason
-    text = s.astype(str)
+    names = list(getattr(spec, "time_columns", ("time",)))
+    if len(names) != len(parts):
+        names = [f"time {i + 1}" for i in range(len(parts))]
+    if isinstance(fmt, tuple):
+        naive, reason = _tp.parse_parts(parts, fmt, names, where, lines)
+        return _naive_to_utc(naive, reason, spec, session)
+    text = parts[0] if len(parts) == 1 else _join_parts(parts)
+    if fmt in _tp.EPOCH_UNITS:
+        ns, reason = _tp.parse_epoch(text, fmt, where, lines)
+        return pd.DatetimeIndex(ns).tz_localize("UTC"), reason
+    _tp.refuse_digit_runs(parts, names, fmt, where, lines)
+    return _parse_text(text.astype(str), spec, session, where, lines)
+
+
+def _parse_text(text: pd.Series, spec, session, where, lines):
+    n = len(text)
+    fmt = spec.time_format
+    reason = np.full(n, "", dtype=object)
     aware = text.str.contains(_TZ_SUFFIX, regex=True).to_numpy(dtype=bool) & (fmt in (None, "ISO8601"))
     result = np.full(n, np.datetime64("NaT", "ns"), dtype="datetime64[ns]")
     n_aware = n_naive = 0
     if aware.any():
         t = pd.to_datetime(text[aware], format="ISO8601", utc=True, errors="coerce")
-        ok = ~t.isna().to_numpy()
-        n_aware = int(ok.sum())
+        n_aware = int((~t.isna()).sum())
         result[np.flatnonzero(aware)] = t.dt.tz_localize(None).to_numpy(dtype="datetime64[ns]")
     naive = ~aware
     if naive.any():
         t = pd.to_datetime(text[naive], format=fmt or "ISO8601", errors="coerce")
         if getattr(t.dt, "tz", None) is not None:  # a strftime pattern with %z
             t = t.dt.tz_convert("UTC").dt.tz_localize(None)
-            local = t.to_numpy(dtype="datetime64[ns]")
-            result[np.flatnonzero(naive)] = local
+            result[np.flatnonzero(naive)] = t.to_numpy(dtype="datetime64[ns]")
             n_aware += int((~t.isna()).sum())
+            naive[:] = False
         else:
-            ok = ~t.isna().to_numpy()
-            n_naive = int(ok.sum())
-            if n_naive:
-                zone = session.zone_for(spec.time_zone)
-                loc = pd.DatetimeIndex(t.to_numpy(dtype="datetime64[ns]"))
-                utc, why = localize(loc, zone)
-                result[np.flatnonzero(naive)] = utc.tz_localize(None).to_numpy(dtype="datetime64[ns]")
-                sub = reason[naive]
-                sub[why != ""] = why[why != ""]
-                reason[naive] = sub
+            n_naive = int((~t.isna()).sum())
+            result[np.flatnonzero(naive)] = t.to_numpy(dtype="datetime64[ns]")
     if n_aware and n_naive:
         minority = aware if n_aware < n_naive else naive
         at = int(np.flatnonzero(minority)[0])
         raise InputError(f"the time column mixes {n_aware} times with a UTC offset and {n_naive} without "
                          f"(first odd one: {text.iloc[at]!r})",
-                         where=_where(where, line=int(lines[at])) if lines is not None else where, fix="write every time in one form (all with an offset, or all local "
-                                          "and declare time_zone in the manifest)")
+                         where=_where(where, line=int(lines[at])) if lines is not None else where,
+                         fix="write every time in one form (all with an offset, or all local "
+                             "and declare time_zone in the manifest)")
+    if n_naive:
+        utc, why = _naive_to_utc(result[naive], reason[naive], spec, session)
+        result[naive] = utc.tz_localize(None).to_numpy("datetime64[ns]")
+        reason[naive] = why
     idx = pd.DatetimeIndex(result).tz_localize("UTC")
     bad = np.asarray(idx.isna()) & (reason == "")
     reason[bad] = "bad_time"
     return idx, reason
+
+
+def _naive_to_utc(naive: np.ndarray, reason: np.ndarray, spec, session) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """Naive wall-clock times of the source's zone → UTC; rows already with a reason keep it."""
+    reason = np.asarray(reason, dtype=object).copy()
+    loc = pd.DatetimeIndex(np.asarray(naive, dtype="datetime64[ns]"))
+    if (~np.isnat(np.asarray(naive, dtype="datetime64[ns]"))).any():
+        utc, why = localize(loc, session.zone_for(spec.time_zone))
+    else:
+        utc, why = loc.tz_localize("UTC"), np.full(len(loc), "", dtype=object)
+    sel = (why != "") & (reason == "")
+    reason[sel] = why[sel]
+    bad = np.asarray(utc.isna()) & (reason == "")
+    reason[bad] = "bad_time"
+    return utc, reason
 
 
 def localize(loc: pd.DatetimeIndex, zone) -> tuple[pd.DatetimeIndex, np.ndarray]:
@@ -266,7 +408,11 @@ def range_reasons(values: dict[str, np.ndarray], reason: np.ndarray) -> None:
     A position of exactly 0° N 0° E is what many GPS loggers write before a fix: ``null_position``.
     """
     if "lat" in values and "lon" in values:
-        null = (values["lat"] == 0.0) & (values["lon"] == 0.0) & (reason == "")
+        lat, lon = np.asarray(values["lat"], float), np.asarray(values["lon"], float)
+        # a fix without a position (lat="NaN", an empty field) is not a point of the track
+        nopos = ~(np.isfinite(lat) & np.isfinite(lon)) & (reason == "")
+        reason[nopos] = "no_position"
+        null = (lat == 0.0) & (lon == 0.0) & (reason == "")
         reason[null] = "null_position"
     for col, arr in values.items():
         if col not in PHYSICAL_RANGES:
@@ -359,7 +505,7 @@ def read_sensor_csv(spec, session, fields: list[tuple[str, str, bool]], kind: st
                              where=f"{spec.where} units.{f}", fix="remove it")
     table = read_delimited(path, spec, required, optional, q)
     present = []
-    for f, out, req in fields:
+    for f, out, _req in fields:
         raw = spec.column(f)
         if raw in table.header:
             present.append((f, out, raw))
@@ -368,10 +514,10 @@ def read_sensor_csv(spec, session, fields: list[tuple[str, str, bool]], kind: st
                              where=f"{spec.where} columns.{f}", fix="correct the column name (case-sensitive)")
     # units first: an undeclared or unknown unit stops the whole file, before any row is read
     factors = {}
-    for f, out, raw in present:
+    for f, _out, _raw in present:
         factors[f] = spec.units.get(f)
         to_si(np.zeros(1), f, factors[f], spec.where)
-    times, reason = parse_times(time_text(table, spec), spec, session, where=spec.display, lines=table.lines)
+    times, reason = parse_times(time_parts(table, spec), spec, session, where=spec.display, lines=table.lines)
     values: dict[str, np.ndarray] = {}
     for f, out, raw in present:
         v, bad = to_number(column(table, raw), spec.decimal, spec.na_values)

@@ -10,6 +10,7 @@ three classes can be mapped with ``[source.comfort_labels]``.
 from __future__ import annotations
 
 import json
+import re
 from pathlib import Path
 
 import numpy as np
@@ -26,11 +27,27 @@ from walkcomfort.session.readers._common import (
     parse_times,
     read_delimited,
     read_text,
-    time_text,
+    time_parts,
     to_number,
 )
 
 VOTE_KINDS = ("prompted", "spontaneous")
+#: Deepest nesting of a votes JSON ({"votes": [{"time": ...}]} is 3; a note may hold a small object).
+MAX_JSON_DEPTH = 32
+_BRACKETS = re.compile(r'"(?:[^"\\]|\\.)*"|[\[\]{}]')
+
+
+def _nesting_depth(text: str) -> int:
+    """Deepest bracket nesting of a JSON text, strings skipped (linear, no recursion)."""
+    depth = deepest = 0
+    for m in _BRACKETS.finditer(text):
+        c = m.group(0)
+        if c in "[{":
+            depth += 1
+            deepest = max(deepest, depth)
+        elif c in "]}":
+            depth -= 1
+    return deepest
 
 
 def read_votes(path, source_spec, session_spec):
@@ -51,30 +68,11 @@ def read_votes(path, source_spec, session_spec):
     path = Path(path)
     spec = source_spec
     q = Quarantine(spec.name, spec.path)
-    fields = ("time", "participant", "comfort", "tsv", "note", "kind")
     if spec.format == "json":
-        recs = _json_records(path, spec)
-        n = len(recs)
-        cols = {f: pd.Series([_text(r.get(spec.column(f))) for r in recs], dtype=object) for f in fields}
-        cols["time"] = pd.Series([" ".join(_text(r.get(c)) for c in spec.time_columns).strip() for r in recs],
-                                 dtype=object)
-        present = {f for f in fields if any(spec.column(f) in r for r in recs)}
-        if any(all(c in r for c in spec.time_columns) for r in recs):
-            present.add("time")
-        rows = np.arange(1, n + 1, dtype=np.int64)
-        raws = [json.dumps(r, ensure_ascii=False, sort_keys=True) for r in recs]
-        encoding = "utf-8"
-        if n and "time" not in present:
-            raise InputError(f"no vote has the field(s) {', '.join(spec.time_columns)}", where=spec.display,
-                             fix="give each vote a time, or map the field in [source.columns]")
+        cols, present, rows, raws, encoding = _json_columns(path, spec)
     else:
-        table = read_delimited(path, spec, list(spec.time_columns), [spec.column(f) for f in fields[1:]], q)
-        present = {f for f in fields[1:] if spec.column(f) in table.header} | {"time"}
-        cols = {f: (column(table, spec.column(f)) if f in present else pd.Series([""] * len(table.rows), dtype=object))
-                for f in fields[1:]}
-        cols["time"] = time_text(table, spec)
-        rows, raws, encoding = table.lines, table.raws, table.encoding
-        n = len(rows)
+        cols, present, rows, raws, encoding = _csv_columns(path, spec, q)
+    n = len(rows)
     for f in spec.columns:
         if f not in present and n:
             raise InputError(f"column '{spec.column(f)}' (mapped from {f}) is not in the file",
@@ -84,12 +82,44 @@ def read_votes(path, source_spec, session_spec):
                          fix="add a comfort and/or tsv column, or map them in [source.columns]")
     times, reason = parse_times(cols["time"], spec, session_spec, where=spec.display,
                                 lines=rows if spec.format != "json" else None)
+    values = _vote_values(cols, spec, session_spec, reason)
+    df, meta = finish(times, values, reason, None, rows, raws, q)
+    return df, assemble_metadata("votes", spec, meta, q, encoding=encoding, fields=sorted(present))
 
+
+_FIELDS = ("time", "participant", "comfort", "tsv", "note", "kind")
+
+
+def _json_columns(path: Path, spec):
+    recs = _json_records(path, spec)
+    n = len(recs)
+    cols = {f: pd.Series([_text(r.get(spec.column(f))) for r in recs], dtype=object) for f in _FIELDS}
+    cols["time"] = [pd.Series([_text(r.get(c)).strip() for r in recs], dtype=object) for c in spec.time_columns]
+    present = {f for f in _FIELDS if any(spec.column(f) in r for r in recs)}
+    if any(all(c in r for c in spec.time_columns) for r in recs):
+        present.add("time")
+    if n and "time" not in present:
+        raise InputError(f"no vote has the field(s) {', '.join(spec.time_columns)}", where=spec.display,
+                         fix="give each vote a time, or map the field in [source.columns]")
+    raws = [json.dumps(r, ensure_ascii=False, sort_keys=True) for r in recs]
+    return cols, present, np.arange(1, n + 1, dtype=np.int64), raws, "utf-8"
+
+
+def _csv_columns(path: Path, spec, q):
+    table = read_delimited(path, spec, list(spec.time_columns), [spec.column(f) for f in _FIELDS[1:]], q)
+    present = {f for f in _FIELDS[1:] if spec.column(f) in table.header} | {"time"}
+    cols = {f: (column(table, spec.column(f)) if f in present else pd.Series([""] * len(table.rows), dtype=object))
+            for f in _FIELDS[1:]}
+    cols["time"] = time_parts(table, spec)
+    return cols, present, table.lines, table.raws, table.encoding
+
+
+def _comfort_classes(values: pd.Series, spec, reason: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     labels = {k.strip().lower(): v for k, v in spec.comfort_labels.items()}
-    comfort = np.full(n, None, dtype=object)
-    miss_c = missing_mask(cols["comfort"], spec.na_values)
-    for i, v in enumerate(cols["comfort"]):
-        if miss_c[i]:
+    comfort = np.full(len(values), None, dtype=object)
+    miss = missing_mask(values, spec.na_values)
+    for i, v in enumerate(values):
+        if miss[i]:
             continue
         key = v.strip().lower()
         lab = labels.get(key, key)
@@ -97,6 +127,12 @@ def read_votes(path, source_spec, session_spec):
             comfort[i] = lab
         elif reason[i] == "":
             reason[i] = "bad_comfort"
+    return comfort, miss
+
+
+def _vote_values(cols: dict, spec, session_spec, reason: np.ndarray) -> dict:
+    """The vote columns; sets the rows' reasons (bad labels, scale, empty votes, other participants)."""
+    comfort, miss_c = _comfort_classes(cols["comfort"], spec, reason)
     tsv, bad = to_number(cols["tsv"], spec.decimal, spec.na_values)
     with np.errstate(invalid="ignore"):
         nonint = np.isfinite(tsv) & (np.round(tsv) != tsv)
@@ -105,18 +141,13 @@ def read_votes(path, source_spec, session_spec):
     reason[outr & (reason == "")] = "out_of_range:vote_tsv"
     empty = np.array([c is None for c in comfort], dtype=bool) & ~np.isfinite(tsv) & ~bad
     reason[empty & (reason == "") & miss_c] = "empty_vote"
-
     part = np.array([v.strip() if v.strip() else session_spec.participant for v in cols["participant"]], dtype=object)
-    other = part != session_spec.participant
-    reason[other & (reason == "")] = "other_participant"
+    reason[(part != session_spec.participant) & (reason == "")] = "other_participant"
     kind = np.array([v.strip().lower() for v in cols["kind"]], dtype=object)
-    badk = np.array([k not in VOTE_KINDS and k not in ("",) for k in kind], dtype=bool) if n else np.zeros(0, bool)
+    badk = np.array([k not in VOTE_KINDS and k != "" for k in kind], dtype=bool)
     reason[badk & (reason == "")] = "bad_kind"
-    note = np.array([v for v in cols["note"]], dtype=object)
-
-    values = {PARTICIPANT: part, VOTE_COMFORT: comfort, VOTE_TSV: tsv, VOTE_NOTE: note, VOTE_KIND: kind}
-    df, meta = finish(times, values, reason, None, rows, raws, q)
-    return df, assemble_metadata("votes", spec, meta, q, encoding=encoding, fields=sorted(present))
+    note = np.array(list(cols["note"]), dtype=object)
+    return {PARTICIPANT: part, VOTE_COMFORT: comfort, VOTE_TSV: tsv, VOTE_NOTE: note, VOTE_KIND: kind}
 
 
 def _text(v) -> str:
@@ -130,12 +161,19 @@ def _text(v) -> str:
 
 
 def _json_records(path: Path, spec) -> list[dict]:
-    text, _ = read_text(path)
+    text, _ = read_text(path, getattr(spec, "encoding", None), where=spec.display)
+    depth = _nesting_depth(text)
+    if depth > MAX_JSON_DEPTH:
+        raise InputError(f"the JSON is nested {depth} levels deep; a votes file needs {MAX_JSON_DEPTH} at most",
+                         where=spec.display, fix="write the votes as a flat array of objects")
     try:
         obj = json.loads(text)
     except json.JSONDecodeError as exc:
         raise InputError(f"not valid JSON ({exc.msg})", where=f"{spec.display}:{exc.lineno}",
                          fix="correct the JSON at that line (commas, quotes, brackets)") from None
+    except RecursionError:  # pragma: no cover - the depth check above comes first
+        raise InputError("the JSON is nested too deeply to read", where=spec.display,
+                         fix="write the votes as a flat array of objects") from None
     if isinstance(obj, dict) and isinstance(obj.get("votes"), list):
         obj = obj["votes"]
     if not isinstance(obj, list):
