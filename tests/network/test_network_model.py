@@ -69,3 +69,53 @@ def test_a_bad_bundle_is_one_error_before_any_partition_runs(tmp_path, capsys):
     assert rc == 2
     assert not (tmp_path / "out" / "job.json").exists()
     assert "error:" in capsys.readouterr().err
+
+
+def _own_working_dir():
+    """Runs on each Dask worker: move it into a fresh temporary folder of its own."""
+    import os
+    import tempfile
+
+    os.chdir(tempfile.mkdtemp(prefix="walkcomfort-worker-"))
+    return os.getcwd()
+
+
+def test_workers_in_their_own_folders_get_the_model_through_the_cluster(bundle, tmp_path, monkeypatch):
+    import shutil
+
+    from distributed import LocalCluster
+
+    from walkcomfort import _io
+    from walkcomfort.network.commands import plan_from_files
+    from walkcomfort.network.engines import run_job
+
+    # the driver names the model by a path relative to its own folder, which the workers do not share
+    shutil.copytree(bundle, tmp_path / "models" / "comfort")
+    streets = tmp_path / "streets.geojson"
+    streets.write_text(json.dumps(grid_network(3, 2, block_m=60.0)))
+    monkeypatch.chdir(tmp_path)
+    net, job = plan_from_files("streets.geojson", None, [], "2026-07-14T12:00", "2026-07-14T14:00", "1h",
+                               "Europe/Madrid", conditions="t_air_c=31,rh_pct=40,wind_ms=2",
+                               model="models/comfort", segment_length_m=60.0, tile_size_m=60.0, time_chunk=2)
+    assert job.bundle is not None and job.parameters["context"]["model"] == job.bundle["digest"]
+    assert "models/comfort" not in json.dumps(job.parameters)
+    assert run_job(job, tmp_path / "inproc").ok
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address="127.0.0.1:0") as cluster:
+        from distributed import Client
+
+        with Client(cluster) as client:
+            dirs = client.run(_own_working_dir)
+        assert len(set(dirs.values())) == 2 and str(tmp_path) not in " ".join(dirs.values())
+        report = run_job(job, tmp_path / "dask", "dask", scheduler=cluster.scheduler_address, timeout_s=60,
+                         max_in_flight=3)
+    assert report.ok and report.timings["peak_in_flight"] <= 3
+    assert not (rows := read_segment_hours(tmp_path / "dask"))["predictor"].eq("physics-rule").any()
+    a = sorted((tmp_path / "inproc" / "segment_hours").rglob("*.parquet"))
+    assert len(a) == len(job.partitions) > 3
+    for f in a:
+        assert _io.file_digest(f) == _io.file_digest(tmp_path / "dask" / f.relative_to(tmp_path / "inproc"))
+    # the workers wrote the files and sent back only counts and digests, which job.json keeps
+    saved = json.loads((tmp_path / "dask" / "job.json").read_text())
+    assert all(o["digest"] == _io.file_digest(tmp_path / "dask" / o["path"]) for o in saved["outcomes"])
+    assert len(rows) == job.expected_rows

@@ -108,6 +108,8 @@ class NetworkJob:
     parameters: dict
     digest: str
     schemes: list[str]
+    #: the model bundle as plain text, shipped to the workers (:func:`walkcomfort.network.shipping.pack_bundle`)
+    bundle: dict | None = None
 
     @property
     def expected_rows(self) -> int:

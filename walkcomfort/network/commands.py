@@ -62,19 +62,22 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
                              fix="choose daytime hours or leave out --daytime")
     source = open_weather(weather_path, parse_conditions(conditions), **kw)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
-    predictor = "physics-rule"
+    predictor, bundle = "physics-rule", None
     if model:
         # load once here: a bad bundle is one clear error now, not a failure in every partition
+        from walkcomfort.network.shipping import pack_bundle
         from walkcomfort.routes.predict import Predictor
 
         predictor = Predictor.from_bundle(model).label
+        bundle = pack_bundle(model)  # travels with the job: workers never see this machine's path
     context = {"wind_height_m": float(weather.attrs.get("wind_height_m", getattr(source, "wind_height_m", 10.0))),
-               "weather": getattr(source, "label", "weather"), "model": str(model) if model else None,
+               "weather": getattr(source, "label", "weather"), "model": bundle["digest"] if bundle else None,
                "predictor": predictor}
     weather = weather.copy()
     weather.attrs = {}
     job = plan_job(network, times, scenes, weather, tile_size_m=tile_size_m, time_chunk=time_chunk,
                    min_sun_elev_deg=min_sun_elev_deg, site=site, context=context)
+    job.bundle = bundle
     return network, job
 
 
@@ -137,8 +140,8 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--workers", default=2, show_default=True, type=int, help="Workers of the local Dask cluster.")
 @click.option("--threads-per-worker", default=1, show_default=True, type=int)
 @click.option("--write-on", type=click.Choice(["workers", "client"]), default=None,
-              help="Dask: who writes the Parquet files (default: workers on a local cluster, this process "
-                   "with --scheduler; 'workers' needs the output folder on storage they share).")
+              help="Dask: who writes the Parquet files (default: the workers, into an output folder they share; "
+                   "'client': rows come back and this process writes them).")
 @click.option("--retries", default=2, show_default=True, type=int, help="Extra attempts for a failing partition.")
 @click.option("--resume", is_flag=True, help="Keep partitions an earlier run of the same job already wrote.")
 @click.option("--overwrite", is_flag=True, help="Remove another job's results from the output folder first "

@@ -19,11 +19,15 @@ too makes the dataset readers refuse the schema); :func:`read_segment_hours`
 puts them back as columns.
 
 The Dask engine starts a ``dask.distributed.LocalCluster`` bound to the loopback
-interface, or connects to an existing scheduler by address. On a LocalCluster the
-worker that computed a partition also writes it (the folder is on this machine);
-with a scheduler address the rows come back and this process writes them, so
-remote workers need no access to the output folder, unless ``write_on="workers"``
-says they share it. Either way the bytes are the same.
+interface, or connects to an existing scheduler by address. Everything a partition
+needs travels with the task graph (:mod:`walkcomfort.network.shipping`): the model
+bundle's text once per worker, a tile's points and scene once per tile, each task only
+its own small description; workers need nothing but ``walkcomfort`` installed.
+Partitions go to the cluster in bounded waves (``max_in_flight``), so neither this
+process nor the scheduler holds more than a few tasks' worth of data. The worker
+that computed a partition writes it to the output folder (storage the workers share)
+and returns only its row count and file digest; ``write_on="client"`` brings the rows
+back to be written here instead (no shared storage). Either way the bytes are the same.
 """
 
 from __future__ import annotations
@@ -42,6 +46,14 @@ from walkcomfort._progress import track
 from walkcomfort.errors import InputError
 from walkcomfort.network.batch import NetworkJob, Partition, check_partition_result
 from walkcomfort.network.jobdir import REPORT_FILE, RESULTS_DIR, claim_out_dir, manifest_files, partition_relpath
+from walkcomfort.network.shipping import (
+    dress_partition,
+    job_bundle,
+    strip_partition,
+    tile_keys,
+    unpack_bundle,
+    with_model,
+)
 
 ENGINES = ("in-process", "dask")
 
@@ -57,6 +69,7 @@ class PartitionOutcome:
     attempts: int = 0
     path: str | None = None
     error: str | None = None
+    digest: str | None = None   # of the written file: reconciles with what is on disk
 
 
 @dataclass
@@ -109,24 +122,22 @@ def run_partition(fn, part: Partition) -> pd.DataFrame:
     return check_partition_result(part, fn(part))
 
 
-def run_and_write_partition(fn, part: Partition, out_dir: str, digest: str) -> tuple[int, float, float]:
-    """Run, check and write one partition where it runs (workers sharing the output folder).
+def run_shipped(fn, part: Partition, points, scene, bundle: dict | None, out_dir: str | None = None,
+                digest: str | None = None):
+    """What a worker runs: the partition dressed with its tile's data and the shipped model, checked.
 
-    Returns the number of rows written, the seconds spent writing and the CPU seconds of
-    the thread that did it all.
+    With ``out_dir`` the rows are written there (storage the workers share) and only
+    ``{"rows", "digest", "write_s", "cpu_s"}`` comes back; without, ``(rows, cpu_s)``.
     """
     c0 = _time.thread_time()
-    rows = run_partition(fn, part)
+    full = dress_partition(part, points, scene, unpack_bundle(bundle) if bundle else None)
+    rows = run_partition(fn, full)
+    if out_dir is None:
+        return rows, _time.thread_time() - c0
     tw = _time.perf_counter()
-    _write(out_dir, digest, part, rows)
-    return len(rows), _time.perf_counter() - tw, _time.thread_time() - c0
-
-
-def run_partition_timed(fn, part: Partition) -> tuple[pd.DataFrame, float]:
-    """:func:`run_partition` and the CPU seconds of the thread that ran it."""
-    c0 = _time.thread_time()
-    rows = run_partition(fn, part)
-    return rows, _time.thread_time() - c0
+    path = _write(out_dir, digest, full, rows)
+    write_s = _time.perf_counter() - tw
+    return {"rows": len(rows), "digest": _io.file_digest(path), "write_s": write_s, "cpu_s": _time.thread_time() - c0}
 
 
 def _write(out_dir, digest: str, part: Partition, rows: pd.DataFrame) -> Path:
@@ -178,7 +189,10 @@ class InProcessEngine:
         report = JobReport(job.digest, self.name, parameters=_engine_params(self))
         t0 = _time.perf_counter()
         todo = _resume(job, out_dir, report, resume, overwrite)
+        bundle = job_bundle(job)
+        model = unpack_bundle(bundle) if bundle else None  # the same path the workers take
         for part in track(todo, "network partitions", total=len(todo), enabled=progress):
+            part = with_model(part, model)
             outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
             for attempt in range(1, self.retries + 2):
                 outcome.attempts = attempt
@@ -201,7 +215,7 @@ class InProcessEngine:
                     report.timings["write"] += _time.perf_counter() - tw
                     report.timings["cpu"] += _time.thread_time() - cw
                 outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
-                outcome.path = path.relative_to(out_dir).as_posix()
+                outcome.path, outcome.digest = path.relative_to(out_dir).as_posix(), _io.file_digest(path)
                 break
             report.outcomes.append(outcome)
         report.seconds = _time.perf_counter() - t0
@@ -228,19 +242,23 @@ class DaskEngine:
     timeout_s : float
         How long to wait for the cluster to start or the scheduler to answer [s].
     write_on : {"workers", "client"}, optional
-        Who writes a partition's Parquet file: the worker that computed it (needs the
-        output folder on storage the workers share; the default for a LocalCluster) or
-        this process (rows travel back; the default with a scheduler address).
+        Who writes a partition's Parquet file: the worker that computed it (the default;
+        the output folder must be on storage the workers share) or this process (rows
+        travel back: for workers that cannot reach the output folder).
+    max_in_flight : int, optional
+        Partitions on the cluster at a time (default: 4 per worker thread, at least 8).
     """
 
     name = "dask"
 
     def __init__(self, scheduler: str | None = None, workers: int = 2, threads_per_worker: int = 1,
-                 processes: bool = True, retries: int = 2, timeout_s: float = 60.0, write_on: str | None = None):
+                 processes: bool = True, retries: int = 2, timeout_s: float = 60.0, write_on: str | None = None,
+                 max_in_flight: int | None = None):
         if write_on not in (None, "workers", "client"):
             raise InputError(f"write_on = {write_on!r}; allowed: workers, client",
                              fix="give --write-on workers (shared storage) or --write-on client")
-        self.write_on = write_on or ("client" if scheduler else "workers")
+        self.write_on = write_on or "workers"
+        self.max_in_flight = int(max_in_flight) if max_in_flight else None
         self.scheduler = scheduler
         self.workers = int(workers)
         self.threads_per_worker = int(threads_per_worker)
@@ -277,8 +295,6 @@ class DaskEngine:
 
     def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None,
             overwrite: bool = False) -> JobReport:
-        from distributed import as_completed
-
         report = JobReport(job.digest, self.name, parameters=_engine_params(self))
         t0 = _time.perf_counter()
         todo = _resume(job, out_dir, report, resume, overwrite)
@@ -292,9 +308,7 @@ class DaskEngine:
             # import the heavy modules on every worker before the clock for partitions starts
             client.run(_warm_up, getattr(job.partition_fn, "__module__", None))
         except BaseException as exc:
-            client.close()
-            if cluster is not None:
-                cluster.close()
+            _close(client, cluster)
             if isinstance(exc, ImportError):
                 raise InputError(f"the Dask workers cannot import what the batch needs ({exc})",
                                  fix="install walkcomfort with its dependencies where the workers run "
@@ -302,55 +316,141 @@ class DaskEngine:
             raise
         report.timings["start"] = _time.perf_counter() - ts
         try:
-            by_key = {}
-            futures = []
-            tag = job.digest.split(":")[-1][:12]
-            out_abs = str(Path(out_dir).resolve())
-            for part in todo:
-                key = f"walkcomfort-network-{tag}-{part.partition_id}"
-                if self.write_on == "workers":
-                    fut = client.submit(run_and_write_partition, job.partition_fn, part, out_abs, job.digest,
-                                        key=key, retries=self.retries, pure=False)
-                else:
-                    fut = client.submit(run_partition_timed, job.partition_fn, part, key=key,
-                                        retries=self.retries, pure=False)
-                by_key[fut.key] = part
-                futures.append(fut)
-            for fut in track(as_completed(futures), "network partitions", total=len(futures), enabled=progress):
-                part = by_key[fut.key]
-                outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
-                if fut.status == "error":
-                    exc = fut.exception()
-                    exc.__traceback__ = fut.traceback()
-                    outcome.error = _error_text(exc)
-                    outcome.attempts = self.retries + 1
-                elif fut.status != "finished":  # cancelled: the scheduler or its workers went away
-                    outcome.error = f"the task was {fut.status} by the Dask scheduler (workers lost?)"
-                else:
-                    if self.write_on == "workers":
-                        n_rows, w_s, cpu_s = fut.result()
-                        report.timings["write"] += w_s  # summed over workers (not wall time here)
-                        report.timings["cpu"] += cpu_s
-                    else:
-                        rows, cpu_s = fut.result()
-                        report.timings["cpu"] += cpu_s
-                        tw = _time.perf_counter()
-                        _write(out_dir, job.digest, part, rows)
-                        report.timings["write"] += _time.perf_counter() - tw
-                        n_rows = len(rows)
-                    outcome.status, outcome.written_rows = "written", int(n_rows)
-                    outcome.path = partition_path(out_dir, part).relative_to(out_dir).as_posix()
-                    # Dask does not tell how many tries a success took; at least one
-                    outcome.attempts = 1
-                fut.release()
-                report.outcomes.append(outcome)
+            _Waves(self, client, job, out_dir, report).run(todo, progress)
         finally:
-            client.close()
-            if cluster is not None:
-                cluster.close()
+            _close(client, cluster)
         report.seconds = _time.perf_counter() - t0
         _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
         return report
+
+
+def _same(obj):
+    """A task that hands its argument on (tile data kept on the cluster under one key)."""
+    return obj
+
+
+def _close(client, cluster) -> None:
+    client.close()
+    if cluster is not None:
+        cluster.close()
+
+
+class _Waves:
+    """Partitions submitted in bounded waves; tile data and the model sent once, released when done.
+
+    At most ``max_in_flight`` partitions are on the cluster at a time (a new one is
+    submitted as one finishes), so the scheduler holds a bounded number of small tasks
+    whatever the job's size; a tile's points and scene go to the cluster as one keyed
+    task when its first partition is submitted and are released after its last one.
+    """
+
+    def __init__(self, engine: DaskEngine, client, job: NetworkJob, out_dir, report: JobReport):
+        self.engine, self.client, self.job, self.report = engine, client, job, report
+        self.out_dir = Path(out_dir)
+        self.out_abs = str(self.out_dir.resolve())
+        self.tag = job.digest.split(":")[-1][:12]
+        bundle = job_bundle(job)
+        # one key for the whole job: each worker fetches it once (and a new worker can get it again)
+        self.bundle = (client.submit(_same, bundle, key=f"walkcomfort-model-{self.tag}", pure=False)
+                       if bundle else None)
+        self.tiles: dict[str, object] = {}
+        self.left: dict[str, int] = {}
+        self.by_key: dict[str, Partition] = {}
+        self.peak_in_flight = 0
+
+    def max_in_flight(self) -> int:
+        if self.engine.max_in_flight:
+            return self.engine.max_in_flight
+        threads = sum((self.client.nthreads() or {}).values()) or 1
+        return max(8, 4 * threads)
+
+    def _tile(self, part: Partition):
+        keys = tile_keys(part)
+        if keys[0] not in self.tiles:
+            # a task that returns the tile's data, not a scatter: the scheduler keeps its recipe (once per
+            # tile, while the tile has partitions in flight), so a worker lost with the data can be replaced
+            tag = f"walkcomfort-tile-{self.tag}-{part.scheme}/{part.tile_id}"
+            self.tiles[keys[0]] = self.client.submit(_same, part.points, key=f"{tag}-points", pure=False)
+            self.tiles[keys[1]] = self.client.submit(_same, part.scene, key=f"{tag}-scene", pure=False)
+        for k in keys:
+            self.left[k] = self.left.get(k, 0) + 1
+        return [self.tiles[k] for k in keys]
+
+    def _release(self, part: Partition) -> None:
+        for k in tile_keys(part):
+            self.left[k] -= 1
+            if self.left[k] == 0:
+                self.tiles.pop(k).release()
+
+    def submit(self, part: Partition):
+        points, scene = self._tile(part)
+        write = self.engine.write_on == "workers"
+        fut = self.client.submit(run_shipped, self.job.partition_fn, strip_partition(part), points, scene,
+                                 self.bundle, self.out_abs if write else None, self.job.digest,
+                                 key=f"walkcomfort-network-{self.tag}-{part.partition_id}",
+                                 retries=self.engine.retries, pure=False)
+        self.by_key[fut.key] = part
+        return fut
+
+    def run(self, todo: list[Partition], progress) -> None:
+        from itertools import islice
+
+        from distributed import as_completed
+
+        queue = iter(todo)
+        limit = self.max_in_flight()
+        done = as_completed()
+        for p in islice(queue, limit):
+            self._submit_or_fail(p, done)
+        self.peak_in_flight = len(self.by_key)
+        for fut in track(done, "network partitions", total=len(todo), enabled=progress):
+            part = self.by_key.pop(fut.key)
+            self.report.outcomes.append(self.outcome(fut, part))
+            fut.release()
+            self._release(part)
+            for nxt in islice(queue, 1):
+                self._submit_or_fail(nxt, done)
+        for nxt in queue:  # the cluster went away before these could be submitted: failed, never missing
+            self._submit_or_fail(nxt, None)
+        self.report.timings["peak_in_flight"] = self.peak_in_flight
+
+    def _submit_or_fail(self, part: Partition, done) -> None:
+        try:
+            if done is None:
+                raise OSError("the cluster stopped answering before this partition was submitted")
+            done.add(self.submit(part))
+        except (OSError, TimeoutError) as exc:  # a comm failure: this partition fails, the job goes on
+            outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
+            outcome.error = _error_text(exc)
+            self.report.outcomes.append(outcome)
+
+    def outcome(self, fut, part: Partition) -> PartitionOutcome:
+        outcome = PartitionOutcome(part.partition_id, "failed", part.expected_rows)
+        if fut.status == "error":
+            exc = fut.exception()
+            exc.__traceback__ = fut.traceback()
+            outcome.error = _error_text(exc)
+            outcome.attempts = self.engine.retries + 1
+            return outcome
+        if fut.status != "finished":  # cancelled: the scheduler or its workers went away
+            outcome.error = f"the task was {fut.status} by the Dask scheduler (workers lost?)"
+            return outcome
+        res = fut.result()
+        if isinstance(res, dict):
+            self.report.timings["write"] += res["write_s"]  # summed over workers (not wall time here)
+            self.report.timings["cpu"] += res["cpu_s"]
+            n_rows, outcome.digest = res["rows"], res["digest"]
+        else:
+            rows, cpu_s = res
+            self.report.timings["cpu"] += cpu_s
+            tw = _time.perf_counter()
+            path = _write(self.out_dir, self.job.digest, part, rows)
+            self.report.timings["write"] += _time.perf_counter() - tw
+            n_rows, outcome.digest = len(rows), _io.file_digest(path)
+        outcome.status, outcome.written_rows = "written", int(n_rows)
+        outcome.path = partition_path(self.out_dir, part).relative_to(self.out_dir).as_posix()
+        outcome.attempts = 1  # Dask does not tell how many tries a success took; at least one
+        return outcome
 
 
 def _warm_up(module: str | None) -> None:
