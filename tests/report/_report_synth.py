@@ -134,6 +134,7 @@ def summaries(points: pd.DataFrame) -> pd.DataFrame:
     for (route, scheme, dep), g in points.groupby(["route_id", "scheme", "departure"], sort=True):
         rows.append({"route_id": route, "scheme": scheme, "departure": dep,
                      "walk_min": (g.index.max() - g.index.min()).total_seconds() / 60, "length_m": g[C.DIST_M].max(),
+                     "exp_min_comfortable": g["p_comfortable"].mean() * (g.index.max() - g.index.min()).total_seconds() / 60,
                      **{f"exp_share_{c}": g[f"p_{c}"].mean() for c in C.COMFORT_CLASSES},
                      "shade_share": float((g[C.SHADE_FRAC] >= 0.5).mean()), "mean_utci_c": g[C.UTCI_C].mean(),
                      "peak_utci_c": g[C.UTCI_C].max(), "heat_dose_cmin": 42.0})
@@ -175,3 +176,26 @@ def network_layers() -> list[dict]:
 
     summary = network_summary()
     return [network_layer(summary, "base"), network_layer(summary, "trees")]
+
+
+def page_data(page: str) -> dict:
+    """The map page's data block (what its script draws from)."""
+    import json
+    import re
+
+    m = re.search(r'<script type="application/json" id="wc-data">(.*?)</script>', page, re.S)
+    assert m is not None, "no data block in the page"
+    return json.loads(m.group(1))
+
+
+def comparison(points: pd.DataFrame, half_width_min: float = 0.5, base: str = "base") -> pd.DataFrame:
+    """A comparison table as routes.compare writes it, with the interval columns of the contract."""
+    summ = summaries(points)
+    b = summ[summ["scheme"] == base].set_index("departure")
+    out = summ[summ["scheme"] != base].copy()
+    for col in ("exp_min_comfortable", "heat_dose_cmin", "peak_utci_c", "mean_utci_c"):
+        out[f"delta_{col}"] = out[col].to_numpy() - b[col].reindex(out["departure"]).to_numpy()
+        out[f"delta_{col}_lo"] = out[f"delta_{col}"] - half_width_min
+        out[f"delta_{col}_hi"] = out[f"delta_{col}"] + half_width_min
+    out["within_model_error"] = (out["delta_exp_min_comfortable_lo"] <= 0) & (out["delta_exp_min_comfortable_hi"] >= 0)
+    return out.reset_index(drop=True)

@@ -41,13 +41,20 @@ def test_map_command_writes_offline_html(tmp_path, points, capsys):
     scheme = _io.write_json(tmp_path / "trees.geojson", S.scheme())
     out = tmp_path / "map.html"
     rc = main(["map", str(points.parent), "--walk", str(walks), "--scene", str(scene), "--scheme", str(scheme),
-               "--offline", "-o", str(out)])
+               "-o", str(out)])
     assert rc == 0
     assert f"wrote {out}" in capsys.readouterr().out
     page = out.read_text()
-    assert "cdn.jsdelivr" not in page
-    assert "More street trees · departing 09:00" in page  # zone from the table's metadata, label from the scheme
-    assert "Votes · tw-a" in page and "Votes · tw-b" in page
+    assert "cdn.jsdelivr" not in page  # self-contained by default
+    data = S.page_data(page)
+    assert data["routes"]["deps"][0]["label"] == "09:00"  # zone from the table's metadata
+    assert data["schemes"][1]["label"] == "More street trees"  # label from the scheme file
+    assert [w["walk"] for w in data["walks"]] == ["tw-a", "tw-b"]
+    # --online links Leaflet; the older --offline flag is still accepted
+    assert main(["map", str(points.parent), "--online", "-o", str(out)]) == 0
+    assert "cdn.jsdelivr" in out.read_text()
+    assert main(["map", str(points.parent), "--offline", "-o", str(out)]) == 0
+    assert main(["map", str(points.parent), "--offline", "--online", "-o", str(out)]) == 2
 
 
 def test_map_command_size_warning_is_one_line(tmp_path, points, capsys):
@@ -119,12 +126,12 @@ def test_map_command_predicts_walks_with_a_model(tmp_path, monkeypatch, capsys):
     monkeypatch.setattr(predict, "predict_timeline", fake_predict)
     out = tmp_path / "m.html"
     assert main(["map", "--walk", str(walks), "-o", str(out)]) == 0
-    assert "Model errors" not in out.read_text()  # no prediction, no error layer
+    assert S.page_data(out.read_text())["errors"] is None  # no prediction, no error layer
     assert main(["map", "--walk", str(walks), "--model", str(model_dir), "-o", str(out)]) == 0
     assert seen == {"model": f"model from {model_dir}", "reasons": False}
-    page = out.read_text()
-    assert "Model errors (50 m cells)" in page
-    assert "in-sample" in page
+    data = S.page_data(out.read_text())
+    assert data["errors"]["cell_m"] == 50.0
+    assert data["cfg"]["errors_title"] == "Where the model errs (in-sample)"
     assert main(["map", "--walk", str(walks), "--model", str(tmp_path), "-o", str(out)]) == 2
     assert "not a model bundle" in capsys.readouterr().err
 
@@ -167,8 +174,9 @@ def test_map_command_uses_the_held_out_predictions_of_the_bundle(tmp_path, monke
     out = tmp_path / "m.html"
     assert main(["map", "--walk", str(walks), "--model", str(model_dir), "-o", str(out)]) == 0
     page = out.read_text()
-    assert "Model errors, held-out walkers (50 m cells)" in page
-    assert "never saw that walker" in page and "in-sample errors" not in page
+    data = S.page_data(page)
+    assert data["cfg"]["errors_title"] == "Where the model errs on held-out walkers"
+    assert "never saw that walker" in data["cfg"]["errors_note"]
     # 5 votes, all predicted "comfortable": 4 disagree (one vote is comfortable)
     cells = re.findall(r'"n":(\d+),"w":(\d+)', page)
     assert sum(int(n) for n, _ in cells) == 5 and sum(int(w) for _, w in cells) == 4
@@ -192,5 +200,5 @@ def test_map_command_falls_back_to_in_sample_for_a_walker_who_trained_it(tmp_pat
     monkeypatch.setattr(predict, "predict_timeline", fake_predict)
     out = tmp_path / "m.html"
     assert main(["map", "--walk", str(walks), "--model", str(model_dir), "-o", str(out)]) == 0
-    page = out.read_text()
-    assert "Model errors (50 m cells)" in page and "in-sample errors" in page
+    data = S.page_data(out.read_text())
+    assert data["cfg"]["errors_title"].endswith("(in-sample)") and "in-sample errors" in data["cfg"]["errors_note"]

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+import _report_synth as S
 import pytest
 
 from walkcomfort.cli import main
@@ -33,14 +34,16 @@ def test_map_of_real_route_predictions_and_walks(demo_outputs, demo_dir):
     out = root / "map.html"
     assert main(["map", str(root / "routes"), "--scene", str(demo_dir / "scene.geojson"),
                  "--scheme", str(demo_dir / "schemes" / "canopy-placa.geojson"), "--walk", str(root / "walks"),
-                 "--offline", "-o", str(out)]) == 0
-    page = out.read_text()
+                 "-o", str(out)]) == 0
+    data = S.page_data(out.read_text())
     label = json.loads((demo_dir / "schemes" / "canopy-placa.geojson").read_text())["walkcomfort"]["label"]
-    assert "base scene (no edits) · departing 15:00" in page  # the routes stage's base label, local time
-    assert f"{label} · departing 15:00" in page
-    assert f"Votes · {walk_id}" in page
-    assert '"e":"add"' in page  # the scheme's added canopy is marked in its scene layer
-    assert '"summ":[{' in page  # summary.parquet beside the points reached the popups
+    assert [s["label"] for s in data["schemes"]] == ["base scene (no edits)", label]  # the routes stage's base label
+    assert [d["label"] for d in data["routes"]["deps"]] == ["15:00"]  # local time
+    assert [w["walk"] for w in data["walks"]] == [walk_id]
+    assert any(f["e"] == "add" for f in data["scenes"]["canopy-placa"])  # the scheme's added canopy is marked
+    assert data["routes"]["combos"]["base"][0]["summ"][0]  # summary.parquet beside the points reached the popups
+    ctx = data["context"]
+    assert ctx["date"] == "Tue 14 Jul 2026" and "conditions" in ctx["weather"] and ctx["caveat"]
     assert out.stat().st_size < 1_000_000
 
 

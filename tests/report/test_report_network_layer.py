@@ -1,9 +1,6 @@
-"""Street-network layers on the route map: colour bins, payload, labels, CLI."""
+"""Street-network layers on the route map: scale, classes, payload, labels, CLI."""
 
 from __future__ import annotations
-
-import json
-import re
 
 import _report_synth as S
 import pytest
@@ -11,73 +8,54 @@ import pytest
 from walkcomfort import _io
 from walkcomfort.cli import main
 from walkcomfort.errors import InputError
+from walkcomfort.report import map as R
 from walkcomfort.report import palette as P
-from walkcomfort.report import routemap as R
+from walkcomfort.report.map import streets as ST
 
 
-def _payloads(html: str) -> list[dict]:
-    """The JSON payloads of the page (the data of each layer)."""
-    out = []
-    for m in re.finditer(r"var walkcomfort_data_\w+ = (\{.*?\});\n", html):
-        out.append(json.loads(m.group(1)))
-    return out
-
-
-def test_bins_share_one_scale_and_follow_the_values():
+def test_scale_is_shared_and_classes_follow_the_values():
     layers = S.network_layers()
-    keys = R.network_keys(layers)
-    assert keys["max_hours"] == 10.0 and len(keys["hours"]) == R.NETWORK_BINS
-    assert keys["hours"][0]["label"].startswith("0–2 h") and keys["hours"][-1]["label"].startswith("8–10 h")
-    # the largest change of the synthetic trees scheme is 2 h: split at 1 h
-    assert keys["max_change"] == pytest.approx(2.0)
-    assert [k["colour"] for k in keys["change"]] == list(P.NETWORK_CHANGE_STOPS)
-    props = {f["properties"]["segment_id"]: f["properties"] for f in layers[1]["features"]}
-    assert R._network_bin(props["st0#000"], True, keys) == 4     # +2 h: more than 1 h more
-    assert R._network_bin(props["st1#001"], True, keys) == 1     # -1 h: up to 1 h fewer
-    assert R._network_bin(props["st2#002"], True, keys) == 2     # no change
-    base = {f["properties"]["segment_id"]: f["properties"] for f in layers[0]["features"]}
-    assert R._network_bin(base["st0#000"], False, keys) == 0     # 0 h comfortable
-    assert R._network_bin(base["st0#003"], False, keys) == 4     # all 10 h (top edge in the top bin)
-    assert R._network_bin(base["st0#001"], False, keys) == 1     # 3.3 h in 2–4 h
+    scale = ST.network_scale(layers)
+    assert scale["max_hours"] == 10.0
+    keys = ST.hours_keys(scale)
+    assert len(keys) == ST.NETWORK_BINS and [k["colour"] for k in keys] == list(P.NETWORK_HOURS_STOPS)
+    assert keys[0]["label"].startswith("0–2 h expected comfortable") and keys[-1]["label"].startswith("8–10 h")
+    base, trees = (ST.network_payload(d, scale, 5) for d in layers)
+    assert not base["change"] and trees["change"] and base["dk"] == {}
+    ids = {sid: i for i, sid in enumerate(trees["id"])}
+    # expected comfortable hours, not arg-max counts: the class follows expected_comfortable_h
+    exp = [f["properties"]["expected_comfortable_h"] for f in layers[0]["features"]]
+    assert base["k"]["comfort"] == [min(4, int(v / 10.0 * 5)) for v in exp]
+    change = trees["dk"]["comfort"]
+    assert change[ids["st2#002"]] == 2                       # no change
+    assert change[ids["st0#000"]] in (3, 4)                  # gained hours: better
+    assert change[ids["st1#001"]] in (0, 1)                  # lost an hour: worse
 
 
-def test_hours_colouring_everywhere_and_a_floor_on_the_change_scale():
-    layers = S.network_layers()
-    assert R.network_keys(layers, "hours")["change"] == []
-    flat = [S.network_layers()[0], json.loads(json.dumps(S.network_layers()[1]))]
-    for f in flat[1]["features"]:
-        f["properties"]["d_comfortable_h"] = 0.0
-    assert R.network_keys(flat)["max_change"] == R.NETWORK_MIN_CHANGE_SCALE_H
-    with pytest.raises(InputError, match="colouring"):
-        R.network_keys(layers, "rainbow")
-
-
-def test_map_has_one_network_layer_per_scheme_with_escaped_names(tmp_path):
-    fmap = R.route_map(S.predictions(), network=S.network_layers(), schemes=[S.scheme()], timezone="Europe/Madrid")
-    html = R.write_map(fmap, tmp_path / "m.html").read_text()
-    assert f"Streets · {R._base_label('base')} · comfortable hours" in html
-    assert "Streets · More street trees · change in comfortable hours" in html  # the scheme file's label
+def test_map_carries_one_street_layer_per_scheme_with_text_as_data(tmp_path):
+    fmap = R.route_map(S.predictions(), network=S.network_layers(), schemes=[S.scheme()], timezone="Europe/Madrid",
+                       network_times="3 times on 1 day(s)")
+    page = R.write_map(fmap, tmp_path / "m.html").read_text()
     # user text (a street name) never reaches the page as markup
-    assert "<img src=x" not in html and "\\u003cimg src=x" in html
-    data = [d for d in _payloads(html) if "k" in d and "change" in d]
-    assert len(data) == 2
-    base, trees = data
-    assert not base["change"] and trees["change"]
-    assert len(base["id"]) == len(base["c"]) == len(base["k"]) == 12
-    assert set(trees["v"]) >= {"d_comfortable_h", "gained_comfortable_h", "lost_comfortable_h"}
+    assert "<img src=x" not in page and "\\u003cimg src=x" in page
+    data = S.page_data(page)
+    assert set(data["streets"]) == {"base", "trees"} and data["street_times"] == "3 times on 1 day(s)"
+    base, trees = data["streets"]["base"], data["streets"]["trees"]
+    assert len(base["id"]) == len(base["c"]) == len(base["k"]["comfort"]) == 12
+    assert set(trees["v"]) >= {"d_expected_comfortable_h", "d_heat_stress_h", "d_mean_utci_c"}
     # coordinates as [lat, lon] (Leaflet's order), rounded to the map's decimals
     lat, lon = base["c"][0][0]
     assert abs(lat - S.LAT0) < 0.01 and abs(lon - S.LON0) < 0.01
     assert all(len(str(v).split(".")[-1]) <= 5 for v in (lat, lon))
-    # without predictions the first network layer is the one shown
-    fmap = R.route_map(network=S.network_layers())
-    assert fmap is not None
+    # the street legend keys for the difference view name the unit and the no-change class
+    assert data["cfg"]["street_diff"]["comfort"][2]["label"].startswith("no change (under 0.05 h)")
+    # without predictions the streets are switched on
+    assert R.route_map(network=S.network_layers()).data["overlays"]["streets"]
 
 
-def test_network_layer_kind_can_be_left_out_and_bad_layers_refused(tmp_path):
-    fmap = R.route_map(S.predictions(), network=S.network_layers(), layers=("comfort",))
-    html = R.write_map(fmap, tmp_path / "m.html").read_text()
-    assert "Streets ·" not in html
+def test_network_layer_kind_can_be_left_out_and_bad_layers_refused():
+    fmap = R.route_map(S.predictions(), network=S.network_layers(), layers=("routes",))
+    assert fmap.data["streets"] is None
     with pytest.raises(InputError, match="not a network map layer"):
         R.route_map(network=[{"type": "FeatureCollection", "features": []}])
 
@@ -88,13 +66,12 @@ def test_map_command_reads_a_network_folder(tmp_path, capsys):
         _io.write_json(folder / f"network_layer_{layer['walkcomfort']['scheme']}.geojson", layer)
     out = tmp_path / "m.html"
     assert main(["map", "--network", str(folder), "-o", str(out)]) == 0
-    html = out.read_text()
-    assert html.index("Streets · ") < html.index("change in comfortable hours")  # the base first
-    assert main(["map", "--network", str(folder), "--network-scheme", "trees", "--network-colour", "hours",
-                 "-o", str(out)]) == 0
-    html = out.read_text()
-    assert "Streets · trees · comfortable hours" in html and "change in comfortable hours" not in html
+    data = S.page_data(out.read_text())
+    assert list(data["streets"]) == ["base", "trees"]  # the base first
+    assert main(["map", "--network", str(folder), "--network-scheme", "trees", "-o", str(out)]) == 0
+    assert list(S.page_data(out.read_text())["streets"]) == ["trees"]
     assert main(["map", "--network", str(folder), "--network-scheme", "palms", "-o", str(out)]) == 2
     err = capsys.readouterr().err
     assert "palms" in err and len(err.strip().splitlines()) == 1
     assert main(["map", "--network", str(tmp_path), "-o", str(out)]) == 2
+

@@ -32,6 +32,37 @@ def test_comfort_classes_stay_apart_under_colour_vision_deficiency(cvd):
     assert min(diffs) > 30.0, diffs
 
 
+@pytest.mark.parametrize("cvd", [None, "deuteranomaly", "protanomaly", "tritanomaly"])
+@pytest.mark.parametrize("ramp", sorted(P.RAMPS))
+def test_adjacent_classes_of_every_ramp_stay_apart_under_colour_vision_deficiency(ramp, cvd):
+    # Reference library: colorspacious (test-only), Machado et al. (2009) CVD simulation at full
+    # severity (the dichromacies deuteranopia, protanopia, tritanopia) and CAM02-UCS ΔE'.
+    from colorspacious import cspace_convert, deltaE
+
+    cols = [_rgb1(c) for c in P.RAMPS[ramp]]
+    if cvd is not None:
+        space = {"name": "sRGB1+CVD", "cvd_type": cvd, "severity": 100}
+        cols = [np.clip(cspace_convert(c, space, "sRGB1"), 0, 1) for c in cols]
+    diffs = [float(deltaE(a, b, input_space="sRGB1", uniform_space="CAM02-UCS")) for a, b in zip(cols[:-1], cols[1:],
+                                                                                                 strict=True)]
+    # neighbouring classes of an ordered ramp must read as different steps at a glance: ΔE' ≥ 10
+    # (about five just-noticeable differences; common practice for map classes)
+    assert min(diffs) >= 10.0, (ramp, cvd, [round(d, 1) for d in diffs])
+
+
+def test_no_ramp_reuses_the_published_utci_chart_hues():
+    # our "no thermal stress" is a pale neutral, not the green of the published chart's convention
+    from colorspacious import cspace_convert
+
+    j, c, h = cspace_convert(_rgb1(P.UTCI_BAND_COLOURS["no thermal stress"]), "sRGB1", "JCh")
+    assert j > 90 and c < 10
+    # heat and cold sides darken away from it (read in greyscale too)
+    lightness = [float(cspace_convert(_rgb1(x), "sRGB1", "JCh")[0]) for x in P.UTCI_BAND_COLOURS.values()]
+    peak = lightness.index(max(lightness))
+    assert list(P.UTCI_BAND_COLOURS)[peak] == "no thermal stress"
+    assert all(np.diff(lightness[:peak + 1]) > 0) and all(np.diff(lightness[peak:]) < 0)
+
+
 def test_comfort_classes_differ_in_lightness_for_greyscale_print():
     from colorspacious import cspace_convert
 
@@ -40,7 +71,7 @@ def test_comfort_classes_differ_in_lightness_for_greyscale_print():
 
 
 def test_sequential_ramps_are_monotone_in_lightness():
-    for stops, falling in ((P.SHADE_STOPS, True), (P.ERROR_STOPS, True)):
+    for stops, falling in ((P.SHADE_STOPS, True), (P.ERROR_STOPS, True), (P.NETWORK_HOURS_STOPS, True)):
         lum = [P.relative_luminance(P.ramp(stops, v)) for v in np.linspace(0, 1, 21)]
         steps = np.diff(lum)
         assert (steps < 0).all() if falling else (steps > 0).all()

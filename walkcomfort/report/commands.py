@@ -12,6 +12,7 @@ from walkcomfort.errors import InputError
 
 POINTS_FILE = "points.parquet"
 SUMMARY_FILE = "summary.parquet"  # route summaries beside the points (walkcomfort.routes.outputs)
+COMPARISON_FILE = "comparison.csv"  # schemes against the base, with intervals when the routes stage gives them
 TIMELINE_FILE = "timeline.parquet"
 BUNDLE_MANIFEST = "manifest.json"
 SESSION_REPORT_FILE = "session_report.html"
@@ -203,6 +204,51 @@ def is_model_bundle(path: Path) -> bool:
 # --------------------------------------------------------------------------------------
 # map
 # --------------------------------------------------------------------------------------
+def read_route_tables(points) -> dict:
+    """Prediction tables and what the routes stage wrote beside them (summary, comparison, provenance)."""
+    import pandas as pd
+
+    from walkcomfort import _io
+
+    tables, summaries, comparisons, attrs, provenance = [], [], [], {}, {}
+    for p in points:
+        df, meta = read_points(p)
+        tables.append(df)
+        attrs = attrs or meta
+        folder = Path(p) if Path(p).is_dir() else Path(p).parent
+        if (folder / SUMMARY_FILE).is_file():
+            summaries.append(pd.read_parquet(folder / SUMMARY_FILE))
+        if (folder / COMPARISON_FILE).is_file():
+            comparisons.append(pd.read_csv(folder / COMPARISON_FILE))
+        if not provenance and (folder / POINTS_FILE).is_file():
+            provenance = _io.read_parquet_metadata(folder / POINTS_FILE).get("provenance") or {}
+    return {"predictions": pd.concat(tables) if tables else None,
+            "summaries": pd.concat(summaries, ignore_index=True) if summaries else None,
+            "comparison": pd.concat(comparisons, ignore_index=True) if comparisons else None,
+            "attrs": attrs, "provenance": provenance}
+
+
+def network_times(folder: Path | None, timezone: str) -> str | None:
+    """The hours and days a network batch covers, in words, from one tile of its base scheme."""
+    import pandas as pd
+
+    if folder is None or not folder.is_dir():
+        return None
+    parts = sorted((folder / "segment_hours").glob("scheme=*/tile_id=*/*.parquet"))
+    if not parts:
+        return None
+    tile = parts[0].parent
+    times = pd.DatetimeIndex(sorted({t for f in sorted(tile.glob("*.parquet"))
+                                     for t in pd.read_parquet(f, columns=[]).index})).tz_convert(timezone)
+    if not len(times):
+        return None
+    days = sorted({t.strftime("%a %d %b %Y") for t in times})
+    hours = ", ".join(sorted({t.strftime("%H:%M") for t in times}))
+    step = (times[1] - times[0]) if len(times) > 1 else None
+    each = f", each standing for {step.total_seconds() / 3600:g} h" if step is not None else ""
+    return f"{len(times)} times on {len(days)} day(s) ({'; '.join(days)}: {hours} {timezone}{each})"
+
+
 @click.command("map")
 @click.argument("points", nargs=-1, type=click.Path(path_type=Path))
 @click.option("-o", "--out", "out_html", type=click.Path(path_type=Path), required=True,
@@ -210,7 +256,7 @@ def is_model_bundle(path: Path) -> bool:
 @click.option("--scene", "scene_path", type=click.Path(path_type=Path), default=None,
               help="Scene GeoJSON (buildings, trees, canopies) to draw under the routes.")
 @click.option("--scheme", "scheme_paths", multiple=True, type=click.Path(path_type=Path),
-              help="Scheme GeoJSON (names the layers, draws its edits). Repeatable.")
+              help="Scheme GeoJSON (names the scheme, draws its edits). Repeatable.")
 @click.option("--walk", "walk_paths", multiple=True, type=click.Path(path_type=Path),
               help="Recorded walk: timeline.parquet, its folder, or a folder of walk folders. Repeatable.")
 @click.option("--model", "model_path", type=click.Path(path_type=Path), default=None,
@@ -218,20 +264,21 @@ def is_model_bundle(path: Path) -> bool:
                    "with the votes (held-out walkers: the fit's out-of-fold predictions, when the bundle has them).")
 @click.option("--network", "network_dir", type=click.Path(path_type=Path), default=None,
               help="Output folder of 'walkcomfort network' (or one network_layer_<scheme>.geojson): "
-                   "one layer of street segments per scheme.")
+                   "the street segments, following the scheme picker.")
 @click.option("--network-scheme", "network_schemes", multiple=True,
               help="Only these schemes of --network (repeatable; default all, the base first).")
-@click.option("--network-colour", type=click.Choice(["auto", "hours"]), default="auto", show_default=True,
-              help="'auto': the base by comfortable hours, other schemes by the change against it; "
-                   "'hours': every scheme by comfortable hours.")
-@click.option("--offline", is_flag=True, help="Inline Leaflet: one self-contained file that opens without network.")
+@click.option("--online", is_flag=True,
+              help="Load the map library (Leaflet) from the internet instead of inlining it (smaller file; "
+                   "without a connection the page shows a message instead of the map).")
+@click.option("--offline", "offline_flag", is_flag=True, hidden=True,
+              help="Accepted for older scripts: inlining is now the default.")
 @click.option("--tiles", default="none", show_default=True,
               help="Base map: 'none', 'osm', an http(s) {z}/{x}/{y} URL template, or a local tile folder.")
 @click.option("--attribution", default=None, help="Attribution text the tile source requires.")
 @click.option("--max-zoom", type=int, default=None, help="Highest zoom level of the tiles.")
 @click.option("--timezone", default=None, help="IANA zone for times in popups (default: the table's, else UTC).")
-@click.option("--layers", default=",".join(("comfort", "utci", "shade", "scene", "votes", "errors", "network")),
-              show_default=True, help="Comma-separated kinds of layer to draw.")
+@click.option("--layers", default="routes,scene,votes,errors,network", show_default=True,
+              help="Comma-separated kinds of layer to draw.")
 @click.option("--decimals", type=int, default=5, show_default=True, help="Decimal places kept in coordinates.")
 @click.option("--simplify-m", type=float, default=1.0, show_default=True,
               help="Line simplification tolerance [m] (colour changes are always kept).")
@@ -239,56 +286,62 @@ def is_model_bundle(path: Path) -> bool:
               help="Grid size of the model-error layer [m].")
 @click.option("--budget-mb", type=float, default=5.0, show_default=True, help="Warn when the file is larger [MB].")
 @click.option("--title", default=None, help="Title on the map (default: 'Predicted walking comfort').")
-def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, network_dir, network_schemes, network_colour,
-         offline, tiles, attribution, max_zoom, timezone, layers, decimals, simplify_m, error_cell_m, budget_mb, title):
+@click.option("--site", default=None, help="Site name for the title block (default: the table's).")
+def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, network_dir, network_schemes,
+         online, offline_flag, tiles, attribution, max_zoom, timezone, layers, decimals, simplify_m, error_cell_m,
+         budget_mb, title, site):
     """Write the HTML route map from prediction tables (POINTS) and/or recorded walks.
 
     POINTS are points.parquet files (or their folders) from 'walkcomfort route' / 'compare';
-    a summary.parquet beside them adds whole-walk figures to the popups.
+    summary.parquet and comparison.csv beside them add whole-walk figures and the interval of
+    each difference. The page is self-contained (opens with no network) unless --online.
     """
-    import pandas as pd
-
-    from walkcomfort.report.routemap import route_map, write_map
+    from walkcomfort.report.map import context_from_table, route_map
 
     if not points and not walk_paths and scene_path is None and network_dir is None:
         raise InputError("nothing to map", where="walkcomfort map",
                          fix="give points.parquet, --walk folders, a --scene or --network")
-    tables, summaries, attrs = [], [], {}
-    for p in points:
-        df, meta = read_points(p)
-        tables.append(df)
-        attrs = attrs or meta
-        summary = (Path(p) if Path(p).is_dir() else Path(p).parent) / SUMMARY_FILE
-        if summary.is_file():
-            summaries.append(pd.read_parquet(summary))
-    predictions = pd.concat(tables) if tables else None
-    zone = timezone or ((attrs.get("session") or {}).get("timezone") if isinstance(attrs.get("session"), dict)
-                        else None) or "UTC"
-    schemes = list(scheme_paths)
+    if online and offline_flag:
+        raise InputError("--online and --offline contradict each other", where="--online",
+                         fix="drop one of them (self-contained is the default)")
+    t = read_route_tables(points)
+    session = t["attrs"].get("session") if isinstance(t["attrs"].get("session"), dict) else {}
+    zone = timezone or session.get("timezone") or "UTC"
     walks = find_walks(walk_paths)
     error_source = "in-sample"
     if model_path is not None:
         walks, error_source = predicted_walks(walks, model_path)
     network_layers = read_network_layers(network_dir, network_schemes) if network_dir is not None else None
-    fmap = route_map(predictions, scene=scene_path, schemes=schemes, walks=walks, error_source=error_source,
-                     network=network_layers, network_colour=network_colour,
-                     summaries=pd.concat(summaries, ignore_index=True) if summaries else None,
+    context = context_from_table(t["attrs"], t["provenance"]) if t["predictions"] is not None else {}
+    if site:
+        context["site"] = site
+    fmap = route_map(t["predictions"], scene=scene_path, schemes=list(scheme_paths), walks=walks,
+                     error_source=error_source, network=network_layers or (),
+                     network_times=network_times(network_dir if network_dir and network_dir.is_dir() else None, zone),
+                     summaries=t["summaries"], comparison=t["comparison"], context=context,
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,
                      simplify_m=simplify_m, error_cell_m=error_cell_m, title=title)
+    path = _write_reporting_warnings(fmap, out_html, online, budget_mb)
+    click.echo(f"wrote {path} ({path.stat().st_size / 1e3:.0f} kB{', loads Leaflet online' if online else ''})")
+
+
+def _write_reporting_warnings(fmap, out_html: Path, online: bool, budget_mb: float) -> Path:
+    """Write the map; our data-quality warnings become one line each on stderr."""
     import warnings
 
     from walkcomfort.errors import DataQualityWarning
+    from walkcomfort.report.map import write_map
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", DataQualityWarning)
-        path = write_map(fmap, out_html, offline=offline, size_budget_bytes=int(budget_mb * 1e6))
+        path = write_map(fmap, out_html, online=online, size_budget_bytes=int(budget_mb * 1e6))
     for w in caught:
         if issubclass(w.category, DataQualityWarning):
             click.echo(f"warning: {w.message}", err=True)
         else:  # not ours to reword: pass it on unchanged
             warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
-    click.echo(f"wrote {path} ({path.stat().st_size / 1e3:.0f} kB{', offline' if offline else ''})")
+    return path
 
 
 # --------------------------------------------------------------------------------------

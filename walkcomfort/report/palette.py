@@ -1,20 +1,21 @@
-"""Colours used by the maps and reports, chosen to stay apart for colour-blind readers.
+"""Colours used by the maps and reports: walkcomfort's own ramps, chosen to stay apart for colour-blind readers.
 
-The comfort palette is walkcomfort's own: a mid blue for *comfortable*, a warm sand for
-*neutral* and a dark plum for *uncomfortable*. The three differ in lightness as well as
-hue (CIECAM02 lightness J ≈ 51, 75, 19), so they stay apart under the three kinds of
-dichromacy and in greyscale print; ``tests/report/test_palette.py`` checks the pairwise
-CAM02-UCS colour differences under the Machado et al. (2009) simulation of deuteranopia,
-protanopia and tritanopia.
+Every ramp is ours and follows no published chart's colours. Each was laid out in
+CIECAM02 lightness/chroma/hue (``JCh``) so that neighbouring classes differ in lightness
+as well as hue, and checked with the Machado et al. (2009) simulation of deuteranopia,
+protanopia and tritanopia: ``tests/report/test_report_palette.py`` requires a minimum
+CAM02-UCS colour difference between adjacent classes of every ramp (and between all
+three comfort classes) under each simulation.
 
-The UTCI band colours follow the order of hues of the chart that comes with the UTCI
-assessment scale (Bröde et al. 2012, doi:10.1007/s00484-011-0454-1): dark red through red
-and orange for heat stress, green for no thermal stress, pale to dark blue for cold
-stress. The hex values are ours, picked to match that chart's order (from memory of the
-chart, not copied from a file).
-
-Sequential scales (shade, model error rate) run monotonically in lightness so that they
-read correctly without colour.
+- comfort: a mid blue for *comfortable*, a warm sand for *neutral*, a dark plum for
+  *uncomfortable* (lightness J ≈ 51, 75, 19: also apart in greyscale print);
+- UTCI bands: a diverging ramp whose lightest class is *no thermal stress* (a pale warm
+  white), darkening through ochre, brick and maroon towards heat and through ice blue,
+  slate and indigo towards cold;
+- shade (full sun pale straw … full shade dark slate), comfortable hours of a street,
+  model error rate: sequential, monotone in lightness, so they read without colour;
+- difference from the base: diverging, worse (rust) … no change (light grey, drawn dashed)
+  … better (slate blue).
 
 References
 ----------
@@ -46,30 +47,40 @@ MISSING_COLOUR = "#9b9b9b"
 
 assert tuple(COMFORT_COLOURS) == C.COMFORT_CLASSES  # one colour per glossary class, same order
 
-# --- UTCI assessment scale bands (hue order of the published chart) -----------------------
+# --- UTCI assessment-scale bands (our own diverging ramp, lightest at "no thermal stress") -----
 UTCI_BAND_COLOURS: dict[str, str] = {
-    "extreme heat stress": "#7a0010",
-    "very strong heat stress": "#d7191c",
-    "strong heat stress": "#f0722a",
-    "moderate heat stress": "#f9b233",
-    "no thermal stress": "#2e9b45",
-    "slight cold stress": "#a6d8f0",
-    "moderate cold stress": "#5fb1e3",
-    "strong cold stress": "#2c7bc0",
-    "very strong cold stress": "#1c4e96",
-    "extreme cold stress": "#0d2259",
+    "extreme heat stress": "#61242c",
+    "very strong heat stress": "#b24249",
+    "strong heat stress": "#eb753d",
+    "moderate heat stress": "#ffbd55",
+    "no thermal stress": "#f8f2e4",
+    "slight cold stress": "#b7e3ee",
+    "moderate cold stress": "#89c0de",
+    "strong cold stress": "#7793c7",
+    "very strong cold stress": "#6b659c",
+    "extreme cold stress": "#4d3764",
 }
 assert set(UTCI_BAND_COLOURS) == {band[2] for band in C.UTCI_BANDS}
 
 # --- sequential scales ----------------------------------------------------------------------
 # shade fraction: 0 = full sun (pale straw) ... 1 = full shade (dark slate)
-SHADE_STOPS = ("#f7ec9c", "#b9c18c", "#6f8b88", "#3b5268", "#1d2a40")
-# model error rate in a map cell: 0 = always right (pale) ... 1 = always wrong (deep violet)
-ERROR_STOPS = ("#f3eef8", "#cbb8dd", "#9c7bbf", "#6c3d9a", "#3f0f6e")
-# comfortable hours of a street segment: few (warm sand, as "uncomfortable" leans) ... many (deep blue)
-NETWORK_HOURS_STOPS = ("#f1dfb8", "#c8cfb9", "#8fb2c9", "#4f82b6", "#1f4a87")
-# change in comfortable hours against the base: lost (brown) ... none (light grey) ... gained (blue)
-NETWORK_CHANGE_STOPS = ("#8c3b12", "#d9925c", "#e4e4e4", "#79a9d6", "#1d5aa6")
+SHADE_STOPS = ("#fff08e", "#c1d594", "#81b39e", "#5e8592", "#47516a")
+# model error rate in a map cell: 0 = always right (pale) ... 1 = always wrong (deep plum)
+ERROR_STOPS = ("#fbf1fd", "#dec8e9", "#bf9acf", "#9a6aa8", "#6a3e71")
+# expected comfortable hours of a street segment: few (pale straw) ... many (deep indigo)
+NETWORK_HOURS_STOPS = ("#ffedad", "#a0dcc3", "#78b0b4", "#5d809e", "#474b71")
+# difference from the base, by what it means for the walker: much worse ... no change ... much better
+DIFF_STOPS = ("#8e462d", "#d98f59", "#ebe5de", "#8fb3d2", "#566294")
+DIFF_NONE = 2  # index of "no change / within model error" (drawn dashed as well as grey)
+
+#: Every ordered ramp, for the colour-vision checks: adjacent classes must stay apart.
+RAMPS: dict[str, tuple[str, ...]] = {
+    "utci": tuple(UTCI_BAND_COLOURS.values()),
+    "shade": SHADE_STOPS,
+    "errors": ERROR_STOPS,
+    "network_hours": NETWORK_HOURS_STOPS,
+    "difference": DIFF_STOPS,
+}
 
 # --- scene (buildings, trees, canopies) ----------------------------------------------------
 SCENE_COLOURS: dict[str, str] = {

@@ -230,7 +230,7 @@ def timeseries_figure(df: pd.DataFrame, zone, title: str = ""):
     ax = by["votes"]
     ax.set_yticks([])
     ax.set_ylabel("votes", rotation=0, ha="right", va="center", fontsize=8)
-    for i, (ts, row) in enumerate(zip(vt, votes.itertuples(), strict=False)):
+    for ts, row in zip(vt, votes.itertuples(), strict=False):
         cls = getattr(row, C.VOTE_COMFORT, None) if C.VOTE_COMFORT in votes.columns else None
         tsv = getattr(row, C.VOTE_TSV, np.nan) if C.VOTE_TSV in votes.columns else np.nan
         colour = P.comfort_colour(cls if isinstance(cls, str) else None)
@@ -560,9 +560,9 @@ img.plot{width:100%;height:auto}img.map{max-width:560px;width:100%;height:auto}
 def _scene_geojson(scene) -> dict | None:
     if scene is None:
         return None
-    from walkcomfort.report.routemap import _load_geojson
+    from walkcomfort.report.map.inputs import load_geojson
 
-    return _load_geojson(scene, "scene")[0]
+    return load_geojson(scene, "scene")[0]
 
 
 def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "session_report.html", *,

@@ -1,9 +1,8 @@
-"""The route map: layers, payloads, escaping, size, tiles, determinism, bad input."""
+"""The route map: data per scheme × departure, differences, escaping, size, tiles, determinism, bad input."""
 
 from __future__ import annotations
 
 import html.parser
-import json
 import re
 import warnings
 
@@ -13,15 +12,15 @@ import pytest
 
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
-from walkcomfort.report import routemap as R
-
-
-def _layers(fmap):
-    return [ch for ch in fmap._children.values() if type(ch).__name__ == "DataLayer"]
+from walkcomfort.model.heldout_error import model_error_cells
+from walkcomfort.report import htmlsafe
+from walkcomfort.report import map as R
+from walkcomfort.report.map import routelayer as RL
 
 
 def _payloads(fmap):
-    return [json.loads(ch.data) for ch in fmap._children.values() if type(ch).__name__ == "Payload"]
+    """Every scheme × departure payload, scheme by scheme, departures in order."""
+    return [d for combos in fmap.data["routes"]["combos"].values() for d in combos if d]
 
 
 @pytest.fixture(scope="module")
@@ -45,27 +44,63 @@ def _tags(page: str):
     return p.tags
 
 
-def test_one_layer_per_scheme_departure_and_kind(full_map):
-    names = [html.unescape(lay.layer_name) for lay in _layers(full_map)]
-    kinds = [lay.kind for lay in _layers(full_map)]
-    # 2 schemes x 2 departures, one switch per other colouring, 2 scene layers, votes, errors
-    assert kinds.count("comfort") == 4 and kinds.count("utci-mode") == 1 and kinds.count("shade-mode") == 1
-    assert kinds.count("scene") == 2 and kinds.count("votes") == 1 and kinds.count("errors") == 1
-    # departures are shown in the requested zone: 07:00Z is 09:00 in Madrid in July (CEST, UTC+2)
-    assert "baseline · departing 09:00" in names
-    assert "More street trees · departing 12:00" in names  # scheme label from the scheme file
-    assert R.MODE_LABELS["utci"] in names and R.MODE_LABELS["shade"] in names
-    assert len(set(names)) == len(names)
-    shown = [lay for lay in _layers(full_map) if lay.show]
-    assert [lay.kind for lay in shown] == ["comfort", "scene", "votes"]
-    # no colouring switch without route layers
+def test_one_payload_per_scheme_and_departure(full_map):
+    r = full_map.data["routes"]
+    assert [s["name"] for s in r["schemes"]] == ["baseline", "trees"]
+    assert [s["label"] for s in r["schemes"]] == ["baseline", "More street trees"]  # label from the scheme file
+    # departures in the requested zone: 07:00Z is 09:00 in Madrid in July (CEST, UTC+2)
+    assert [d["label"] for d in r["deps"]] == ["09:00", "12:00"]
+    assert all(len(v) == 2 and all(v) for v in r["combos"].values())
+    assert set(full_map.data["scenes"]) == {"baseline", "trees"}
+    # the extra layers start off over predicted routes; alone, they start on
+    assert full_map.data["overlays"] == {"scene": True, "streets": False, "votes": False, "errors": False}
     walk_only = R.route_map(walks=[S.timeline()])
-    assert {lay.kind for lay in _layers(walk_only)} == {"votes", "errors"}
+    assert walk_only.data["routes"] is None and walk_only.data["overlays"]["votes"]
+    assert walk_only.data["overlays"]["errors"]
+
+
+def test_difference_from_the_base_per_point_and_opening_view():
+    pred = S.predictions(schemes=("base", "trees"))
+    comp = S.comparison(pred, half_width_min=0.0)
+    fmap = R.route_map(pred, summaries=S.summaries(pred), comparison=comp, timezone="Europe/Madrid")
+    r = fmap.data["routes"]
+    base, trees = r["combos"]["base"][0], r["combos"]["trees"][0]
+    assert "comfort" not in base["d"] and base["dk"] == {}
+    # the trees scheme is 2 °C cooler everywhere, more where its extra shade falls (from the table's definition)
+    assert min(trees["d"]["utci"]) == 2.0 and max(trees["d"]["utci"]) == pytest.approx(4.7)
+    assert set(trees["dk"]["utci"]) <= {3, 4}
+    # a zero interval: the comfort threshold falls back to nothing; classes follow the sign
+    assert all(k >= 2 for k in trees["dk"]["comfort"])
+    # opening view: the hottest departure (12:00 is 4 °C hotter), the scheme that helps most, difference view
+    assert r["open"] == {"scheme": "trees", "dep": 1, "colouring": "difference", "metric": "comfort",
+                         "gain_min": r["open"]["gain_min"]}
+    assert r["open"]["gain_min"] > 0
+    assert "hottest departure (12:00)" in fmap.data["context"]["opened"]
+
+
+def test_comfort_threshold_comes_from_the_comparison_interval():
+    pred = S.predictions(schemes=("base", "trees"))
+    comp = S.comparison(pred, half_width_min=3.0)
+    thr, from_model = RL.comfort_threshold(comp, None)
+    # half-width 3 min over a walk of W min: 300/W percentage points (from the definition)
+    assert from_model and thr == pytest.approx(300.0 / comp["walk_min"].min())
+    assert RL.comfort_threshold(None, None) == (RL.NO_CHANGE["comfort"], False)
+    wide = R.route_map(pred, comparison=S.comparison(pred, half_width_min=1e3))
+    trees = wide.data["routes"]["combos"]["trees"][0]
+    assert set(trees["dk"]["comfort"]) == {2}  # every point within model error
+    labels = [k["label"] for k in wide.data["cfg"]["diff"]["comfort"]]
+    assert labels[2].startswith("within model error")
+    assert R.route_map(pred).data["cfg"]["diff"]["comfort"][2]["label"].startswith("no change")
+
+
+def test_change_classes_from_the_definition():
+    v = np.array([-10.0, -3.0, -0.5, 0.0, 0.5, 3.0, 10.0, np.nan])
+    assert RL.change_classes(v, 1.0, 5.0).tolist() == [0, 1, 2, 2, 2, 3, 4, -1]
 
 
 def test_payload_keeps_colour_boundaries_and_simplifies_straight_runs():
     pred = S.predictions(schemes=("baseline",), departures=("2026-07-14T07:00Z",), n=200)
-    fmap = R.route_map(pred, layers=("comfort",), timezone="UTC", simplify_m=0.5)
+    fmap = R.route_map(pred, layers=("routes",), timezone="UTC", simplify_m=0.5)
     (data,) = _payloads(fmap)
     assert data["n_points"] == 200
     kept = len(data["lat"])
@@ -84,13 +119,13 @@ def test_payload_keeps_colour_boundaries_and_simplifies_straight_runs():
     assert data["utci"][0] == pytest.approx(first[C.UTCI_C], abs=0.05)
     assert data["reasons"][data["r"][0]] == first["reasons"]
     # and no simplification keeps everything
-    (full,) = _payloads(R.route_map(pred, layers=("comfort",), simplify_m=0.0))
+    (full,) = _payloads(R.route_map(pred, layers=("routes",), simplify_m=0.0))
     assert len(full["lat"]) == 200
 
 
 def test_coordinates_are_rounded():
     fmap = R.route_map(S.predictions(schemes=("a",), departures=("2026-07-14T07:00Z",)), decimals=4,
-                       layers=("comfort",))
+                       layers=("routes",))
     (data,) = _payloads(fmap)
     assert all(abs(v * 1e4 - round(v * 1e4)) < 1e-6 for v in data["lat"] + data["lon"])
 
@@ -109,10 +144,11 @@ def test_rdp_from_the_definition():
     assert np.flatnonzero(R.rdp_keep(x, np.zeros_like(x), 1.0, forced)).tolist() == [0, 5, 20]
 
 
-def test_user_text_never_becomes_markup(tmp_path, full_map):
+def test_user_text_never_becomes_markup(tmp_path):
     fmap = R.route_map(S.predictions(), schemes=[S.scheme(label=S.XSS_LABEL)],
-                       walks=[S.timeline(note=S.XSS_NOTE)], scene=S.scene())
-    page = R.write_map(fmap, tmp_path / "m.html").read_text()
+                       walks=[S.timeline(note=S.XSS_NOTE)], scene=S.scene(), title=S.XSS_LABEL,
+                       context={"site": S.XSS_NOTE, "walker": S.XSS_LABEL})
+    page = R.write_map(fmap, tmp_path / "m.html", online=True).read_text()
     # the payload's markup never appears raw
     for raw in ("<img src=x", "</script><script>window", "<svg onload", "<script>window.__pwned"):
         assert raw not in page
@@ -120,30 +156,32 @@ def test_user_text_never_becomes_markup(tmp_path, full_map):
     assert not [t for t, a in tags if t in ("img", "svg", "iframe", "object")]
     assert not [(t, a) for t, a in tags if any(k.startswith("on") for k in a)]
     scripts = [a for t, a in tags if t == "script"]
-    assert len(scripts) == 3  # Leaflet (linked), folium's switches, the map
-    # the layer names are HTML-escaped before Leaflet's layer control sees them
-    assert json.dumps(html.escape("Shade <img src=x onerror=window.__pwned=6>")).replace("<", "\\u003c")[1:-1][:30] \
-        in page.replace("\\u0026", "&")
-    # the note survives as data (escaped for the script context) to be shown as text
+    assert len(scripts) == 3  # Leaflet (linked), the data block, the map's script
+    # the text survives as data (escaped for the script context) to be shown as text
     assert "\\u003c/script\\u003e\\u003cscript\\u003ewindow.__pwned=1" in page
+    data = S.page_data(page)
+    assert data["context"]["site"] == S.XSS_NOTE and data["schemes"][1]["label"] == S.XSS_LABEL
 
 
 def test_js_json_cannot_leave_the_script_element():
-    text = R.js_json({"a": "</script><!-- \u2028 & '"})
+    text = htmlsafe.js_json({"a": "</script><!-- \u2028 & '"})
     assert "<" not in text and ">" not in text and "&" not in text and "\u2028" not in text
+    import json
+
     assert json.loads(text) == {"a": "</script><!-- \u2028 & '"}
     with pytest.raises(ValueError):
-        R.js_json({"x": float("nan")})
+        htmlsafe.js_json({"x": float("nan")})
 
 
 def test_content_security_policy_hashes_every_inline_script(tmp_path, full_map):
     import base64
     import hashlib
+    import html
 
-    page = R.write_map(full_map, tmp_path / "m.html", offline=True).read_text()
+    page = R.write_map(full_map, tmp_path / "m.html").read_text()
     policy = html.unescape(re.search(r'http-equiv="Content-Security-Policy" content="([^"]+)"', page).group(1))
     inline = re.findall(r"<script>(.*?)</script>", page, re.S)
-    assert len(inline) == 3  # Leaflet inlined, folium's switches, the map
+    assert len(inline) == 2  # Leaflet inlined, the map's script (the data block is not run)
     for body in inline:
         digest = base64.b64encode(hashlib.sha256(body.encode()).digest()).decode()
         assert f"'sha256-{digest}'" in policy
@@ -151,22 +189,24 @@ def test_content_security_policy_hashes_every_inline_script(tmp_path, full_map):
     assert "connect-src 'none'" in policy and "https:" not in policy
 
 
-def test_offline_page_references_nothing_outside(tmp_path, full_map):
-    page = R.write_map(full_map, tmp_path / "m.html", offline=True).read_text()
+def test_default_page_references_nothing_outside(tmp_path, full_map):
+    page = R.write_map(full_map, tmp_path / "m.html").read_text()
     for t, a in _tags(page):
         for k in ("src", "href"):
             assert not (a.get(k) or "").startswith(("http:", "https:", "//")), (t, a)
     assert "cdn.jsdelivr" not in page and "jquery" not in page.lower() and "bootstrap" not in page.lower()
-    assert "fontawesome" not in page.lower()
+    # the script and style are the package's static files, read once each
+    assert R.page.static_text("map.js") in page and R.page.static_text("map.css") in page
+    assert page.count("<style>") == 2  # Leaflet's and ours
 
 
-def test_linked_page_trims_folium_defaults(tmp_path, full_map):
-    page = R.write_map(full_map, tmp_path / "m.html").read_text()
+def test_online_page_links_only_leaflet_and_says_so_when_it_cannot(tmp_path, full_map):
+    page = R.write_map(full_map, tmp_path / "m.html", online=True).read_text()
     urls = [a.get("src") or a.get("href") for t, a in _tags(page) if t in ("script", "link") and
             (a.get("src") or a.get("href"))]
     assert urls == ["https://cdn.jsdelivr.net/npm/leaflet@1.9.3/dist/leaflet.css",
                     "https://cdn.jsdelivr.net/npm/leaflet@1.9.3/dist/leaflet.js"]
-    assert "$(" not in page  # no jQuery calls
+    assert 'id="wc-nolib"' in page and "did not load" in page
 
 
 def test_rendering_is_deterministic(tmp_path):
@@ -178,14 +218,9 @@ def test_rendering_is_deterministic(tmp_path):
 def test_same_map_written_twice_is_the_same_page(tmp_path):
     fmap = R.route_map(S.predictions(), scene=S.scene(), walks=[S.timeline()])
     a = R.write_map(fmap, tmp_path / "a.html").read_text()
-    R.write_map(fmap, tmp_path / "off.html", offline=True)
+    R.write_map(fmap, tmp_path / "on.html", online=True)
     b = R.write_map(fmap, tmp_path / "b.html").read_text()
     assert a == b
-    shown = [lay.get_name() for lay in _layers(fmap) if lay.show]
-    for name in shown:
-        assert a.count(f"{name}.addTo(") == 1
-    assert a.count(".folium-map") + a.count('class="folium-map"') >= 1
-    assert a.count("<style>\n.wc-box") == 1  # the page's own CSS once
 
 
 def test_size_budget_warns(tmp_path, full_map):
@@ -202,7 +237,7 @@ def test_city_scale_map_stays_small(tmp_path):
     pred = S.predictions(schemes=("a", "b", "c"), departures=[f"2026-07-14T{h:02d}:00Z" for h in (6, 9, 12, 15)],
                          n=400, routes=[f"r{i}" for i in range(40)])
     assert len(pred) == 192_000
-    page = R.write_map(R.route_map(pred, layers=("comfort", "utci", "shade")), tmp_path / "city.html")
+    page = R.write_map(R.route_map(pred, layers=("routes",)), tmp_path / "city.html")
     size = page.stat().st_size
     assert size < R.DEFAULT_SIZE_BUDGET_BYTES, size
 
@@ -221,7 +256,7 @@ def test_tile_sources(tmp_path):
     src = R.tile_source(folder, attribution="Invented <b>survey</b>")
     out = tmp_path / "site" / "map.html"
     fmap = R.route_map(S.predictions(), tiles=src)
-    page = R.write_map(fmap, out, offline=True).read_text()
+    page = R.write_map(fmap, out).read_text()
     assert '"../tiles/{z}/{x}/{y}.png"' in page
     assert "Invented &lt;b&gt;survey&lt;/b&gt;" in page.replace("\\u0026", "&").replace("\\u003c", "<")
     assert "img-src data: 'self' file:" in html.unescape(page)
@@ -244,7 +279,7 @@ def test_bad_prediction_tables_are_refused():
     with pytest.raises(InputError, match="no lat/lon"):
         R.route_map(nopos)
     with pytest.raises(InputError, match="unknown layer"):
-        R.route_map(pred, layers=("comfort", "heat"))
+        R.route_map(pred, layers=("routes", "heat"))
     with pytest.raises(InputError, match="IANA"):
         R.route_map(pred, timezone="Mars/Olympus")
     with pytest.raises(InputError, match="nothing to map"):
@@ -253,18 +288,18 @@ def test_bad_prediction_tables_are_refused():
 
 def test_class_from_probabilities_when_no_class_column():
     pred = S.predictions(schemes=("a",), departures=("2026-07-14T07:00Z",)).drop(columns=["comfort_class"])
-    (data,) = _payloads(R.route_map(pred, layers=("comfort",), simplify_m=0))
+    (data,) = _payloads(R.route_map(pred, layers=("routes",), simplify_m=0))
     probs = pred.sort_values(C.DIST_M)[["p_comfortable", "p_neutral", "p_uncomfortable"]].to_numpy()
     assert data["cls"] == probs.argmax(axis=1).tolist()
 
 
 def test_scene_layer_marks_scheme_edits():
     fmap = R.route_map(S.predictions(schemes=("trees",), departures=("2026-07-14T07:00Z",)),
-                       scene=S.scene(), schemes=[S.scheme()], layers=("comfort", "scene"))
-    scene = [p for p in _payloads(fmap) if "features" in p][0]
-    edits = {f["id"]: f["e"] for f in scene["features"]}
+                       scene=S.scene(), schemes=[S.scheme()], layers=("routes", "scene"))
+    scene = fmap.data["scenes"]["trees"]
+    edits = {f["id"]: f["e"] for f in scene}
     assert edits == {"b1": "existing", "t1": "modify", "c1": "remove", "t-new-1": "add", "t-new-2": "add"}
-    t1 = [f for f in scene["features"] if f["id"] == "t1"][0]
+    t1 = [f for f in scene if f["id"] == "t1"][0]
     assert t1["tr"] == 0.1 and t1["g"] == "c" and t1["rad"] == 4.0
     bad = S.scheme()
     bad["features"][2]["properties"]["target"] = "nope"
@@ -274,38 +309,35 @@ def test_scene_layer_marks_scheme_edits():
 
 def test_model_error_cells_count_disagreements():
     w = S.timeline()
-    cells = R.model_error_cells([w], cell_m=1000.0)
+    cells = model_error_cells([w], cell_m=1000.0)
     votes = w[w[C.VOTE_COMFORT].notna()]
     assert int(cells["n_votes"].sum()) == len(votes)
     assert int(cells["n_wrong"].sum()) == int((votes[C.VOTE_COMFORT] != votes["comfort_class"]).sum())
-    fine = R.model_error_cells([w], cell_m=10.0)
+    fine = model_error_cells([w], cell_m=10.0)
     assert len(fine) == len(votes)  # votes ~140 m apart: one per 10 m cell
-    assert R.model_error_cells([S.timeline(with_prediction=False)]).empty
+    assert model_error_cells([S.timeline(with_prediction=False)]).empty
     with pytest.raises(InputError):
-        R.model_error_cells([w], cell_m=0)
+        model_error_cells([w], cell_m=0)
 
 
 def test_walk_only_map_shows_votes_and_errors():
     fmap = R.route_map(walks=[S.timeline(note="shade was nice")], timezone="UTC")
-    kinds = {lay.kind: lay.show for lay in _layers(fmap)}
-    assert kinds == {"votes": True, "errors": True}
-    votes = [p for p in _payloads(fmap) if "walks" in p][0]["walks"][0]
+    assert fmap.data["overlays"]["votes"] and fmap.data["overlays"]["errors"]
+    votes = fmap.data["walks"][0]
     assert votes["tz"] == "Europe/Madrid"  # the walk's own zone wins
     assert votes["votes"]["t"][0] == "2026-07-14 09:59:00"  # 07:58Z + 60 s, shown at UTC+2 (CEST)
     assert "shade was nice" in votes["votes"]["note"]
 
 
 def test_not_a_walkcomfort_map(tmp_path):
-    import folium
-
     with pytest.raises(InputError, match="route_map"):
-        R.write_map(folium.Map(), tmp_path / "x.html")
+        R.write_map({"not": "a map"}, tmp_path / "x.html")
 
 
 def test_route_summaries_reach_the_popups():
     pred = S.predictions()
     summ = S.summaries(pred)
-    fmap = R.route_map(pred, summaries=summ, layers=("comfort",))
+    fmap = R.route_map(pred, summaries=summ, layers=("routes",))
     data = _payloads(fmap)
     assert len(data) == 4
     for d in data:
@@ -316,7 +348,7 @@ def test_route_summaries_reach_the_popups():
     with pytest.raises(InputError, match="summaries lack"):
         R.route_map(pred, summaries=summ.drop(columns=["scheme"]))
     # no summary for a walk: the popup simply has none
-    (d0,) = _payloads(R.route_map(pred, summaries=summ.iloc[1:2], layers=("comfort",)))[:1]
+    (d0,) = _payloads(R.route_map(pred, summaries=summ.iloc[1:2], layers=("routes",)))[:1]
     assert d0["summ"] == [None]
 
 
@@ -324,11 +356,12 @@ def test_missing_values_become_nulls_not_nan(tmp_path):
     pred = S.predictions(schemes=("a",), departures=("2026-07-14T07:00Z",))
     for col in (C.UTCI_C, C.TMRT_C, C.SHADE_FRAC, "p_neutral", "reasons", C.UTCI_BAND):
         pred.iloc[10:20, pred.columns.get_loc(col)] = None
-    (data,) = _payloads(R.route_map(pred, layers=("comfort", "utci", "shade"), simplify_m=0))
+    (data,) = _payloads(R.route_map(pred, layers=("routes",), simplify_m=0))
     assert data["utci"][12] is None and data["shade"][12] is None and data["p"][1][12] is None
     assert data["r"][12] == -1 and data["sbin"][12] == -1 and data["band"][12] == -1
     page = R.write_map(R.route_map(pred), tmp_path / "m.html").read_text()
-    assert "NaN" not in page
+    block = page.split('id="wc-data">', 1)[1].split("</script>", 1)[0]
+    assert "NaN" not in block
 
 
 def test_title_is_text(tmp_path):
@@ -336,19 +369,6 @@ def test_title_is_text(tmp_path):
     page = R.write_map(fmap, tmp_path / "m.html").read_text()
     assert "<title>&lt;script&gt;window.__pwned=9&lt;/script&gt; &amp; co</title>" in page
     assert "<script>window.__pwned=9" not in page
-
-
-def test_many_walks_share_one_votes_layer():
-    walks = [S.timeline(walk_id=f"w{i}") for i in range(R.MAX_WALK_LAYERS + 1)]
-    for i, w in enumerate(walks):
-        w.attrs["session"] = dict(w.attrs["session"], walk_id=f"w{i}")
-    fmap = R.route_map(walks=walks, layers=("votes",))
-    (layer,) = _layers(fmap)
-    assert html.unescape(layer.layer_name) == f"Votes · all {len(walks)} walks"
-    (data,) = _payloads(fmap)
-    assert [w["walk"] for w in data["walks"]] == [f"w{i}" for i in range(len(walks))]
-    few = R.route_map(walks=walks[:2], layers=("votes",))
-    assert [html.unescape(lay.layer_name) for lay in _layers(few)] == ["Votes · w0", "Votes · w1"]
 
 
 _HOSTILE = ["<", ">", "&", "'", '"', "`", "\\", "${", "</script", "<!--", "-->", "\u2028", "\u2029", "<img src=x onerror=",
@@ -371,16 +391,15 @@ def test_any_note_or_label_stays_data():
         nonlocal base_tags
         fmap = R.route_map(S.predictions(schemes=("trees",), departures=("2026-07-14T07:00Z",), n=20),
                            schemes=[S.scheme(label=label or "x")], walks=[S.timeline(n=320, note=note)],
-                           layers=("comfort", "votes"))
+                           layers=("routes", "votes"))
         page = R.render_map_html(fmap)
         tags = [t for t, _ in _tags(page)]
         if base_tags is None:
             base_tags = tags
         assert tags == base_tags  # same elements, in the same order, whatever the text
-        # the JSON payloads still parse and carry the text exactly
-        data = _payloads(fmap)
-        walk = [d for d in data if "walks" in d][0]["walks"][0]
-        assert (note or None) in walk["votes"]["note"]
-        assert any(d.get("label", "").startswith(label or "x") for d in data)
+        # the data block still parses and carries the text exactly
+        data = S.page_data(page)
+        assert (note or None) in data["walks"][0]["votes"]["note"]
+        assert data["schemes"][0]["label"] == (label or "x")
 
     check()
