@@ -146,3 +146,34 @@ def test_wbgt_monotone_in_air_globe_and_humidity(ta, rh, v, load, d):
     # warmer air at the same globe reading: less radiant load is inferred, yet WBGT rises
     assert w(ta + d, rh, ta + load + d) >= base - 1e-6
     assert w(ta + d, rh, ta + load) >= base - 1e-6
+
+
+def test_minutes_above_a_chosen_limit_per_walk():
+    idx = pd.date_range("2026-07-15 11:00", periods=6, freq="10s", tz="UTC")
+    pts = pd.DataFrame({"route_id": "r", "scheme": ["base"] * 3 + ["trees"] * 3, "step_s": 10.0,
+                        W.WBGT_C: [27.0, 29.0, 30.0, 27.0, 27.5, np.nan]}, index=idx)
+    out = W.wbgt_minutes_above(pts, 28.0, ["route_id", "scheme"]).set_index("scheme")
+    assert out.loc["base", "wbgt_min_above_limit"] == pytest.approx(20 / 60)
+    assert out.loc["trees", "wbgt_min_above_limit"] == 0.0
+    assert out.loc["base", "wbgt_peak_c"] == 30.0 and out.loc["trees", "wbgt_mean_c"] == pytest.approx(27.25)
+    assert (out["wbgt_limit_c"] == 28.0).all()
+
+
+def test_route_reports_wbgt_minutes_with_the_planning_caution(tmp_path, demo_dir):
+    from walkcomfort.cli import main
+
+    out = tmp_path / "r"
+    code = main(["route", str(demo_dir / "routes" / "mercat-parc.geojson"), "--scene", str(demo_dir / "scene.geojson"),
+                 "--conditions", "t_air_c=34,rh_pct=40,wind_ms=1.5,wind_height_m=10", "--depart",
+                 "2026-07-15T13:00+02:00", "--timezone", "Europe/Madrid", "--no-reasons", "--wbgt-limit", "28",
+                 "-o", str(out)])
+    assert code == 0
+    summary = pd.read_csv(out / "summary.csv")
+    points = pd.read_parquet(out / "points.parquet")
+    assert summary.loc[0, "wbgt_limit_c"] == 28.0
+    # the minutes above equal the time of the points above (each point stands for step_s seconds)
+    above = (points[W.WBGT_C] > 28.0) * points["step_s"] / 60.0
+    assert summary.loc[0, "wbgt_min_above_limit"] == pytest.approx(above.sum(), rel=1e-9)
+    # plausible: hot sunny afternoon, WBGT between the natural wet-bulb-ish floor and air temperature
+    assert points[W.WBGT_C].between(20.0, 36.0).all()
+    assert "not a heat-safety assessment" in (out / "summary.md").read_text(encoding="utf-8")

@@ -37,6 +37,7 @@ import thermofeel
 
 from walkcomfort.environment._arrays import first_index
 from walkcomfort.environment.tmrt import outdoor_fluxes
+from walkcomfort.environment.utci import wind_at_10m
 from walkcomfort.session.heat_safety import (
     SIGMA,
     STANDARD_GLOBE_EMISSIVITY,
@@ -156,3 +157,52 @@ def wbgt_liljegren(t_air_c, rh_pct, wind10_ms, ghi_wm2, direct_frac, cos_zenith,
     ta, rh, v, ghi, fdir, cz, p = arrays
     out = thermofeel.calculate_wbgt_liljegren(ta + 273.15, rh, p, v, ghi, fdir, cz, wind_scaling=wind_scaling) - 273.15
     return pd.Series(out, index=index, name=WBGT_C) if index is not None else out
+
+
+#: Shown wherever a planned walk's WBGT appears.
+PLANNING_CAUTION = ("WBGT along planned walks is a planning estimate from the weather given, not a heat-safety "
+                    "assessment: on the day follow the heat-health service, a WBGT instrument on site, local "
+                    "occupational-health guidance and field_protocol/safety.md")
+#: Height of the WBGT instrument and of a walker's trunk [m] (ISO 7243 measures at abdomen height, from memory).
+WBGT_HEIGHT_M = 1.1
+
+
+def wbgt_for_points(points: pd.DataFrame) -> pd.DataFrame:
+    """WBGT for a per-point table of a planned walk (the environment columns of the prediction table).
+
+    Uses ``sun_elev_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf, t_air_c, rh_pct`` and the
+    wind at 10 m (``wind10_ms``, brought to 1.1 m by the log profile the UTCI stage uses),
+    ``pressure_hpa`` when present. Returns :func:`wbgt_from_radiation`'s columns on the
+    table's index.
+    """
+    need = ["sun_elev_deg", "dni_wm2", "dhi_wm2", "beam_trans_frac", "svf", "t_air_c", "rh_pct", "wind10_ms"]
+    missing = [c for c in need if c not in points.columns]
+    if missing:
+        raise ValueError(f"the table lacks {missing} for WBGT; it needs the environment columns {need}")
+    wind = points["wind10_ms"] / wind_at_10m(1.0, WBGT_HEIGHT_M)
+    out = wbgt_from_radiation(points["sun_elev_deg"], points["dni_wm2"], points["dhi_wm2"], points["beam_trans_frac"],
+                              points["svf"], points["t_air_c"], points["rh_pct"], wind,
+                              points["pressure_hpa"] if "pressure_hpa" in points.columns else STANDARD_PRESSURE_HPA)
+    out.index = points.index
+    return out
+
+
+def wbgt_minutes_above(points: pd.DataFrame, limit_c: float, by: list[str], step_col: str = "step_s") -> pd.DataFrame:
+    """Per group of ``by``: minutes with ``wbgt_c`` above ``limit_c`` (each row counts ``step_col`` seconds),
+    the peak and the time-weighted mean WBGT.
+
+    Returns
+    -------
+    DataFrame
+        ``by`` columns + ``wbgt_limit_c, wbgt_min_above_limit, wbgt_peak_c, wbgt_mean_c``.
+    """
+    dt = points[step_col].to_numpy(float)
+    w = points[WBGT_C].to_numpy(float)
+    frame = points[by].copy()
+    frame["above"] = (np.nan_to_num(w, nan=-np.inf) > limit_c) * dt / 60.0
+    frame["w_dt"], frame["dt"], frame["w"] = w * dt, np.where(np.isnan(w), 0.0, dt), w
+    g = frame.groupby(by, sort=False)
+    out = pd.DataFrame({"wbgt_min_above_limit": g["above"].sum(), "wbgt_peak_c": g["w"].max(),
+                        "wbgt_mean_c": g["w_dt"].sum() / g["dt"].sum()}).reset_index()
+    out.insert(len(by), "wbgt_limit_c", float(limit_c))
+    return out
