@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from walkcomfort import columns as C
@@ -99,7 +100,8 @@ def test_workers_in_their_own_folders_get_the_model_through_the_cluster(bundle, 
                                model="models/comfort", segment_length_m=60.0, tile_size_m=60.0, time_chunk=2)
     assert job.bundle is not None and job.parameters["context"]["model"] == job.bundle["digest"]
     assert "models/comfort" not in json.dumps(job.parameters)
-    assert run_job(job, tmp_path / "inproc").ok
+    inproc = run_job(job, tmp_path / "inproc", summarise=True)
+    assert inproc.ok
     with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
                       dashboard_address="127.0.0.1:0") as cluster:
         from distributed import Client
@@ -108,7 +110,7 @@ def test_workers_in_their_own_folders_get_the_model_through_the_cluster(bundle, 
             dirs = client.run(_own_working_dir)
         assert len(set(dirs.values())) == 2 and str(tmp_path) not in " ".join(dirs.values())
         report = run_job(job, tmp_path / "dask", "dask", scheduler=cluster.scheduler_address, timeout_s=60,
-                         max_in_flight=3)
+                         max_in_flight=3, summarise=True)
     assert report.ok and report.timings["peak_in_flight"] <= 3
     assert not (rows := read_segment_hours(tmp_path / "dask"))["predictor"].eq("physics-rule").any()
     a = sorted((tmp_path / "inproc" / "segment_hours").rglob("*.parquet"))
@@ -119,3 +121,6 @@ def test_workers_in_their_own_folders_get_the_model_through_the_cluster(bundle, 
     saved = json.loads((tmp_path / "dask" / "job.json").read_text())
     assert all(o["digest"] == _io.file_digest(tmp_path / "dask" / o["path"]) for o in saved["outcomes"])
     assert len(rows) == job.expected_rows
+    # the summary computed on the workers (one tile each) is the in-process one
+    pd.testing.assert_frame_equal(report.summary, inproc.summary)
+    assert len(report.summary) == net.n_segments

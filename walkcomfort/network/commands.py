@@ -92,7 +92,7 @@ def write_outputs(out_dir, network, job, report) -> dict:
         written["quarantine"] = _io.write_csv(out_dir / QUARANTINE_CSV, network.quarantine, index=False)
     if not report.ok:
         return written
-    summary = summary_from_results(out_dir)
+    summary = report.summary if report.summary is not None else summary_from_results(out_dir)
     meta = {"job_digest": job.digest, "parameters": job.parameters}
     written["summary"] = _io.write_parquet(out_dir / SUMMARY_PARQUET, summary, meta)
     full = summary_geojson(summary, network)
@@ -175,7 +175,7 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
     if engine == "dask":
         opts.update(scheduler=scheduler, workers=workers, threads_per_worker=threads_per_worker, write_on=write_on)
     t0 = _time.perf_counter()
-    report = run_job(job, out_dir, engine, resume=resume, overwrite=overwrite, **opts)
+    report = run_job(job, out_dir, engine, resume=resume, overwrite=overwrite, summarise=True, **opts)
     seconds = _time.perf_counter() - t0
     write_outputs(out_dir, net, job, report)
     rate = report.written_rows / seconds if seconds > 0 else float("nan")

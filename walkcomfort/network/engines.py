@@ -86,6 +86,8 @@ class JobReport:
     #: CPU seconds of the threads that ran the partitions (compute + write), summed over workers.
     #: Kept in memory for benchmarks, never written (outputs stay byte-stable).
     timings: dict = field(default_factory=lambda: {"start": 0.0, "compute": 0.0, "write": 0.0, "cpu": 0.0})
+    #: per segment x scheme summary computed by the engine when asked (``summarise=True``); not in job.json
+    summary: pd.DataFrame | None = field(default=None, repr=False)
 
     @property
     def expected_rows(self) -> int:
@@ -185,7 +187,7 @@ class InProcessEngine:
         self.retries = int(retries)
 
     def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None,
-            overwrite: bool = False) -> JobReport:
+            overwrite: bool = False, summarise: bool = False) -> JobReport:
         report = JobReport(job.digest, self.name, parameters=_engine_params(self))
         t0 = _time.perf_counter()
         todo = _resume(job, out_dir, report, resume, overwrite)
@@ -220,7 +222,7 @@ class InProcessEngine:
             report.outcomes.append(outcome)
         report.seconds = _time.perf_counter() - t0
         _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
-        return report
+        return _summarise(report, out_dir, summarise)
 
 
 class DaskEngine:
@@ -294,14 +296,14 @@ class DaskEngine:
             raise
 
     def run(self, job: NetworkJob, out_dir, resume: bool = False, progress: bool | None = None,
-            overwrite: bool = False) -> JobReport:
+            overwrite: bool = False, summarise: bool = False) -> JobReport:
         report = JobReport(job.digest, self.name, parameters=_engine_params(self))
         t0 = _time.perf_counter()
         todo = _resume(job, out_dir, report, resume, overwrite)
         if not todo:
             report.seconds = _time.perf_counter() - t0
             _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
-            return report
+            return _summarise(report, out_dir, summarise)
         ts = _time.perf_counter()
         client, cluster = self._client()
         try:
@@ -317,11 +319,22 @@ class DaskEngine:
         report.timings["start"] = _time.perf_counter() - ts
         try:
             _Waves(self, client, job, out_dir, report).run(todo, progress)
+            report.seconds = _time.perf_counter() - t0
+            _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
+            # on the workers, one tile each, reading the files they wrote: only per-segment tables come back
+            return _summarise(report, out_dir, summarise, client)
         finally:
             _close(client, cluster)
-        report.seconds = _time.perf_counter() - t0
-        _io.write_json(Path(out_dir) / REPORT_FILE, report.to_dict())
-        return report
+
+
+def _summarise(report: JobReport, out_dir, summarise: bool, client=None) -> JobReport:
+    if summarise and report.ok:
+        from walkcomfort.network.summaries import summary_from_results
+
+        tc = _time.perf_counter()
+        report.summary = summary_from_results(out_dir, client=client)
+        report.timings["summary"] = _time.perf_counter() - tc
+    return report
 
 
 def _same(obj):
@@ -497,13 +510,16 @@ def make_engine(engine: str = "in-process", **options):
 
 
 def run_job(job: NetworkJob, out_dir, engine: str = "in-process", resume: bool = False,
-            progress: bool | None = None, overwrite: bool = False, **options) -> JobReport:
+            progress: bool | None = None, overwrite: bool = False, summarise: bool = False,
+            **options) -> JobReport:
     """Run ``job`` on the named engine and write its results and report under ``out_dir``.
 
     The folder must be empty or hold this job's results (``resume`` keeps them);
     ``overwrite`` first removes another job's (see :mod:`walkcomfort.network.jobdir`).
+    ``summarise`` has the engine compute the per-segment summary (``report.summary``).
     """
-    return make_engine(engine, **options).run(job, out_dir, resume=resume, progress=progress, overwrite=overwrite)
+    return make_engine(engine, **options).run(job, out_dir, resume=resume, progress=progress, overwrite=overwrite,
+                                              summarise=summarise)
 
 
 def read_segment_hours(out_dir, scheme: str | None = None) -> pd.DataFrame:

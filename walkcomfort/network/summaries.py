@@ -19,6 +19,8 @@ al. 2012, doi:10.1007/s00484-011-0454-1).
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 
@@ -132,7 +134,7 @@ def summary_from_results(out_dir, base: str = BASE, step_h: float | None = None,
                          fix="run the network batch first (walkcomfort network ...)")
     by_tile: dict[str, list[tuple[str, str]]] = {}
     for scheme, tile, path in files:
-        by_tile.setdefault(tile, []).append((scheme, str(path)))
+        by_tile.setdefault(tile, []).append((scheme, str(Path(path).resolve())))  # workers have their own cwd
     if step_h is None:
         step_h = _step_from_files([p for _, p in next(iter(by_tile.values()))])
     groups = [by_tile[t] for t in sorted(by_tile)]
