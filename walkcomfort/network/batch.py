@@ -191,29 +191,7 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
     -------
     NetworkJob
     """
-    if not isinstance(times, pd.DatetimeIndex) or times.tz is None or len(times) == 0:
-        raise InputError("the batch needs a non-empty tz-aware list of times",
-                         fix="build them with walkcomfort.network.batch.time_range(start, end, step)")
-    times = times.tz_convert("UTC").rename(C.TIME)
-    if times.has_duplicates or not times.is_monotonic_increasing:
-        raise InputError("the batch times repeat or are not in increasing order",
-                         fix="give a strictly increasing time range")
-    if not isinstance(time_chunk, int) or time_chunk < 1:
-        raise InputError(f"time chunk = {time_chunk!r} is not a positive whole number of time steps",
-                         fix="give for example 24")
-    if not scenes:
-        raise InputError("the batch has no scheme to compute", fix="give at least the base scene")
-    for name in scenes:
-        if not isinstance(name, str) or not _SCHEME_NAME.fullmatch(name):
-            raise InputError(f"scheme name {name!r} cannot name a results folder; allowed: letters, digits, "
-                             "'_', '-', '.' (1-64 characters, not starting with '.')",
-                             fix="rename the scheme (its top-level walkcomfort.scheme member)")
-    if weather is not None:
-        missing = times.difference(weather.index)
-        if len(missing):
-            raise InputError(f"weather has no row at {len(missing)} of the batch times (first {missing[0]})",
-                             fix="give weather at every batch time (resample the weather source to the step)")
-        weather = weather.loc[times]
+    times, weather = _checked_plan_inputs(times, scenes, weather, time_chunk)
     base_site = ((scenes.get(BASE) or {}).get("walkcomfort") or {}).get("site")
     if site is None and base_site:
         site = {"lat": float(base_site["lat"]), "lon": float(base_site["lon"]),
@@ -268,6 +246,34 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
         h.update(pd.util.hash_pandas_object(weather, index=True).values.tobytes())
     params["scheme_digests"] = scheme_digests
     return NetworkJob(parts, fn, params, "sha256:" + h.hexdigest(), sorted(scenes))
+
+
+def _checked_plan_inputs(times, scenes, weather, time_chunk):
+    """:func:`plan_job`'s inputs checked: UTC times and the weather at exactly those times."""
+    if not isinstance(times, pd.DatetimeIndex) or times.tz is None or len(times) == 0:
+        raise InputError("the batch needs a non-empty tz-aware list of times",
+                         fix="build them with walkcomfort.network.batch.time_range(start, end, step)")
+    times = times.tz_convert("UTC").rename(C.TIME)
+    if times.has_duplicates or not times.is_monotonic_increasing:
+        raise InputError("the batch times repeat or are not in increasing order",
+                         fix="give a strictly increasing time range")
+    if not isinstance(time_chunk, int) or time_chunk < 1:
+        raise InputError(f"time chunk = {time_chunk!r} is not a positive whole number of time steps",
+                         fix="give for example 24")
+    if not scenes:
+        raise InputError("the batch has no scheme to compute", fix="give at least the base scene")
+    for name in scenes:
+        if not isinstance(name, str) or not _SCHEME_NAME.fullmatch(name):
+            raise InputError(f"scheme name {name!r} cannot name a results folder; allowed: letters, digits, "
+                             "'_', '-', '.' (1-64 characters, not starting with '.')",
+                             fix="rename the scheme (its top-level walkcomfort.scheme member)")
+    if weather is not None:
+        missing = times.difference(weather.index)
+        if len(missing):
+            raise InputError(f"weather has no row at {len(missing)} of the batch times (first {missing[0]})",
+                             fix="give weather at every batch time (resample the weather source to the step)")
+        weather = weather.loc[times]
+    return times, weather
 
 
 def _with_site(scene: dict | None, site: dict, crs) -> dict | None:

@@ -143,65 +143,14 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
     from pyproj import Transformer
 
     source = str(source)
-    for name, value in (("segment_length_m", segment_length_m), ("spacing_m", spacing_m)):
-        if not (isinstance(value, (int, float)) and math.isfinite(value) and value > 0):
-            raise InputError(f"{name} = {value!r} is not a positive length in metres",
-                             fix=f"give {name} > 0, for example 50 for segments or 10 for spacing")
-    if not isinstance(obj, dict) or obj.get("type") != "FeatureCollection" or not isinstance(
-            obj.get("features"), list):
-        raise InputError("the street network is not a GeoJSON FeatureCollection", where=source,
-                         fix="give a FeatureCollection whose features are LineString/MultiLineString streets")
+    _check_inputs(obj, segment_length_m, spacing_m, source)
     meta = obj.get("walkcomfort") if isinstance(obj.get("walkcomfort"), dict) else {}
     net_name = str(meta.get("network") or Path(source).stem or "network")
-
-    quarantine: list[dict] = []
-    streets: list[tuple[str, str, list[list[tuple[float, float]]]]] = []
-    seen: set[str] = set()
-    for row, feat in enumerate(obj["features"]):
-        raw = json.dumps(feat, sort_keys=True)[:500]
-        reason = None
-        props = feat.get("properties") or {} if isinstance(feat, dict) else {}
-        geom = feat.get("geometry") if isinstance(feat, dict) else None
-        sid = props.get(PROP_ID) if isinstance(props, dict) else None
-        parts: list[list[tuple[float, float]]] = []
-        if sid is None or (isinstance(sid, str) and not sid.strip()):
-            reason = "missing_id"
-        elif str(sid) in seen:
-            reason = "duplicate_id"
-        elif not isinstance(geom, dict):
-            reason = "no_geometry"
-        elif geom.get("type") == "LineString":
-            parts = [geom.get("coordinates") or []]
-        elif geom.get("type") == "MultiLineString":
-            parts = list(geom.get("coordinates") or [])
-        else:
-            reason = f"not_a_line ({geom.get('type')})"
-        if reason is None:
-            try:
-                # a third coordinate, when given, is the ground elevation [m] (RFC 7946 altitude)
-                parts = [[(float(c[0]), float(c[1]), float(c[2]) if len(c) > 2 and c[2] is not None else math.nan)
-                          for c in part] for part in parts]
-            except (TypeError, ValueError, IndexError):
-                reason = "bad_coordinates"
-        if reason is None:
-            parts = [p for p in parts if len(p) >= 2]
-            flat = [c for p in parts for c in p]
-            if not flat:
-                reason = "too_few_vertices"
-            elif not all(math.isfinite(x) and math.isfinite(y) and -180 <= x <= 180 and -90 <= y <= 90
-                         for x, y, _ in flat):
-                reason = "coordinates_not_lonlat"
-        if reason is not None:
-            quarantine.append({"source": "network", "file": source, "row": row, "reason": reason, "raw": raw})
-            continue
-        seen.add(str(sid))
-        streets.append((str(sid), str(props.get(PROP_NAME) or ""), parts))
-
+    streets, quarantine = _read_streets(obj, source)
     if not streets:
         raise InputError(f"the street network has no usable line feature ({len(quarantine)} quarantined, "
                          f"first reason: {quarantine[0]['reason'] if quarantine else 'no features'})",
                          where=source, fix="give LineString features with a unique properties.id each")
-
     if crs is None:
         allxy = np.array([c for _, _, parts in streets for p in parts for c in p])
         crs = local_crs(float(allxy[:, 0].mean()), float(allxy[:, 1].mean()))
@@ -211,40 +160,15 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
     seg_rows: list[dict] = []
     pt_rows: list[tuple] = []
     for sid, sname, parts in streets:
-        pieces: list[np.ndarray] = []
-        for part in parts:
-            lonlat = np.asarray(part, dtype=float)
-            x, y = fwd.transform(lonlat[:, 0], lonlat[:, 1])
-            xy = np.column_stack([x, y, lonlat[:, 2]])
-            length = _polyline_length(xy)
-            if length <= 0:
-                continue
-            n = max(1, int(round(length / segment_length_m)))
-            cuts = np.linspace(0.0, length, n + 1)
-            for a, b in zip(cuts[:-1], cuts[1:], strict=False):
-                pieces.append(_substring(xy, a, b))
+        pieces = _cut_street(parts, fwd, segment_length_m)
         if not pieces:
             quarantine.append({"source": "network", "file": source, "row": _row_of(obj, sid),
                                "reason": "zero_length", "raw": sid})
             continue
         for k, piece in enumerate(pieces):
-            seg_id = f"{sid}#{k:03d}"
-            length = _polyline_length(piece)
-            n_pts = max(1, int(math.ceil(length / spacing_m - 1e-9)))
-            at = (np.arange(n_pts) + 0.5) * (length / n_pts)
-            pxy = _interpolate(piece, at)
-            plon, plat = inv.transform(pxy[:, 0], pxy[:, 1])
-            glon, glat = inv.transform(piece[:, 0], piece[:, 1])
-            mid = _interpolate(piece, np.array([length / 2.0]))[0]
-            seg_rows.append({C.SEGMENT_ID: seg_id, C.STREET_ID: sid, "street_name": sname, "seg_n": k,
-                             "length_m": float(length), "n_points": n_pts,
-                             "x_mid_m": float(mid[0]), "y_mid_m": float(mid[1]),
-                             "elev_start_m": float(piece[0, 2]), "elev_end_m": float(piece[-1, 2]),
-                             "geometry_xy": [(float(v[0]), float(v[1])) for v in piece],
-                             "geometry_lonlat": list(zip(map(float, glon), map(float, glat), strict=False))})
-            for j in range(n_pts):
-                pt_rows.append((seg_id, j, float(pxy[j, 0]), float(pxy[j, 1]), float(plon[j]), float(plat[j]),
-                                float(pxy[j, 2])))
+            seg, pts = _segment_rows(f"{sid}#{k:03d}", sid, sname, k, piece, spacing_m, inv)
+            seg_rows.append(seg)
+            pt_rows.extend(pts)
 
     if not seg_rows:
         raise InputError("every street in the network has zero length", where=source,
@@ -255,6 +179,106 @@ def network_from_geojson(obj: dict, segment_length_m: float = 50.0, spacing_m: f
     return Network(segments, points, crs, qdf, net_name,
                    {"segment_length_m": float(segment_length_m), "spacing_m": float(spacing_m)},
                    n_features_read=len(obj["features"]))
+
+
+def _check_inputs(obj, segment_length_m, spacing_m, source: str) -> None:
+    for name, value in (("segment_length_m", segment_length_m), ("spacing_m", spacing_m)):
+        if not (isinstance(value, (int, float)) and math.isfinite(value) and value > 0):
+            raise InputError(f"{name} = {value!r} is not a positive length in metres",
+                             fix=f"give {name} > 0, for example 50 for segments or 10 for spacing")
+    if not isinstance(obj, dict) or obj.get("type") != "FeatureCollection" or not isinstance(
+            obj.get("features"), list):
+        raise InputError("the street network is not a GeoJSON FeatureCollection", where=source,
+                         fix="give a FeatureCollection whose features are LineString/MultiLineString streets")
+
+
+def _read_streets(obj: dict, source: str):
+    """Usable street features as ``(id, name, parts)`` and the quarantined ones (with reasons)."""
+    quarantine: list[dict] = []
+    streets: list[tuple[str, str, list[list[tuple[float, float, float]]]]] = []
+    seen: set[str] = set()
+    for row, feat in enumerate(obj["features"]):
+        props = feat.get("properties") or {} if isinstance(feat, dict) else {}
+        sid = props.get(PROP_ID) if isinstance(props, dict) else None
+        reason, parts = _feature_parts(feat, sid, seen)
+        if reason is not None:
+            raw = json.dumps(feat, sort_keys=True)[:500]
+            quarantine.append({"source": "network", "file": source, "row": row, "reason": reason, "raw": raw})
+            continue
+        seen.add(str(sid))
+        streets.append((str(sid), str(props.get(PROP_NAME) or ""), parts))
+    return streets, quarantine
+
+
+def _line_parts(feat, sid, seen: set[str]):
+    """``(reason, raw coordinate parts)``: the first reason a feature is unusable as a street, or None."""
+    geom = feat.get("geometry") if isinstance(feat, dict) else None
+    if sid is None or (isinstance(sid, str) and not sid.strip()):
+        return "missing_id", []
+    if str(sid) in seen:
+        return "duplicate_id", []
+    if not isinstance(geom, dict):
+        return "no_geometry", []
+    if geom.get("type") == "LineString":
+        return None, [geom.get("coordinates") or []]
+    if geom.get("type") == "MultiLineString":
+        return None, list(geom.get("coordinates") or [])
+    return f"not_a_line ({geom.get('type')})", []
+
+
+def _feature_parts(feat, sid, seen: set[str]):
+    """``(reason, parts)`` with parts as ``(lon, lat, z)`` vertices (z NaN when not given)."""
+    reason, parts = _line_parts(feat, sid, seen)
+    if reason is not None:
+        return reason, []
+    try:
+        # a third coordinate, when given, is the ground elevation [m] (RFC 7946 altitude)
+        parts = [[(float(c[0]), float(c[1]), float(c[2]) if len(c) > 2 and c[2] is not None else math.nan)
+                  for c in part] for part in parts]
+    except (TypeError, ValueError, IndexError):
+        return "bad_coordinates", []
+    parts = [p for p in parts if len(p) >= 2]
+    flat = [c for p in parts for c in p]
+    if not flat:
+        return "too_few_vertices", []
+    if not all(math.isfinite(x) and math.isfinite(y) and -180 <= x <= 180 and -90 <= y <= 90 for x, y, _ in flat):
+        return "coordinates_not_lonlat", []
+    return None, parts
+
+
+def _cut_street(parts, fwd, segment_length_m: float) -> list[np.ndarray]:
+    """A street's parts projected and cut into ``max(1, round(D / L))`` equal pieces each."""
+    pieces: list[np.ndarray] = []
+    for part in parts:
+        lonlat = np.asarray(part, dtype=float)
+        x, y = fwd.transform(lonlat[:, 0], lonlat[:, 1])
+        xy = np.column_stack([x, y, lonlat[:, 2]])
+        length = _polyline_length(xy)
+        if length <= 0:
+            continue
+        n = max(1, int(round(length / segment_length_m)))
+        cuts = np.linspace(0.0, length, n + 1)
+        pieces.extend(_substring(xy, a, b) for a, b in zip(cuts[:-1], cuts[1:], strict=False))
+    return pieces
+
+
+def _segment_rows(seg_id: str, sid: str, sname: str, k: int, piece: np.ndarray, spacing_m: float, inv):
+    """One segment's row and its sample points (midpoints of equal sub-intervals)."""
+    length = _polyline_length(piece)
+    n_pts = max(1, int(math.ceil(length / spacing_m - 1e-9)))
+    at = (np.arange(n_pts) + 0.5) * (length / n_pts)
+    pxy = _interpolate(piece, at)
+    plon, plat = inv.transform(pxy[:, 0], pxy[:, 1])
+    glon, glat = inv.transform(piece[:, 0], piece[:, 1])
+    mid = _interpolate(piece, np.array([length / 2.0]))[0]
+    seg = {C.SEGMENT_ID: seg_id, C.STREET_ID: sid, "street_name": sname, "seg_n": k,
+           "length_m": float(length), "n_points": n_pts, "x_mid_m": float(mid[0]), "y_mid_m": float(mid[1]),
+           "elev_start_m": float(piece[0, 2]), "elev_end_m": float(piece[-1, 2]),
+           "geometry_xy": [(float(v[0]), float(v[1])) for v in piece],
+           "geometry_lonlat": list(zip(map(float, glon), map(float, glat), strict=False))}
+    pts = [(seg_id, j, float(pxy[j, 0]), float(pxy[j, 1]), float(plon[j]), float(plat[j]), float(pxy[j, 2]))
+           for j in range(n_pts)]
+    return seg, pts
 
 
 def _row_of(obj: dict, sid: str) -> int:
