@@ -177,3 +177,26 @@ def test_route_reports_wbgt_minutes_with_the_planning_caution(tmp_path, demo_dir
     # plausible: hot sunny afternoon, WBGT between the natural wet-bulb-ish floor and air temperature
     assert points[W.WBGT_C].between(20.0, 36.0).all()
     assert "not a heat-safety assessment" in (out / "summary.md").read_text(encoding="utf-8")
+
+
+def test_extra_index_columns_for_the_chain():
+    from walkcomfort.environment import indices as I
+    from walkcomfort.errors import InputError
+
+    n = 4
+    common = dict(t_air_c=np.full(n, 32.0), rh_pct=np.full(n, 40.0), tmrt_c=np.array([60.0, 60.0, 35.0, 35.0]),
+                  wind10_ms=np.full(n, 2.0), pressure_hpa=np.full(n, np.nan), sun_elev_deg=np.full(n, 60.0),
+                  dni_wm2=np.full(n, 800.0), dhi_wm2=np.full(n, 120.0), beam_trans_frac=np.array([1.0, 1.0, 0, 0]),
+                  svf=np.full(n, 0.8))
+    out = I.extra_index_columns(["utci", "pet", "wbgt"], **common)
+    assert set(out) == {"pet_c", "pet_class", "wbgt_c"}
+    assert out["pet_c"][0] > out["pet_c"][2] and out["wbgt_c"][0] > out["wbgt_c"][2]  # sun vs shade
+    assert I.extra_index_columns(["utci"], **common) == {}
+    # a globe read on two rows: those rows take the logger route, the others the radiation route
+    tg = np.array([45.0, np.nan, 34.0, np.nan])
+    g = I.extra_index_columns(["wbgt"], t_globe_c=tg, globe={"diameter_m": 0.038, "emissivity": 0.95}, **common)
+    logger = W.wbgt_from_logger(32.0, 40.0, I.wind_from_10m(2.0, 1.1, 0.01), tg[[0, 2]], globe_diameter_m=0.038)
+    np.testing.assert_allclose(g["wbgt_c"][[0, 2]], logger[W.WBGT_C].to_numpy())
+    np.testing.assert_allclose(g["wbgt_c"][[1, 3]], out["wbgt_c"][[1, 3]])
+    with pytest.raises(InputError, match="unknown index 'pmv'"):
+        I.check_indices(["pet", "pmv"])
