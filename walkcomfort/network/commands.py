@@ -84,6 +84,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
 def write_outputs(out_dir, network, job, report) -> dict:
     """Summaries next to the batch rows: per-segment Parquet, GeoJSON, quarantined features."""
     from walkcomfort import _io
+    from walkcomfort.network.maplayer import write_city_map_layer
     from walkcomfort.network.summaries import network_layer, summary_from_results, summary_geojson
 
     out_dir = Path(out_dir)
@@ -95,6 +96,10 @@ def write_outputs(out_dir, network, job, report) -> dict:
     summary = report.summary if report.summary is not None else summary_from_results(out_dir)
     meta = {"job_digest": job.digest, "parameters": job.parameters}
     written["summary"] = _io.write_parquet(out_dir / SUMMARY_PARQUET, summary, meta)
+    try:
+        written["map_layer"] = write_city_map_layer(out_dir, summary, network)
+    except InputError as exc:  # the results stand; only the browser layer is left out, and said so
+        written["map_layer_skipped"] = str(exc)
     full = summary_geojson(summary, network)
     written["geojson"] = _io.write_json(out_dir / SUMMARY_GEOJSON, full)
     for scheme in job.schemes:
@@ -177,7 +182,9 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
     t0 = _time.perf_counter()
     report = run_job(job, out_dir, engine, resume=resume, overwrite=overwrite, summarise=True, **opts)
     seconds = _time.perf_counter() - t0
-    write_outputs(out_dir, net, job, report)
+    written = write_outputs(out_dir, net, job, report)
+    if "map_layer_skipped" in written:
+        click.echo(f"note: map layer not written: {written['map_layer_skipped']}", err=True)
     rate = report.written_rows / seconds if seconds > 0 else float("nan")
     click.echo(f"rows expected {report.expected_rows}, written {report.written_rows} "
                f"({seconds:.1f} s, {rate:.0f} rows/s) -> {out_dir}", err=True)
