@@ -43,7 +43,6 @@ import itertools
 
 import numpy as np
 import pandas as pd
-from pythermalcomfort.models import pet_steady
 
 from walkcomfort.environment._arrays import first_index
 
@@ -125,6 +124,10 @@ def pet_c(t_air_c, tmrt_c, wind_ms, rh_pct, pressure_hpa=1013.25):
     out = np.full(ta.shape, np.nan)
     ok = np.isfinite(ta) & np.isfinite(tr) & np.isfinite(v) & np.isfinite(rh) & np.isfinite(p)
     if ok.any():
+        # imported here: pythermalcomfort.models takes seconds to import (it loads every model of the
+        # library), which every verb importing this module would otherwise pay
+        from pythermalcomfort.models import pet_steady
+
         res = pet_steady(tdb=ta[ok], tr=tr[ok], v=np.maximum(v[ok], MIN_WIND_MS), rh=np.clip(rh[ok], 0.0, 100.0),
                          p_atm=p[ok], **REFERENCE_PERSON)
         out[ok] = np.asarray(getattr(res, "pet", res), dtype=float)  # a dataclass since pythermalcomfort 3

@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from walkcomfort.errors import InputError
+from walkcomfort.routes.indices import INDEX_OPTION, WBGT_LIMIT_OPTION, add_pet, add_wbgt_minutes, index_line
 from walkcomfort.routes.weather import FORMAT_CHOICES
 
 DESIGN_HELP = ("Put clock-time departures on a design day from the weather file: 'hottest', 'pNN' (the day "
@@ -67,7 +68,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
                    weather_path=None, conditions=None, design_day=None, season=None, model_path=None,
                    spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
                    logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None,
-                   actual_year=False, weather_format=None, weather_map=None, wbgt_limit=None):
+                   actual_year=False, weather_format=None, weather_map=None, wbgt_limit=None, index="utci"):
     """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
 
     Returns
@@ -114,6 +115,8 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
             echo(f"note: {n}")
     if day_note:
         result.notices.append(day_note)
+    if index == "pet":  # indices beside the comfort figures (routes/indices.py)
+        add_pet(result)
     if wbgt_limit is not None:
         add_wbgt_minutes(result, wbgt_limit)
     written = {}
@@ -126,7 +129,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
                   "flat_speed_ms": flat_speed_ms, "route_id": route.route_id, "walker": walker_attrs,
                   "schemes": [s.name for s in schemes], "predictor": predictor.label,
                   "weather": weather.describe(), "elevation_source": route.elevation_source,
-                  "wbgt_limit_c": wbgt_limit}
+                  "wbgt_limit_c": wbgt_limit, "index": index}
         prov = _io.provenance(inputs, params)
         written = _write(result, out_dir, prov, timezone)
     return result, written
@@ -190,26 +193,6 @@ def parse_walker(text: str | None) -> dict | None:
     return out
 
 
-WBGT_LIMIT_OPTION = click.option(
-    "--wbgt-limit", type=float, default=None,
-    help="Also report the minutes of each walk with estimated WBGT above this limit [°C] (e.g. 26 or 28, "
-         "field_protocol/safety.md). A planning estimate, not a heat-safety assessment.")
-
-
-def add_wbgt_minutes(result, limit_c: float) -> None:
-    """WBGT beside the comfort figures: ``wbgt_c`` per point, minutes above ``limit_c`` per walk, the caution."""
-    from walkcomfort.environment.wbgt import PLANNING_CAUTION, WBGT_C, wbgt_for_points, wbgt_minutes_above
-    from walkcomfort.routes.compare import KEYS
-    from walkcomfort.routes.simulate import STEP_S
-
-    result.points[WBGT_C] = wbgt_for_points(result.points)[WBGT_C]
-    result.summary = result.summary.merge(wbgt_minutes_above(result.points, limit_c, KEYS, STEP_S), on=KEYS,
-                                          how="left")
-    worst = result.summary["wbgt_min_above_limit"].max()
-    result.notices.append(f"estimated WBGT above {limit_c:g} °C for up to {worst:.1f} min of a walk "
-                          f"(summary column wbgt_min_above_limit). {PLANNING_CAUTION}")
-
-
 def _write(result, out_dir, prov, timezone):
     from walkcomfort.routes.outputs import write_outputs
 
@@ -222,8 +205,7 @@ def _report(result, written, out_dir, timezone=None):
         dep = r["departure"].tz_convert(timezone) if timezone else r["departure"]
         click.echo(f"{r['scheme']:>14} {dep.strftime('%Y-%m-%d %H:%M %Z')}  walk {r['walk_min']:.1f} min  "
                    f"comfortable {r['exp_min_comfortable']:.1f} min (expected)  shade {r['shade_share']:.0%}  "
-                   f"mean UTCI {r['mean_utci_c']:.1f} °C"
-                   + (f"  WBGT > {r['wbgt_limit_c']:g} °C {r['wbgt_min_above_limit']:.1f} min" if "wbgt_limit_c" in s else ""))
+                   f"{index_line(r)}")
     click.echo(f"wrote {len(written)} files to {out_dir}")
 
 
@@ -232,6 +214,7 @@ def _report(result, written, out_dir, timezone=None):
 @click.option("--scheme", "scheme_path", type=click.Path(path_type=Path), default=None,
               help="One shade scheme GeoJSON applied to the scene (default: the base scene).")
 @route_options
+@INDEX_OPTION
 @WBGT_LIMIT_OPTION
 def route(route_path, scheme_path, **kw):
     """Predict comfort along one planned route for one scheme and one or many departures.
@@ -250,6 +233,7 @@ def route(route_path, scheme_path, **kw):
 @click.option("--scheme", "scheme_paths", type=click.Path(path_type=Path), multiple=True, required=True,
               help="Shade scheme GeoJSON; repeat for each scheme. The base scene is always included.")
 @route_options
+@INDEX_OPTION
 @WBGT_LIMIT_OPTION
 def compare(route_path, scheme_paths, **kw):
     """Compare shade schemes side by side along a planned route (with the base scene).
