@@ -120,3 +120,13 @@ def test_time_above_counts_steps_merges_close_runs_and_skips_missing():
     assert [e["minutes"] for e in out["episodes"]] == [pytest.approx(70 / 60, abs=0.01), pytest.approx(0.5)]
     assert out["episodes"][0]["start"] == "2026-07-14T10:00:10+02:00"
     assert out["episodes"][0]["end"] == "2026-07-14T10:01:40+02:00"
+
+
+def test_report_lines_name_the_limit_the_episodes_and_the_caveats(tmp_path):
+    hs = H.walk_heat_safety(build_timeline(_walk_with_hot_spell(tmp_path)).data)
+    lines = H.report_lines(hs)
+    assert lines[0].startswith("WBGT limit 28 °C (moderate activity, acclimatised")
+    assert any(x.strip().startswith("10:0") and "min above" in x for x in lines)
+    assert sum(x.startswith("note:") for x in lines) == len(hs["caveats"])
+    assert H.report_lines({}) == []
+    assert "not assessed" in H.report_lines({"assessed": False, "reason": "no globe", "limit": {}})[1]

@@ -505,3 +505,22 @@ def caution_line(summary: dict) -> str | None:
     return (f"caution: estimated WBGT above the {lim['limit_c']:g} °C limit ({who}) for "
             f"{summary['minutes_above']:g} min in {len(eps)} episode(s) between {first} and {last} local time, "
             f"peak {summary['peak_wbgt_c']:g} °C — see qa.json heat_safety and field_protocol/safety.md")
+
+
+def report_lines(summary: dict) -> list[str]:
+    """Plain-text lines for a report of one walk's ``heat_safety`` entry (``qa.json``): the limit, the
+    time above it with each episode (local clock times), and the caveats. Empty for no entry."""
+    if not summary:
+        return []
+    lim = summary.get("limit", {})
+    head = (f"WBGT limit {lim.get('limit_c', float('nan')):g} °C ({lim.get('activity_class', '?')} activity, "
+            f"{'' if lim.get('acclimatised') else 'not '}acclimatised, {lim.get('clothing', 'clothing unknown')})")
+    if not summary.get("assessed"):
+        return [head, f"not assessed: {summary.get('reason', 'no reason given')}"]
+    lines = [head, f"estimated WBGT: peak {summary.get('peak_wbgt_c')} °C, mean {summary.get('mean_wbgt_c')} °C; "
+                   f"{summary.get('minutes_above', 0):g} min above the limit"]
+    lines += [f"  {e['start'][11:19]}–{e['end'][11:19]}: {e['minutes']:g} min above, peak {e['peak_wbgt_c']:g} °C"
+              for e in summary.get("episodes", [])]
+    lines += [f"assumed: {a}" for a in lim.get("assumptions", [])]
+    lines += [f"note: {c}" for c in summary.get("caveats", [])]
+    return lines
