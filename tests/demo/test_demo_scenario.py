@@ -42,7 +42,7 @@ def test_one_session_regenerates_byte_identical(tmp_path, session_id):
     plan = next(p for p in S.session_plans(prov["n_walkers"]) if p.id == session_id)
     digests = []
     for run in ("a", "b"):
-        scenario.write_session(tmp_path / run, town, plan, prov["seed"], S._env_funcs(town))
+        scenario.write_session(tmp_path / run, town, plan, prov["seed"], S.environment_context(town))
         folder = tmp_path / run / "sessions" / session_id
         digests.append({p.relative_to(folder).as_posix(): _io.file_digest(p) for p in folder.rglob("*") if p.is_file()})
     assert digests[0] == digests[1]

@@ -196,8 +196,9 @@ def test_thermal_command_errors(tmp_path, capsys):
 
 
 def test_missing_values_pass_through_as_nan():
-    # From the definition (NaN passes through): a GPS gap gives no sun/shade/sky view, a
-    # missing air temperature no Tmrt/UTCI, a missing wind no UTCI; nothing is dropped.
+    # From the definition (NaN passes through): a GPS gap gives no shade/sky view (the sun is
+    # the site's, known without a position), a missing air temperature no Tmrt/UTCI, a
+    # missing wind no UTCI; nothing is dropped.
     sc = _wall_scene()
     idx = pd.date_range("2026-07-14 10:00", periods=4, freq="1s", tz="UTC", name=C.TIME)
     df = pd.DataFrame({C.LAT: [LAT, np.nan, LAT, LAT], C.LON: [LON, LON, LON, LON],
@@ -206,7 +207,7 @@ def test_missing_values_pass_through_as_nan():
     df.attrs["session"] = {"wind_height_m": 1.1}
     out = add_environment(df, scene=sc)
     assert len(out) == 4
-    assert np.isnan(out[C.SUN_ELEV_DEG].iloc[1]) and np.isnan(out[C.SHADE_FRAC].iloc[1])
+    assert np.isfinite(out[C.SUN_ELEV_DEG]).all() and np.isnan(out[C.SHADE_FRAC].iloc[1])
     assert np.isnan(out[C.SVF].iloc[1]) and np.isfinite(out[C.SVF].iloc[[0, 2, 3]]).all()
     assert np.isnan(out[C.TMRT_C].iloc[2]) and pd.isna(out[C.TMRT_SOURCE].iloc[2])
     assert np.isnan(out[C.UTCI_C].iloc[3]) and pd.isna(out[C.UTCI_BAND].iloc[3])

@@ -248,7 +248,7 @@ def test_a_lost_worker_fails_its_partition_not_the_job(small_net, tmp_path):
     weather = StatedConditions(t_air_c=30.0, rh_pct=40.0, wind_ms=2.0).conditions(times, site["lat"], site["lon"])
     weather.attrs = {}
     job = plan_job(small_net, times, {"base": None}, weather, tile_size_m=200.0, site=site,
-                   partition_fn=_crashing.kill_worker_on_first_tile)
+                   context={"wind_height_m": 10.0}, partition_fn=_crashing.kill_worker_on_first_tile)
     env = {"PYTHONPATH": os.pathsep.join([here, os.environ.get("PYTHONPATH", "")])}
     with dask.config.set({"distributed.scheduler.allowed-failures": 0}), \
             LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1",

@@ -82,7 +82,8 @@ def test_tile_by_tile_summary_equals_the_whole_summary(tmp_path):
     site = scene["walkcomfort"]["site"]
     weather = StatedConditions(t_air_c=30.0, rh_pct=40.0, wind_ms=2.0).conditions(times, site["lat"], site["lon"])
     weather.attrs = {}
-    job = plan_job(net, times, {"base": scene, "fewer": fewer}, weather, tile_size_m=120.0, time_chunk=2, site=site)
+    job = plan_job(net, times, {"base": scene, "fewer": fewer}, weather, tile_size_m=120.0, time_chunk=2, site=site,
+                   context={"wind_height_m": 10.0})
     assert len({p.tile_id for p in job.partitions}) > 2
     assert run_job(job, tmp_path).ok
     whole = segment_summary(read_segment_hours(tmp_path))

@@ -182,7 +182,7 @@ def test_a_street_point_inside_a_building_is_flagged(tmp_path):
     times = time_range("2026-03-20T11:00", "2026-03-20T12:00", "1h", "UTC")
     weather = StatedConditions(t_air_c=25.0, rh_pct=50.0, wind_ms=2.0).conditions(times, 0.0, 3.0)
     weather.attrs = {}
-    job = plan_job(net, times, {"base": scene}, weather, site=site)
+    job = plan_job(net, times, {"base": scene}, weather, site=site, context={"wind_height_m": 10.0})
     assert run_job(job, tmp_path).ok
     rows = read_segment_hours(tmp_path)
     flagged = rows.groupby(C.SEGMENT_ID)[C.QA_INSIDE_BUILDING].all()

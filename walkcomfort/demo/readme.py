@@ -26,9 +26,9 @@ def readme_text(town, summaries, planted, schemes, physics, seed) -> str:
     scheme_rows = "\n".join(
         f"| `schemes/{sid}.geojson` | {v['label']} | {v['trees_added']} | {v['canopy_m2_added']:.0f} | "
         f"{v['modified']} | {v['removed']} |" for sid, v in schemes.items())
-    physics_line = ("Each comes from `walkcomfort.environment`: "
-                    + ", ".join(f"`{v.rsplit('.', 1)[1]}`" for v in physics.values()) + ".")
-    from walkcomfort.demo.scenario import DESIGN_DAY as S_DAY
+    physics_line = ("They come from the one environment chain every stage of walkcomfort uses: "
+                    + ", ".join(f"`{v}`" for v in physics.values()) + ".")
+    S_DAY = S.DESIGN_DAY
     return f"""# demo_walks — an INVENTED scenario
 
 **Everything in this folder is invented.** {T.TOWN_NAME} is not a real town, the walkers

@@ -18,7 +18,7 @@ import pandas as pd
 
 from walkcomfort import _io
 from walkcomfort.demo import devices as D
-from walkcomfort.demo import latent
+from walkcomfort.demo import latent, readme
 from walkcomfort.demo import simulator as S
 from walkcomfort.demo import town as T
 
@@ -105,10 +105,10 @@ def _fmt_csv(df: pd.DataFrame, decimals: int = 3) -> str:
     return df.to_csv(index=False, lineterminator="\n", float_format=f"%.{decimals}f")
 
 
-def write_session(root: Path, town: T.Town, plan: S.SessionPlan, seed: int, funcs) -> dict:
+def write_session(root: Path, town: T.Town, plan: S.SessionPlan, seed: int, context) -> dict:
     """Simulate one walk and write its folder; return what the caller records (truth, planted)."""
     rng = S.session_rng(seed, plan.number)
-    truth = S.simulate_truth(town, plan, rng, funcs)
+    truth = S.simulate_truth(town, plan, rng, context)
     votes = S.draw_votes(truth, plan, rng)
     folder = root / "sessions" / plan.id
     tz = T.TIMEZONE
@@ -211,7 +211,7 @@ def write_session(root: Path, town: T.Town, plan: S.SessionPlan, seed: int, func
     return {"planted": planted, "summary": summary, "frames": frames, "votes": vt}
 
 
-DESIGN_DAY = "2026-07-15"
+DESIGN_DAY = S.DESIGN_DAY
 
 
 def design_day_csv(day: str = DESIGN_DAY) -> str:
@@ -264,8 +264,6 @@ def generate_demo(out_dir, seed: int = S.DEFAULT_SEED, n_walkers: int = 8) -> di
         ``sessions`` (per-session summary), ``planted`` (imperfections), ``physics`` (which
         implementation produced each quantity of truth).
     """
-    from walkcomfort.demo import readme
-
     root = Path(out_dir)
     _clear(root)
     town = T.build_town(seed)
@@ -278,13 +276,13 @@ def generate_demo(out_dir, seed: int = S.DEFAULT_SEED, n_walkers: int = 8) -> di
         _io.write_json(root / "schemes" / f"{sid}.geojson", T.scheme_geojson(town, sid))
 
     _io.atomic_write_text(root / "weather" / "design-day.csv", design_day_csv())
-    funcs = S._env_funcs(town)
+    context = S.environment_context(town)
     results = []
     from walkcomfort._progress import track
 
     plans = S.session_plans(n_walkers)
     for plan in track(plans, "simulating demo walks"):
-        results.append(write_session(root, town, plan, seed, funcs))
+        results.append(write_session(root, town, plan, seed, context))
     planted = [p for r in results for p in r["planted"]]
     summaries = [r["summary"] for r in results]
     _io.atomic_write_text(root / "truth" / "frames.csv", _fmt_csv(pd.DataFrame([f for r in results for f in r["frames"]]), 4))
@@ -298,7 +296,7 @@ def generate_demo(out_dir, seed: int = S.DEFAULT_SEED, n_walkers: int = 8) -> di
         "imperfections": planted,
     }
     _io.write_json(root / MARKER, doc)
-    physics = funcs["sources"]
+    physics = context["sources"]
     schemes = {sid: {"label": town.schemes[sid]["label"], **T.scheme_summary(town, sid)} for sid in town.schemes}
     _io.atomic_write_text(root / "README.md", readme.readme_text(town, summaries, planted, schemes, physics, seed))
     files = sorted(p for p in root.rglob("*") if p.is_file() and p.name != "provenance.json")

@@ -5,10 +5,11 @@ For each planned session the simulator
 1. walks an invented walker along one of the town's loops, second by second, with a
    walking speed that follows Tobler's hiking function on the hill and stops where the
    walker is prompted to vote;
-2. computes the *truth* of what the walker met with :mod:`walkcomfort.environment`
-   (sun position and clear-sky irradiance, direct-beam shade and sky view from the scene,
-   mean radiant temperature from fluxes, UTCI) under an invented summer weather course,
-   plus traffic noise, illuminance and crowding;
+2. computes the *truth* of what the walker met with the environment chain every caller
+   uses, :func:`walkcomfort.environment.chain.environment_columns` (sun position and
+   clear-sky irradiance, direct-beam shade and sky view from the scene, mean radiant
+   temperature from fluxes, UTCI) under an invented summer weather course, plus traffic
+   noise, illuminance and crowding;
 3. turns the truth into the raw files each device would have written, in that device's own
    units, sampling, clock and format (see :mod:`walkcomfort.demo.devices`), with the
    sensor physics that makes field data hard: a globe thermometer that lags with its time
@@ -28,6 +29,9 @@ import pandas as pd
 
 from walkcomfort.demo import latent
 from walkcomfort.demo import town as T
+from walkcomfort.environment.chain import environment_columns
+from walkcomfort.environment.scene import Scene
+from walkcomfort.environment.tmrt import globe_from_tmrt
 
 DEFAULT_SEED = 20260714
 DT_S = 1.0
@@ -63,6 +67,9 @@ SCHEDULE = (
     ("P07", "loop-a", "2026-07-13", "13:30"), ("P07", "loop-b", "2026-07-16", "15:00"),
     ("P08", "loop-b", "2026-07-14", "17:45"), ("P08", "loop-a", "2026-07-17", "11:00"),
 )
+
+#: The day of the design-day weather file and of the planned routes (the hottest invented day).
+DESIGN_DAY = "2026-07-15"
 
 # invented day-to-day departures of the daily temperature course [K]
 DAY_OFFSET_K = {"2026-07-13": 0.0, "2026-07-14": 1.2, "2026-07-15": 2.0, "2026-07-16": -0.8, "2026-07-17": 0.5}
@@ -165,7 +172,7 @@ def walk_kinematics(walk: T.Walk, walker: latent.Walker, rng):
     stops = [f * length for f in walk.stops]
     stop_len = [int(rng.integers(40, 61)) for _ in stops]
     wobble = _ar1(rng, 4000, 0.98, 0.05)
-    xs, ss, stopped, stop_idx = [], [], [], []
+    ss, stopped, stop_idx = [], [], []
     s = 0.0
     for _ in range(PRE_WALK_S):
         ss.append(s), stopped.append(True), stop_idx.append(-1)
@@ -197,106 +204,76 @@ def walk_kinematics(walk: T.Walk, walker: latent.Walker, rng):
 
 def scene_of(town: T.Town):
     """The town's scene as a :class:`walkcomfort.environment.scene.Scene`."""
-    from walkcomfort.environment.scene import Scene
-
     return Scene.from_geojson(T.scene_geojson(town), source="demo town")
 
 
-#: The environment functions the truth comes from (DEVELOPERS.md contract), recorded in provenance.json.
+#: Where the truth comes from (DEVELOPERS.md contract), recorded in provenance.json: the one
+#: environment chain every caller uses, the clear sky the day's invented haze dims, and the
+#: globe's steady state the logger's lagging globe follows.
 PHYSICS = {
-    "solar_position": "walkcomfort.environment.sun.solar_position",
+    "environment_columns": "walkcomfort.environment.chain.environment_columns",
     "clearsky_irradiance": "walkcomfort.environment.sun.clearsky_irradiance",
-    "beam_transmittance": "walkcomfort.environment.shade.beam_transmittance",
-    "sky_view_factor": "walkcomfort.environment.skyview.sky_view_factor",
-    "tmrt_from_fluxes": "walkcomfort.environment.tmrt.tmrt_outdoor",
     "globe_from_tmrt": "walkcomfort.environment.tmrt.globe_from_tmrt",
-    "utci_from_conditions": "walkcomfort.environment.utci.utci_from_conditions",
-    "wind_at_10m": "walkcomfort.environment.utci.wind_at_10m",
 }
 
 
-def _env_funcs(town: T.Town | None = None):
-    """The environment functions bound to the town's scene, taking local town metres.
-
-    Positions are projected to WGS84 and into the scene's frame (UTM of the site), so the
-    shade and sky-view kernels see the walker exactly where the GPX says (without the noise).
-    """
-    from walkcomfort.environment.shade import beam_transmittance
-    from walkcomfort.environment.skyview import sky_view_factor
-    from walkcomfort.environment.sun import clearsky_irradiance, solar_position
-    from walkcomfort.environment.tmrt import globe_from_tmrt, tmrt_outdoor
-    from walkcomfort.environment.utci import utci_from_conditions, wind_at_10m
-
+def environment_context(town: T.Town | None = None) -> dict:
+    """What the truth needs once per town: its scene (prepared once) and the sources of the physics."""
     town = town or T.build_town(DEFAULT_SEED)
-    scene = scene_of(town)
-
-    def to_scene(x, y):
-        lon, lat = T.to_lonlat(x, y)
-        return scene.project(np.asarray(lon, float), np.asarray(lat, float))
-
-    def beam(x, y, el, az):
-        sx, sy = to_scene(x, y)
-        return np.asarray(beam_transmittance(scene, sx, sy, el, az, z_m=BODY_HEIGHT_M, month=7), float)
-
-    def svf(x, y):
-        sx, sy = to_scene(x, y)
-        out = sky_view_factor(scene, sx, sy, z_m=BODY_HEIGHT_M)
-        return out["svf"].to_numpy(float), out["sky_frac_crowns"].to_numpy(float)
-
-    return {
-        "beam_transmittance": beam,
-        "sky_view_factor": svf,
-        "tmrt_from_fluxes": lambda *a: np.asarray(tmrt_outdoor(*a), float),
-        "solar_position": lambda times, lat, lon, elev: solar_position(times, lat, lon, elev_m=elev),
-        "clearsky_irradiance": lambda times, lat, lon, elev: clearsky_irradiance(times, lat, lon, elev_m=elev),
-        "utci": lambda ta, tr, v10, rh: utci_from_conditions(ta, tr, v10, rh, warn=False)["utci_c"].to_numpy(),
-        "wind10": lambda v, z: np.asarray(wind_at_10m(v, z), float),
-        "globe_from_tmrt": lambda tr, ta, v: np.asarray(globe_from_tmrt(tr, ta, v, diameter_m=GLOBE_DIAMETER_M,
-                                                                       emissivity=GLOBE_EMISSIVITY), float),
-        "sources": dict(PHYSICS),
-    }
+    return {"scene": scene_of(town), "sources": dict(PHYSICS)}
 
 
-def environment_truth(town: T.Town, kin: dict, times_utc: pd.DatetimeIndex, day: str, rng, funcs=None):
-    """Everything the walker met, per second: sun, irradiance, shade, sky view, weather, Tmrt, UTCI."""
-    funcs = funcs or _env_funcs(town)
-    site = town.site
-    sun = funcs["solar_position"](times_utc, site["lat"], site["lon"], site["elev_m"])
-    cs = funcs["clearsky_irradiance"](times_utc, site["lat"], site["lon"], site["elev_m"])
-    haze = DAY_HAZE.get(day, 0.96)
-    el = sun["sun_elev_deg"].to_numpy()
-    az = sun["sun_azim_deg"].to_numpy()
-    dni = cs["dni_wm2"].to_numpy() * haze
-    dhi = cs["dhi_wm2"].to_numpy() * (1.0 + 0.6 * (1.0 - haze))
+def environment_at(context: dict, times_utc, lon, lat, weather: pd.DataFrame, sky_view=None) -> pd.DataFrame:
+    """The environment a walker meets at ``lon, lat`` and ``times_utc`` in ``weather``: the chain itself.
+
+    The walker's body centre, the globe and the air sensor are at :data:`BODY_HEIGHT_M`, the
+    anemometer at :data:`WIND_HEIGHT_M`; the scene is the context's.
+    """
+    positions = pd.DataFrame({"lon": np.asarray(lon, float), "lat": np.asarray(lat, float)})
+    return environment_columns(times_utc, positions, weather, scene=context["scene"], wind_height_m=WIND_HEIGHT_M,
+                               z_m=BODY_HEIGHT_M, sky_view=sky_view, warn=False)
+
+
+def environment_truth(town: T.Town, kin: dict, times_utc: pd.DatetimeIndex, day: str, rng, context=None):
+    """Everything the walker met, per second: sun, irradiance, shade, sky view, weather, Tmrt, UTCI.
+
+    Two passes of the chain: the first (background weather, clear sky) gives the sun, shade
+    and sky view the invented weather responds to — a little warmer over sunlit paving,
+    cooler under crowns, less wind where the sky is closed —; the second gives the truth for
+    the weather as it then is, with the day's haze on the clear sky.
+    """
+    context = context or environment_context(town)
     x, y = kin["x"], kin["y"]
-    beam = funcs["beam_transmittance"](x, y, el, az)
-    # sky view on the path every 2 m, interpolated by distance (it changes with place, not time)
-    s_path, path = kin["s_path"], kin["path"]
-    samp = np.arange(0.0, s_path[-1] + 2.0, 2.0)
-    px = np.interp(samp, s_path, path[:, 0])
-    py = np.interp(samp, s_path, path[:, 1])
-    svf_p, sfc_p = funcs["sky_view_factor"](px, py)
-    svf = np.interp(kin["s"], samp, svf_p)
-    sky_crowns = np.interp(kin["s"], samp, sfc_p)
-    local_hour = (times_utc.tz_convert(town.timezone).hour + times_utc.tz_convert(town.timezone).minute / 60.0
-                  + times_utc.tz_convert(town.timezone).second / 3600.0).to_numpy()
+    lon, lat = T.to_lonlat(x, y)
+    tz = times_utc.tz_convert(town.timezone)
+    local_hour = (tz.hour + tz.minute / 60.0 + tz.second / 3600.0).to_numpy()
     wx = weather_background(local_hour, day, rng)
+    background = pd.DataFrame({"t_air_c": wx["t_air_bg_c"].to_numpy(), "rh_pct": wx["rh_pct"].to_numpy(),
+                               "wind_ms": wx["wind_ms"].to_numpy(), "pressure_hpa": wx["pressure_hpa"].to_numpy()})
+    first = environment_at(context, times_utc, lon, lat, background)
+    haze = DAY_HAZE.get(day, 0.96)
+    el = first["sun_elev_deg"].to_numpy()
+    dni = first["dni_wm2"].to_numpy() * haze
+    dhi = first["dhi_wm2"].to_numpy() * (1.0 + 0.6 * (1.0 - haze))
+    beam = first["beam_trans_frac"].to_numpy()
+    svf, sky_crowns = first["svf"].to_numpy(), first["sky_frac_crowns"].to_numpy()
     sun_on_ground = np.clip(beam * dni * np.sin(np.radians(np.maximum(el, 0))) / 800.0, 0, 1.2)
     # a little warmer over sunlit paving, a little cooler under dense crowns (invented, ±1 K)
-    t_air = wx["t_air_bg_c"].to_numpy() + 0.7 * sun_on_ground - 0.5 * (1.0 - sky_crowns)
-    rh = wx["rh_pct"].to_numpy()
-    wind = wx["wind_ms"].to_numpy() * (0.75 + 0.25 * svf)
-    tmrt = funcs["tmrt_from_fluxes"](el, dni, dhi, beam, svf, t_air, rh)
-    v10 = funcs["wind10"](wind, WIND_HEIGHT_M)
-    utci = funcs["utci"](t_air, tmrt, v10, rh)
-    ghi = dni * np.sin(np.radians(np.maximum(el, 0))) + dhi
+    weather = pd.DataFrame({
+        "t_air_c": background["t_air_c"].to_numpy() + 0.7 * sun_on_ground - 0.5 * (1.0 - sky_crowns),
+        "rh_pct": background["rh_pct"].to_numpy(), "wind_ms": background["wind_ms"].to_numpy() * (0.75 + 0.25 * svf),
+        "pressure_hpa": background["pressure_hpa"].to_numpy(),
+        "ghi_wm2": dni * np.sin(np.radians(np.maximum(el, 0))) + dhi, "dni_wm2": dni, "dhi_wm2": dhi})
+    env = environment_at(context, times_utc, lon, lat, weather, sky_view=(svf, sky_crowns))
+    cols = ["sun_elev_deg", "sun_azim_deg", "ghi_wm2", "dni_wm2", "dhi_wm2", "beam_trans_frac", "svf",
+            "sky_frac_crowns"]
     return pd.DataFrame({
         "x_m": x, "y_m": y, "dist_m": kin["s"], "elev_m": T.elevation_m(x, y), "slope_pct": kin["slope_pct"],
         "stopped": kin["stopped"], "stop_idx": kin["stop_idx"],
-        "sun_elev_deg": el, "sun_azim_deg": az, "ghi_wm2": ghi, "dni_wm2": dni, "dhi_wm2": dhi,
-        "beam_trans_frac": beam, "svf": svf, "sky_frac_crowns": sky_crowns,
-        "t_air_c": t_air, "rh_pct": rh, "wind_ms": wind, "pressure_hpa": wx["pressure_hpa"].to_numpy(),
-        "tmrt_c": tmrt, "wind10_ms": v10, "utci_c": utci, "local_hour": local_hour,
+        **{c: env[c].to_numpy() for c in cols},
+        **{c: weather[c].to_numpy() for c in ("t_air_c", "rh_pct", "wind_ms", "pressure_hpa")},
+        "tmrt_c": env["tmrt_c"].to_numpy(), "wind10_ms": env["wind10_ms"].to_numpy(),
+        "utci_c": env["utci_c"].to_numpy(), "local_hour": local_hour,
     }, index=pd.DatetimeIndex(times_utc, name="time"))
 
 
@@ -349,21 +326,22 @@ def first_order(values, tau_s, dt_s=DT_S, start=None):
     return y
 
 
-def simulate_truth(town: T.Town, plan: SessionPlan, rng, funcs=None) -> pd.DataFrame:
+def simulate_truth(town: T.Town, plan: SessionPlan, rng, context=None) -> pd.DataFrame:
     """The per-second truth of one session (UTC index), with sensor responses and latent comfort."""
     walk = town.walks[plan.walk_id]
     kin = walk_kinematics(walk, plan.walker, rng)
     n = len(kin["s"])
     times = pd.date_range(plan.start_local.tz_convert("UTC"), periods=n, freq="s", name="time")
     day = plan.start_local.strftime("%Y-%m-%d")
-    truth = environment_truth(town, kin, times, day, rng, funcs)
+    truth = environment_truth(town, kin, times, day, rng, context)
     crowd = T.crowd_expected_n(truth["x_m"], truth["y_m"], truth["local_hour"])
     truth["crowd_n"] = crowd
     laeq, events = sound_truth(truth, rng)
     truth["laeq_db"] = laeq
     truth["illum_lux"] = illuminance_truth(truth)
-    funcs = funcs or _env_funcs(town)
-    tg_ss = funcs["globe_from_tmrt"](truth["tmrt_c"].to_numpy(), truth["t_air_c"].to_numpy(), truth["wind_ms"].to_numpy())
+    tg_ss = np.asarray(globe_from_tmrt(truth["tmrt_c"].to_numpy(), truth["t_air_c"].to_numpy(),
+                                       truth["wind_ms"].to_numpy(), diameter_m=GLOBE_DIAMETER_M,
+                                       emissivity=GLOBE_EMISSIVITY), float)
     truth["t_globe_steady_c"] = tg_ss
     truth["t_globe_sensor_c"] = first_order(tg_ss, TAU_GLOBE_S)
     truth["t_air_sensor_c"] = first_order(truth["t_air_c"].to_numpy(), TAU_AIR_S)

@@ -1,44 +1,43 @@
 """The real per-partition computation: environment and comfort on a points x times grid.
 
-Everything physical is delegated to the public functions of the stages that own
-it; this module only arranges the arrays:
+The environment of every point x time comes from the one chain every caller uses,
+:func:`walkcomfort.environment.chain.environment_columns` (``grid=True``): sun position,
+irradiance in the open, direct-beam transmittance, sky view factor, Tmrt from fluxes,
+wind at 10 m and UTCI, with the decisions documented there. This module only arranges
+the partition's arrays for it and back:
 
-1. sun position for the chunk's times (``environment.sun.solar_position``, NREL SPA);
-2. direct-beam transmittance on the N points x T times grid
-   (``environment.shade.beam_transmittance_grid``) and the sky view factor of every
-   point (``environment.skyview.sky_view_factor``), against the tile's scene;
-3. mean radiant temperature from six-direction fluxes
-   (``environment.tmrt.tmrt_outdoor``) with the weather's irradiance in the open;
-4. UTCI (``environment.utci.utci_from_conditions``) with the wind brought to 10 m;
-5. comfort class probabilities: from a saved model bundle when the job names one
+1. the chain, on the tile's points x the chunk's times, against the tile's scene (the sky
+   view is cached per tile here, since time chunks of one tile share it);
+2. comfort class probabilities: from a saved model bundle when the job names one
    (``walkcomfort.routes`` prediction path), else the documented UTCI-band rule
    (``model.baselines.physics_rule``) as one-hot probabilities.
 
-Times when the sun is above the horizon but lower than the job's
-``min_sun_elev_deg`` are flagged ``qa_low_sun`` and their direct beam is treated
-as blocked: the tile carries only the obstacles whose shadows reach it at that
-elevation or higher (see :mod:`walkcomfort.network.tiling`), so shade at a lower
-sun could be missed, and street-level beam at such elevations is small and
-nearly always blocked in a built area (common practice).
+Times when the sun is above the horizon but lower than the job's ``min_sun_elev_deg``
+are flagged ``qa_low_sun``: the tile carries only the obstacles whose shadows reach it at
+that elevation or higher (see :mod:`walkcomfort.network.tiling`), so a shadow from
+farther away can be missed there. The physics itself has no elevation cut (the chain's
+low-sun decision); lower ``--lowest-sun`` to widen the tiles' reach.
 """
 
 from __future__ import annotations
 
+import hashlib
+import json
 from functools import lru_cache
 
 import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
-from walkcomfort.network.batch import P_COLUMNS, Partition, aggregate_points
+from walkcomfort.environment import chain
+from walkcomfort.environment.scene import Scene
+from walkcomfort.network.partition import P_COLUMNS, Partition, aggregate_points
 from walkcomfort.network.tiling import SVF_RADIUS_M
 
 
 def _scene(part: Partition):
     if not part.scene or not part.scene.get("features"):
         return None
-    from walkcomfort.environment.scene import Scene
-
     return Scene.from_geojson(part.scene)
 
 
@@ -55,90 +54,53 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
         sun_azim_deg, shade_frac, svf, t_air_c, rh_pct, wind_ms, tmrt_c, utci_c,
         qa_low_sun, qa_utci_out_of_range, qa_inside_building``.
     """
-    from walkcomfort.environment import sun as _sun
-    from walkcomfort.environment import tmrt as _tmrt
-    from walkcomfort.environment import utci as _utci
-
     ctx = part.context
-    site = ctx["site"]
-    times = part.times
     w = part.weather
     if w is None:
         raise ValueError(f"partition {part.partition_id} has no weather; plan the job with weather at every time")
-    t_air = w[C.T_AIR_C].to_numpy(float)
-    rh = w[C.RH_PCT].to_numpy(float)
-    wind = w[C.WIND_MS].to_numpy(float)
-    pressure = w[C.PRESSURE_HPA].to_numpy(float) if C.PRESSURE_HPA in w.columns else None
-    sp = _sun.solar_position(times, site["lat"], site["lon"], site.get("elev_m", 0.0),
-                             pressure_hpa=pressure, t_air_c=t_air)
-    elev = sp[C.SUN_ELEV_DEG].to_numpy(float)
-    azim = sp[C.SUN_AZIM_DEG].to_numpy(float)
-    if C.DNI_WM2 in w.columns and C.DHI_WM2 in w.columns:
-        dni, dhi = w[C.DNI_WM2].to_numpy(float), w[C.DHI_WM2].to_numpy(float)
-    else:
-        cs = _sun.clearsky_irradiance(times, site["lat"], site["lon"], site.get("elev_m", 0.0))
-        dni, dhi = cs[C.DNI_WM2].to_numpy(float), cs[C.DHI_WM2].to_numpy(float)
+    pts = part.points
+    n, t = len(pts), len(part.times)
+    z = float(ctx.get("z_m", chain.BODY_HEIGHT_M))
+    own = scene is None
+    scene = _scene(part) if own else scene
+    svf = _tile_svf(part, scene, z) if own and scene is not None else None
+    env = chain.environment_columns(part.times, pts, w, scene=scene, wind_height_m=ctx.get("wind_height_m"),
+                                    grid=True, site=ctx["site"], z_m=z, sky_view=svf,
+                                    svf_radius_m=SVF_RADIUS_M, warn=False)
 
-    x = part.points[C.X_M].to_numpy(float)
-    y = part.points[C.Y_M].to_numpy(float)
-    n, t = len(x), len(times)
-    z = float(ctx.get("z_m", 1.1))
-    scene_given = scene
-    scene = _scene(part) if scene is None else scene
+    def nt(name):
+        return env[name].to_numpy().reshape(n, t)
+
+    elev = nt(C.SUN_ELEV_DEG)[0]
     low = (elev > 0.0) & (elev < float(ctx["min_sun_elev_deg"]))
-    inside = np.zeros(n, dtype=bool)
-    if scene is None:
-        trans = np.ones((n, t))
-        svf = np.ones(n)
-    else:
-        # a street point inside a footprint: the network or the scene (or a scheme) is wrong there
-        inside = np.asarray(scene.inside_buildings(x, y), dtype=bool)
-        from walkcomfort.environment import shade as _shade
-        from walkcomfort.environment import skyview as _skyview
-
-        trans = np.array(_shade.beam_transmittance_grid(scene, x, y, elev, azim, z_m=z,
-                                                        month=np.asarray(times.month)), dtype=float)
-        svf = (_tile_svf(part, scene, x, y, z) if scene_given is None
-               else _skyview.sky_view_factor(scene, x, y, z_m=z, radius_m=SVF_RADIUS_M)[C.SVF].to_numpy(float))
-    trans = trans.copy()
-    trans[:, low] = 0.0
-    grid = np.ones((n, t))
-    tmrt = np.asarray(_tmrt.tmrt_outdoor((grid * elev).ravel(), (grid * dni).ravel(), (grid * dhi).ravel(),
-                                         trans.ravel(), (svf[:, None] * grid).ravel(), (grid * t_air).ravel(),
-                                         (grid * rh).ravel()), dtype=float).reshape(n, t)
-    wind10 = np.asarray(_utci.wind_at_10m(wind, float(ctx.get("wind_height_m", 10.0))), dtype=float)
-    u = _utci.utci_from_conditions((grid * t_air).ravel(), tmrt.ravel(), (grid * wind10).ravel(),
-                                   (grid * rh).ravel(), warn=False)
-    return {C.SUN_ELEV_DEG: elev, C.SUN_AZIM_DEG: azim, C.SHADE_FRAC: 1.0 - trans, C.SVF: svf[:, None] * grid,
-            C.T_AIR_C: t_air, C.RH_PCT: rh, C.WIND_MS: wind, C.TMRT_C: tmrt,
-            C.UTCI_C: u[C.UTCI_C].to_numpy(float).reshape(n, t),
-            C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool).reshape(n, t),
+    return {C.SUN_ELEV_DEG: elev, C.SUN_AZIM_DEG: nt(C.SUN_AZIM_DEG)[0], C.SHADE_FRAC: nt(C.SHADE_FRAC),
+            C.SVF: nt(C.SVF), C.T_AIR_C: w[C.T_AIR_C].to_numpy(float), C.RH_PCT: w[C.RH_PCT].to_numpy(float),
+            C.WIND_MS: w[C.WIND_MS].to_numpy(float), C.TMRT_C: nt(C.TMRT_C), C.UTCI_C: nt(C.UTCI_C),
+            C.QA_UTCI_RANGE: nt(C.QA_UTCI_RANGE).astype(bool),
             C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy(),
-            C.QA_INSIDE_BUILDING: np.broadcast_to(inside[:, None], (n, t)).copy()}
+            C.QA_INSIDE_BUILDING: nt(C.QA_INSIDE_BUILDING).astype(bool)}
 
 
 #: Sky view factors already computed in this process, by tile content (time chunks of one
 #: tile share them: the sky view does not change with time).
-_SVF_CACHE: dict[str, np.ndarray] = {}
+_SVF_CACHE: dict[str, tuple[np.ndarray, np.ndarray]] = {}
 _SVF_CACHE_MAX = 256
 
 
-def _tile_svf(part: Partition, scene, x, y, z) -> np.ndarray:
-    import hashlib
-    import json
-
-    from walkcomfort.environment import skyview as _skyview
-
+def _tile_svf(part: Partition, scene: Scene, z: float):
+    """The chain's sky view of the tile's points, once per tile content in this process."""
+    pts = part.points
+    x, y = scene.project(pts[C.LON].to_numpy(float), pts[C.LAT].to_numpy(float))
     h = hashlib.sha256(json.dumps(part.scene, sort_keys=True).encode())
     h.update(np.ascontiguousarray(x).tobytes() + np.ascontiguousarray(y).tobytes() + repr(z).encode())
     key = h.hexdigest()
     hit = _SVF_CACHE.get(key)
     if hit is None:
-        hit = _skyview.sky_view_factor(scene, x, y, z_m=z, radius_m=SVF_RADIUS_M)[C.SVF].to_numpy(float)
+        hit = chain.sky_view(scene, x, y, z_m=z, radius_m=SVF_RADIUS_M)
         if len(_SVF_CACHE) >= _SVF_CACHE_MAX:
             _SVF_CACHE.pop(next(iter(_SVF_CACHE)))
         _SVF_CACHE[key] = hit
-    return hit.copy()
+    return tuple(v.copy() for v in hit)
 
 
 def rule_probabilities(utci_c: np.ndarray) -> dict[str, np.ndarray]:
@@ -219,7 +181,7 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
         df[name] = grid(env[name])
     df[C.BEAM_TRANS_FRAC] = 1.0 - df[C.SHADE_FRAC]
     df.attrs["session"] = {"timezone": "UTC", "site": part.tile_id, "simulated": True,
-                           "wind_height_m": float(part.context.get("wind_height_m", 10.0)),
+                           "wind_height_m": part.context.get("wind_height_m"),
                            **(part.context.get("walker") or {})}
     return df
 

@@ -23,9 +23,9 @@ obstacle is also kept when it lies within that radius. With both rules the
 tile's scene gives the same shade and the same sky view at the tile's points as
 the whole scene, exactly (checked in the tests).
 
-Sun elevations below ``e_min`` are not used for shade: the batch flags them
-(``qa_low_sun``) and treats the direct beam as blocked there (see
-:mod:`walkcomfort.network.batch`).
+Below ``e_min`` a shadow from beyond the tile's reach can be missed: the batch flags
+those times (``qa_low_sun``); the physics has no elevation cut (see
+:mod:`walkcomfort.environment.chain`).
 """
 
 from __future__ import annotations

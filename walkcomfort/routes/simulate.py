@@ -2,10 +2,12 @@
 
 Positions and times come from the walking-speed model (:mod:`.timing`), weather
 from a :class:`~walkcomfort.routes.weather.WeatherSource`, and the thermal
-environment (sun, shade, sky view, Tmrt from fluxes, UTCI) from the very same
-function that serves recorded walks, :func:`walkcomfort.environment.pipeline.add_environment`,
-so the model sees the same columns either way
-(:func:`~walkcomfort.environment.pipeline.add_planned_environment`).
+environment (sun, shade, sky view, Tmrt from fluxes, UTCI) from the one environment
+chain every caller uses, :func:`walkcomfort.environment.chain.environment_columns`,
+through :func:`~walkcomfort.environment.pipeline.add_planned_environment` — the
+timeline path of recorded walks with the globe switched off — so the model sees the
+same columns either way, and a scheme along a route gives the same environment as in
+the city-wide batch.
 
 Many departures are simulated in one batch (one ``walk_id`` per departure) so the
 environment stage is called once per scene, not once per departure.
@@ -109,8 +111,9 @@ def add_simulated_environment(timeline: pd.DataFrame, scene=None, **env_kw) -> p
     """Sun, shade, sky view, Tmrt (from fluxes) and UTCI for a simulated timeline.
 
     Calls :func:`walkcomfort.environment.pipeline.add_planned_environment` — the code
-    path of recorded walks with the globe switched off — with the timeline's own
-    open-sky irradiance (from the weather source).
+    path of recorded walks with the globe switched off, on the one environment chain
+    (:func:`walkcomfort.environment.chain.environment_columns`) — with the timeline's own
+    open-sky irradiance and its stated wind height (both from the weather source).
     """
     from walkcomfort.environment.pipeline import add_planned_environment
 

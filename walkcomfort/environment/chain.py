@@ -1,0 +1,452 @@
+"""The environment chain: sun -> irradiance -> beam shade and sky view -> Tmrt -> wind at 10 m -> UTCI.
+
+One function, :func:`environment_columns`, puts the physics of the environment modules
+together for any set of points and times. Every caller goes through it — recorded walks
+and planned walks (:mod:`walkcomfort.environment.pipeline`, :mod:`walkcomfort.routes.simulate`),
+the city-wide batch (:mod:`walkcomfort.network`) and the demo's truth
+(:mod:`walkcomfort.demo.simulator`) — so the same points, times, scene and weather give
+the same columns, bit for bit, whichever caller asks.
+
+The steps, each in one place below (the formulas stay in their modules):
+
+1. sun position at the site (:func:`~walkcomfort.environment.sun.solar_position`);
+2. irradiance in the open: the weather's own ``ghi_wm2`` (split by Erbs when the
+   direct/diffuse parts are not given) or the clear sky
+   (:mod:`walkcomfort.environment.sun`);
+3. direct-beam transmittance through the scene (:mod:`~walkcomfort.environment.shade`);
+4. sky view factor (:mod:`~walkcomfort.environment.skyview`);
+5. mean radiant temperature: the globe thermometer where one was read (ISO 7726),
+   otherwise the six-direction fluxes (:mod:`~walkcomfort.environment.tmrt`);
+6. wind brought to 10 m by the log law (:func:`~walkcomfort.environment.utci.wind_at_10m`);
+7. UTCI and its stress band (:mod:`~walkcomfort.environment.utci`).
+
+Decisions taken once for every caller
+-------------------------------------
+* **Where the sun is computed.** At the site (the scene's ``site``, or the centre of the
+  points when there is no scene), per time. The scene's local frame already treats the
+  site as one place (one meridian convergence for all azimuths), and across a town the
+  sun's direction changes by about 0.01° per kilometre (1° of latitude is 111 km; from the
+  geometry), far below the shade kernels' resolution of the obstacles. Refraction uses
+  the weather's own ``pressure_hpa`` and ``t_air_c`` where given.
+* **Month of the trees' leaf state** (``transmissivity_by_month``): the month of the
+  local mean solar time at the site, UTC + longitude/15 h. Leaf phenology follows the
+  local seasons — day length and temperature (Körner, C., Basler, D. (2010).
+  Phenology under global warming. Science 327, 1461–1462. doi:10.1126/science.1186473;
+  from memory) —, never the UTC calendar. Civil local time differs from solar time by
+  at most a few hours, so the two give another month only around local midnight, when
+  the sun is below the horizon and the beam is zero anyway (outside polar summer);
+  solar time needs no time zone, so every caller gets the same month from the same
+  position.
+* **Wind sensor height.** Never guessed: when the weather has wind, ``wind_height_m``
+  must be given, else an :class:`~walkcomfort.errors.InputError`. A weather file or
+  station states its height (10 m for EPW and synoptic stations); a recorded walk
+  states the logger's height in its manifest.
+* **Low sun.** No elevation cut: the beam is traced for every sun position above the
+  (refraction-corrected) horizon. Near the horizon the direct normal irradiance already
+  falls to zero with the air mass in the clear-sky model (Ineichen & Perez 2002) and
+  Erbs' split of a measured GHI sets it to zero above 87° zenith (Erbs et al. 1982);
+  a hard cut would add a step in Tmrt that no sensor sees. The city-wide batch, whose
+  tiles carry only obstacles whose shadows reach them above its lowest elevation
+  considered, flags the lower sun (``qa_low_sun``) rather than changing the physics.
+
+Caution: Tmrt and UTCI describe exposure; they are not heat-health advice. For field
+work in heat follow local occupational-health guidance; for design decisions defer to
+local codes and licensed practice.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from walkcomfort import columns as C
+from walkcomfort.environment import shade as _shade
+from walkcomfort.environment import skyview as _skyview
+from walkcomfort.environment import sun as _sun
+from walkcomfort.environment import tmrt as _tmrt
+from walkcomfort.environment import utci as _utci
+from walkcomfort.environment.geo import LocalFrame
+from walkcomfort.environment.scene import Scene
+from walkcomfort.errors import InputError
+
+#: Columns the chain returns (and the environment stage owns), in this order.
+ENV_COLUMNS = (C.SUN_ELEV_DEG, C.SUN_ZENITH_DEG, C.SUN_AZIM_DEG, C.GHI_WM2, C.DNI_WM2, C.DHI_WM2,
+               C.SHADE_FRAC, C.BEAM_TRANS_FRAC, C.SVF, C.SKY_VIEW_CROWN_FRAC, C.TMRT_C, C.TMRT_SOURCE,
+               C.WIND10_MS, C.UTCI_C, C.UTCI_BAND, C.QA_UTCI_RANGE, C.QA_WIND_CLAMPED, C.QA_INSIDE_BUILDING)
+
+#: Default height of the point that must see the sun and the sky [m] (centre of a standing body).
+BODY_HEIGHT_M = 1.1
+#: Points in one cell of this grid share one sky-view computation [m], made at a real
+#: position in the cell (the lowest x, then y, of those given), never at the cell's centre,
+#: which could fall inside a wall: the sky view changes slowly with place (and not with
+#: time), and GPS positions are uncertain by several metres anyway.
+SVF_CELL_M = 2.0
+#: Search radius of the sky view [m] (see :func:`walkcomfort.environment.skyview.sky_view_factor`).
+SVF_RADIUS_M = 200.0
+
+#: Weather columns the chain reads (``t_air_c, rh_pct`` required; the rest optional).
+WEATHER_COLUMNS = (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.PRESSURE_HPA, C.GHI_WM2, C.DNI_WM2, C.DHI_WM2, C.T_GLOBE_C)
+
+_WHERE = "environment chain"
+
+
+def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *, scene: Scene | None = None,
+                        wind_height_m: float | None = None, grid: bool = False, site: dict | None = None,
+                        z_m: float = BODY_HEIGHT_M, globe: dict | None = None, sky_view=None,
+                        n_sectors: int = 36, svf_radius_m: float = SVF_RADIUS_M, svf_cell_m: float = SVF_CELL_M,
+                        z0_m: float = _utci.Z0_UTCI_M, crown_model: str = "per_crossing",
+                        inside_buildings: str = "flag", flux_options: dict | None = None,
+                        warn: bool = True) -> pd.DataFrame:
+    """Sun, irradiance, shade, sky view, Tmrt, wind at 10 m and UTCI for points at times.
+
+    Parameters
+    ----------
+    times : DatetimeIndex
+        tz-aware instants. One per position (``grid=False``: row *i* is position *i* at
+        time *i*, as along a walk) or the times of a grid (``grid=True``).
+    positions : DataFrame
+        ``lon, lat`` [°] (WGS84) and/or ``x_m, y_m`` [m] in the scene's frame (used only
+        without lon/lat); optional ``elev_m`` [m] (for the site's elevation without a scene).
+        Its index is ignored.
+    weather : DataFrame
+        One row per time (``grid=True``) or per row, in the same order (its index is
+        ignored): ``t_air_c`` [°C], ``rh_pct`` [%], ``wind_ms`` [m s⁻¹] at ``wind_height_m``;
+        optional ``pressure_hpa`` [hPa], ``ghi_wm2`` (with ``dni_wm2, dhi_wm2``) [W m⁻²]
+        measured in the open (none: clear sky), ``t_globe_c`` [°C] (with ``globe``).
+    scene : Scene, optional
+        Obstacles for shade and sky view; none means open ground.
+    wind_height_m : float, optional
+        Height of the wind sensor above ground [m]; required when there is any wind.
+    grid : bool, default False
+        Every position at every time: rows are position-major (row ``i * T + j`` is
+        position *i* at time *j*).
+    site : dict, optional
+        ``lat, lon, elev_m`` where the sun is computed; default the scene's site, else the
+        centre of the positions' bounding box (elevation: median ``elev_m``, else 0).
+    z_m : float, default 1.1
+        Height of the point that must see the sun and the sky [m] (the walker's body centre).
+    globe : dict, optional
+        ``diameter_m, emissivity`` [-] and optionally ``height_m`` of the globe
+        thermometer: Tmrt from ``t_globe_c`` wherever it is given (ISO 7726).
+    sky_view : tuple of arrays, optional
+        ``(svf, sky_frac_crowns)`` per position, as :func:`sky_view` gives for the same
+        positions and options (a cache of the caller's; it does not change with time).
+    n_sectors, svf_radius_m, svf_cell_m : optional
+        Sky view: azimuth sectors, search radius [m], sharing cell [m].
+    z0_m : float, default 0.01
+        Roughness length of the 10 m wind conversion [m] (the UTCI procedure's value).
+    crown_model : {"per_crossing", "path_length"}
+        How crowns attenuate the beam (:func:`walkcomfort.environment.shade.beam_transmittance`).
+    inside_buildings : {"flag", "snap"}
+        Positions inside a building footprint are flagged (``qa_inside_building``);
+        ``"snap"`` also moves them 0.5 m outside the nearest wall for shade and sky view.
+    flux_options : dict, optional
+        Keyword arguments of :func:`walkcomfort.environment.tmrt.outdoor_fluxes`.
+    warn : bool, default True
+        Warn (ValidityRangeWarning) when rows fall outside the UTCI validity range.
+
+    Returns
+    -------
+    DataFrame
+        Index: the row times (``time``); columns :data:`ENV_COLUMNS` — ``sun_elev_deg,
+        sun_zenith_deg, sun_azim_deg`` [°], ``ghi_wm2, dni_wm2, dhi_wm2`` [W m⁻²],
+        ``shade_frac`` (= 1 − ``beam_trans_frac``; 1 at night), ``beam_trans_frac``,
+        ``svf``, ``sky_frac_crowns`` [-], ``tmrt_c`` [°C], ``tmrt_source`` ("globe" |
+        "fluxes"), ``wind10_ms`` [m s⁻¹], ``utci_c`` [°C], ``utci_band`` and the QA flags.
+        ``attrs["environment"]`` records every parameter, the irradiance source and QA counts.
+    """
+    idx, pos, wx = _rows(times, positions, weather, grid)
+    if inside_buildings not in ("flag", "snap"):
+        raise InputError(f"inside_buildings must be 'flag' or 'snap', got {inside_buildings!r}",
+                         where=_WHERE, fix="use 'flag' (default) or 'snap'")
+    if scene is not None and not isinstance(scene, Scene):
+        raise InputError(f"scene must be a Scene (load_scene), got {type(scene).__name__}", where=_WHERE,
+                         fix="load it with walkcomfort.environment.scene.load_scene(path)")
+    x, y = _local_xy(pos, scene)
+    site = _site(site, scene, pos)
+    if scene is None and np.isfinite(pos[C.LAT]).any():  # open ground: a frame of its own at the site
+        x, y = (np.asarray(v, float) for v in LocalFrame(site["lon"], site["lat"]).project(pos[C.LON], pos[C.LAT]))
+    n = len(idx)
+
+    # 1. sun position at the site --------------------------------------------------------------
+    s_elev, s_zen, s_az = _sun_position(idx, site, wx[C.PRESSURE_HPA], wx[C.T_AIR_C])
+    # 2. irradiance in the open ----------------------------------------------------------------
+    ghi, dni, dhi, irr_meta = _irradiance(idx, site, wx, s_elev, s_zen)
+    # 3. direct-beam transmittance through the scene -------------------------------------------
+    x, y, inside = _inside_buildings(scene, x, y, inside_buildings)
+    month = leaf_month(idx, site["lon"])
+    zz = np.full(n, float(z_m))
+    trans = _beam(scene, x, y, zz, s_elev, s_az, month, crown_model)
+    # 4. sky view factor (per position; it does not change with time) -------------------------
+    if sky_view is None:
+        svf, crowns = _sky_view_rows(scene, x, y, zz, n_sectors, svf_radius_m, svf_cell_m)
+    else:
+        svf, crowns = _given_sky_view(sky_view, n, len(positions), grid)
+    # 5. mean radiant temperature --------------------------------------------------------------
+    wind = wx[C.WIND_MS]
+    if np.isfinite(wind).any() and wind_height_m is None:
+        raise InputError("the wind sensor height is not known", where=_WHERE,
+                         fix="state it: [sensors] wind_height_m in session.toml for a recorded walk, "
+                             "the weather source's height (10 m for a weather file) for a planned one")
+    tmrt_flux = np.asarray(_tmrt.tmrt_outdoor(s_elev, dni, dhi, trans, svf, wx[C.T_AIR_C], wx[C.RH_PCT],
+                                              **dict(flux_options or {})), dtype=float)
+    tmrt, source, globe_meta = _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m)
+    # 6. wind at 10 m --------------------------------------------------------------------------
+    wind10 = (np.asarray(_utci.wind_at_10m(wind, float(wind_height_m), z0_m=z0_m), dtype=float)
+              if wind_height_m is not None else np.full(n, np.nan))
+    # 7. UTCI and its stress band --------------------------------------------------------------
+    u = _utci.utci_from_conditions(wx[C.T_AIR_C], tmrt, wind10, wx[C.RH_PCT], warn=warn)
+    utci_c = u[C.UTCI_C].to_numpy()
+
+    out = pd.DataFrame({
+        C.SUN_ELEV_DEG: s_elev, C.SUN_ZENITH_DEG: s_zen, C.SUN_AZIM_DEG: s_az,
+        C.GHI_WM2: ghi, C.DNI_WM2: dni, C.DHI_WM2: dhi,
+        C.SHADE_FRAC: 1.0 - trans, C.BEAM_TRANS_FRAC: trans, C.SVF: svf, C.SKY_VIEW_CROWN_FRAC: crowns,
+        C.TMRT_C: tmrt, C.TMRT_SOURCE: pd.array(source, dtype="string"),
+        C.WIND10_MS: wind10, C.UTCI_C: utci_c,
+        C.UTCI_BAND: pd.array(np.asarray(_utci.utci_band(utci_c), dtype=object), dtype="string"),
+        C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool), C.QA_WIND_CLAMPED: u[C.QA_WIND_CLAMPED].to_numpy(bool),
+        C.QA_INSIDE_BUILDING: inside,
+    }, index=idx)
+    meta = dict(irr_meta)
+    if globe_meta:
+        meta["globe"] = globe_meta
+    meta.update({
+        "chain": "walkcomfort.environment.chain.environment_columns",
+        "sun_site": {k: float(site[k]) for k in ("lat", "lon", "elev_m")},
+        "leaf_month": "local mean solar time at the site (UTC + lon/15 h)",
+        "low_sun": "no elevation cut",
+        "scene": None if scene is None else {"features": len(scene), "source": scene.source,
+                                             "site": dict(scene.site), "crs": scene.crs.to_string()},
+        "assumptions": "open ground (no shade, svf 1)" if scene is None else "flat ground, scene obstacles",
+        "z_m": float(z_m), "n_sectors": int(n_sectors), "crown_model": crown_model,
+        "svf_radius_m": float(svf_radius_m), "svf_cell_m": float(svf_cell_m),
+        "wind_height_m": None if wind_height_m is None else float(wind_height_m), "z0_m": float(z0_m),
+        "flux_options": dict(flux_options or {}), "inside_buildings": inside_buildings,
+        "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": int((source == "globe").sum()),
+                      "inside_building": int(inside.sum()), "tmrt_fluxes": int((source == "fluxes").sum()),
+                      "tmrt_missing": int(np.isnan(tmrt).sum())},
+    })
+    out.attrs["environment"] = meta
+    return out
+
+
+# --- inputs -------------------------------------------------------------------------------------
+
+def _num(frame: pd.DataFrame, name: str, n: int) -> np.ndarray:
+    if name not in frame.columns:
+        return np.full(n, np.nan)
+    return pd.to_numeric(frame[name], errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+
+
+def _rows(times, positions: pd.DataFrame, weather: pd.DataFrame, grid: bool):
+    """Row times, positions and weather as flat arrays (a grid is spread position-major)."""
+    idx = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
+    if idx.tz is None:
+        raise InputError("times have no time zone", where=_WHERE,
+                         fix="give tz-aware times (UTC, or localised to the site's zone)")
+    idx = idx.tz_convert("UTC")
+    n_pos, n_t = len(positions), len(idx)
+    if len(weather) != n_t:
+        raise InputError(f"weather has {len(weather)} rows for {n_t} times", where=_WHERE,
+                         fix="give one weather row per time, in the same order")
+    missing = [c for c in (C.T_AIR_C, C.RH_PCT) if c not in weather.columns]
+    if missing:
+        raise InputError(f"weather has no column {missing} (columns: {list(weather.columns)})", where=_WHERE,
+                         fix=f"give at least {C.T_AIR_C}, {C.RH_PCT} (and {C.WIND_MS}) in SI units")
+    pos = {c: _num(positions, c, n_pos) for c in (C.LON, C.LAT, C.X_M, C.Y_M, C.ELEV_M)}
+    wx = {c: _num(weather, c, n_t) for c in WEATHER_COLUMNS}
+    if C.GHI_WM2 not in weather.columns:
+        wx[C.GHI_WM2] = None  # no measured irradiance: the clear sky
+    if grid:
+        pos = {c: np.repeat(v, n_t) for c, v in pos.items()}
+        wx = {c: None if v is None else np.tile(v, n_pos) for c, v in wx.items()}
+        idx = pd.DatetimeIndex(np.tile(idx.as_unit("ns").asi8, n_pos).astype("datetime64[ns]")).tz_localize("UTC")
+    elif n_pos != n_t:
+        raise InputError(f"{n_pos} positions for {n_t} times", where=_WHERE,
+                         fix="give one position per time, or grid=True for every position at every time")
+    return idx.rename(C.TIME), pos, wx
+
+
+def _local_xy(pos: dict, scene: Scene | None):
+    """Local x/y of every row: projected from lon/lat into the scene's frame, else x_m/y_m."""
+    has_ll = bool(np.isfinite(pos[C.LAT]).any())
+    if scene is not None and has_ll:
+        x, y = scene.project(pos[C.LON], pos[C.LAT])
+        return np.asarray(x, float), np.asarray(y, float)
+    if not has_ll and (scene is None or not np.isfinite(pos[C.X_M]).any()):
+        raise InputError("positions have neither lon/lat nor x_m/y_m with a scene", where=_WHERE,
+                         fix="give lon/lat per row (GPS), or x_m/y_m together with the scene they refer to")
+    return pos[C.X_M], pos[C.Y_M]
+
+
+def _site(site: dict | None, scene: Scene | None, pos: dict) -> dict:
+    """Where the sun is computed: given, the scene's site, or the centre of the positions."""
+    if site is not None:
+        return {"lat": float(site["lat"]), "lon": float(site["lon"]), "elev_m": float(site.get("elev_m", 0.0))}
+    if scene is not None:
+        return {"lat": float(scene.site["lat"]), "lon": float(scene.site["lon"]),
+                "elev_m": float(scene.site.get("elev_m", 0.0))}
+    lon, lat, elev = pos[C.LON], pos[C.LAT], pos[C.ELEV_M]
+    ok = np.isfinite(lon) & np.isfinite(lat)
+    return {"lat": float((lat[ok].min() + lat[ok].max()) / 2), "lon": float((lon[ok].min() + lon[ok].max()) / 2),
+            "elev_m": float(np.median(elev[np.isfinite(elev)])) if np.isfinite(elev).any() else 0.0}
+
+
+# --- 1. sun ---------------------------------------------------------------------------------------
+
+def _distinct(idx: pd.DatetimeIndex, *columns: np.ndarray):
+    """First row of each distinct (time, columns...) and every row's group (NaN equal to NaN)."""
+    keys = pd.DataFrame({"t": idx.as_unit("ns").asi8, **{f"c{i}": c for i, c in enumerate(columns)}})
+    codes = keys.groupby(list(keys.columns), sort=False, dropna=False).ngroup().to_numpy()
+    first = np.flatnonzero(~keys.duplicated().to_numpy())
+    return first, codes
+
+
+def _sun_position(idx, site, pressure, t_air):
+    """Apparent sun elevation, zenith, azimuth at the site, once per distinct time and weather."""
+    first, codes = _distinct(idx, pressure, t_air)
+    sp = _sun.solar_position(idx[first], site["lat"], site["lon"], site["elev_m"],
+                             pressure_hpa=pressure[first], t_air_c=t_air[first])
+    return tuple(sp[c].to_numpy(float)[codes] for c in (C.SUN_ELEV_DEG, C.SUN_ZENITH_DEG, C.SUN_AZIM_DEG))
+
+
+# --- 2. irradiance in the open --------------------------------------------------------------------
+
+def _irradiance(idx, site, wx, s_elev, s_zen):
+    """GHI, DNI, DHI in the open: the weather's own (Erbs split if needed), else the clear sky."""
+    if wx[C.GHI_WM2] is None:
+        first, codes = _distinct(idx)
+        pos = pd.DataFrame({C.SUN_ZENITH_DEG: s_zen[first]}, index=idx[first])
+        cs = _sun.clearsky_irradiance(idx[first], site["lat"], site["lon"], site["elev_m"], position=pos)
+        ghi, dni, dhi = (cs[c].to_numpy(float)[codes] for c in (C.GHI_WM2, C.DNI_WM2, C.DHI_WM2))
+        return ghi, dni, dhi, {"irradiance": {"source": "clearsky (Ineichen-Perez, pvlib)",
+                                              "linke_turbidity": cs.attrs["linke_turbidity"]}}
+    ghi, dni, dhi = wx[C.GHI_WM2], wx[C.DNI_WM2], wx[C.DHI_WM2]
+    if np.isfinite(dni).any() and np.isfinite(dhi).any():
+        method = "given"
+    else:
+        dec = _sun.decompose_ghi(ghi, s_zen, idx)
+        dni, dhi = dec[C.DNI_WM2].to_numpy(float), dec[C.DHI_WM2].to_numpy(float)
+        method = "Erbs et al. (1982) decomposition of GHI"
+    dni = np.where((s_elev > 0) | np.isnan(dni), dni, 0.0)  # no beam below the horizon, whatever the file says
+    return ghi, dni, dhi, {"irradiance": {"source": "weather", "split": method,
+                                          "rows_without_irradiance": int((~np.isfinite(ghi)).sum())}}
+
+
+# --- 3. direct beam -------------------------------------------------------------------------------
+
+def leaf_month(times, lon_deg: float) -> np.ndarray:
+    """Month 1…12 of the local mean solar time at longitude ``lon_deg`` [°] (see the module docstring)."""
+    idx = pd.DatetimeIndex(times).tz_convert("UTC")
+    solar = idx + pd.to_timedelta(float(lon_deg) / 15.0, unit="h")
+    return np.asarray(solar.month, dtype=float)
+
+
+def _inside_buildings(scene, x, y, how: str):
+    if scene is None:
+        return x, y, np.zeros(x.size, dtype=bool)
+    if how == "snap":
+        x, y, inside = scene.snap_outside(x, y)
+        return np.asarray(x, float), np.asarray(y, float), np.asarray(inside, bool)
+    return x, y, np.asarray(scene.inside_buildings(x, y), dtype=bool)
+
+
+def _beam(scene, x, y, z, s_elev, s_az, month, crown_model):
+    """Direct-beam transmittance per row: 0 at night, 1 in the open by day, NaN without a position."""
+    return np.asarray(_shade.beam_transmittance(scene, x, y, s_elev, s_az, z_m=z, month=month,
+                                                crown_model=crown_model), dtype=float)
+
+
+# --- 4. sky view ----------------------------------------------------------------------------------
+
+def sky_view(scene: Scene | None, x_m, y_m, z_m=BODY_HEIGHT_M, n_sectors: int = 36,
+             radius_m: float = SVF_RADIUS_M, cell_m: float = SVF_CELL_M):
+    """Sky view factor and crown-free sky fraction at positions, as the chain computes them.
+
+    Positions in one ``cell_m`` cell (at one height) share the value computed at the
+    cell's lowest-x (then y) position among those given, so the result depends only on
+    the set of positions, never on their order.
+
+    Parameters
+    ----------
+    scene : Scene or None
+        Obstacles; ``None`` gives 1 wherever the position is known.
+    x_m, y_m : array-like
+        Positions in the scene's frame [m].
+    z_m : float or array-like
+        Viewpoint height [m].
+    n_sectors, radius_m, cell_m :
+        Azimuth sectors, search radius [m], sharing cell [m].
+
+    Returns
+    -------
+    tuple of ndarray
+        ``(svf, sky_frac_crowns)`` [-], NaN where the position is missing.
+    """
+    x = np.asarray(x_m, dtype=float).reshape(-1)
+    y = np.asarray(y_m, dtype=float).reshape(-1)
+    z = np.broadcast_to(np.asarray(z_m, dtype=float), x.shape)
+    return _sky_view_rows(scene, x, y, z, n_sectors, radius_m, cell_m)
+
+
+def _sky_view_rows(scene, x, y, z, n_sectors, radius_m, cell_m):
+    """:func:`sky_view` on flat arrays (the chain's own step)."""
+    svf = np.full(x.size, np.nan)
+    crowns = np.full(x.size, np.nan)
+    ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(z)
+    if not ok.any():
+        return svf, crowns
+    if scene is None:
+        svf[ok], crowns[ok] = 1.0, 1.0
+        return svf, crowns
+    # distinct positions, sorted (x, then y, then z): the cells' representatives do not depend on order
+    upos, inv_pos = np.unique(np.column_stack([x[ok], y[ok], z[ok]]), axis=0, return_inverse=True)
+    cell = np.column_stack([np.floor(upos[:, 0] / cell_m), np.floor(upos[:, 1] / cell_m), np.round(upos[:, 2], 2)])
+    _, rep, inv_cell = np.unique(cell, axis=0, return_index=True, return_inverse=True)
+    res = _skyview.sky_view_factor(scene, upos[rep, 0], upos[rep, 1], z_m=upos[rep, 2], n_sectors=n_sectors,
+                                   radius_m=radius_m)
+    per_row = inv_cell.reshape(-1)[inv_pos.reshape(-1)]
+    svf[ok] = res[C.SVF].to_numpy(float)[per_row]
+    crowns[ok] = res[C.SKY_VIEW_CROWN_FRAC].to_numpy(float)[per_row]
+    return svf, crowns
+
+
+def _given_sky_view(sky_view, n_rows: int, n_pos: int, grid: bool):
+    svf, crowns = (np.asarray(v, dtype=float).reshape(-1) for v in sky_view)
+    if svf.size != n_pos or crowns.size != n_pos:
+        raise InputError(f"sky_view has {svf.size} values for {n_pos} positions", where=_WHERE,
+                         fix="give (svf, sky_frac_crowns) per position, as chain.sky_view returns them")
+    if grid:
+        return np.repeat(svf, n_rows // max(n_pos, 1)), np.repeat(crowns, n_rows // max(n_pos, 1))
+    return svf, crowns
+
+
+# --- 5. mean radiant temperature ------------------------------------------------------------------
+
+def _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m):
+    """Tmrt from the globe (ISO 7726) where read, else from the fluxes; its source per row."""
+    source = np.where(np.isfinite(tmrt_flux), "fluxes", None).astype(object)
+    tg = wx[C.T_GLOBE_C]
+    if globe is None or not np.isfinite(tg).any():
+        return tmrt_flux, source, None
+    wind = wx[C.WIND_MS]
+    gh = globe.get("height_m")
+    v_globe = wind
+    # the wind at the globe: the sensor's, brought to the globe's height by the log law when they differ
+    if gh is not None and wind_height_m is not None and abs(float(gh) - float(wind_height_m)) > 1e-9:
+        v_globe = wind * np.log(float(gh) / z0_m) / np.log(float(wind_height_m) / z0_m)
+    d, eps = float(globe["diameter_m"]), float(globe["emissivity"])
+    tm_g = np.asarray(_tmrt.tmrt_from_globe(tg, wx[C.T_AIR_C], v_globe, d, eps), dtype=float)
+    use = np.isfinite(tm_g)
+    meta = {"diameter_m": d, "emissivity": eps, "height_m": None if gh is None else float(gh),
+            "rows": int(use.sum())}
+    # a plausibility figure for the field team: the globe against the flux model on the same rows
+    # (large systematic gaps point at a lagging globe, a wrong diameter, or a scene that does not
+    # match the street)
+    both = use & np.isfinite(tmrt_flux)
+    if both.any():
+        q1, q2, q3 = (float(v) for v in np.percentile(tm_g[both] - tmrt_flux[both], [25, 50, 75]))
+        meta["globe_minus_fluxes_k"] = {"q25": round(q1, 3), "median": round(q2, 3), "q75": round(q3, 3),
+                                        "rows": int(both.sum())}
+    return np.where(use, tm_g, tmrt_flux), np.where(use, "globe", source).astype(object), meta
