@@ -37,6 +37,7 @@ VERBS: dict[str, tuple[str, str, str]] = {
     "network": ("walkcomfort.network.commands", "network", "Batch every street segment x hour x scheme."),
     "map": ("walkcomfort.report.commands", "map_", "Write the HTML route map."),
     "report": ("walkcomfort.report.commands", "report", "Write HTML session or model reports."),
+    "brief": ("walkcomfort.report.commands", "brief", "Write a one-page printable brief per route comparison."),
     "demo": ("walkcomfort.demo.commands", "demo", "Run the whole chain on the invented demo town."),
 }
 

@@ -408,3 +408,33 @@ def report(paths, out, timezone, title, scene_path):
             written = write_session_report(src if src.name != TIMELINE_FILE else folder, out_html=target,
                                            title=title, timezone=timezone, scene=scene_path)
         click.echo(f"wrote {written}")
+
+
+# --------------------------------------------------------------------------------------
+# brief
+# --------------------------------------------------------------------------------------
+@click.command("brief")
+@click.argument("folders", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option("-o", "--out", "out_dir", type=click.Path(path_type=Path), default=None,
+              help="Folder for brief_<route>.html/.pdf (default: each comparison's own folder).")
+@click.option("--scene", "scene_path", type=click.Path(path_type=Path), default=None,
+              help="Scene GeoJSON drawn under the routes in the map snapshot.")
+@click.option("--scheme", "scheme_paths", multiple=True, type=click.Path(path_type=Path),
+              help="Scheme GeoJSON (names the schemes, draws their edits). Repeatable.")
+@click.option("--no-pdf", is_flag=True, help="Write the HTML only (no Chromium needed; no map snapshot).")
+@click.option("--title", default=None, help="Title of the brief (one folder only).")
+def brief(folders, out_dir, scene_path, scheme_paths, no_pdf, title):
+    """Write a one-page printable brief (HTML and PDF) per route comparison.
+
+    FOLDERS are output folders of 'walkcomfort compare'. The PDF is printed by headless
+    Chromium ($WALKCOMFORT_CHROMIUM or chromium on the PATH).
+    """
+    from walkcomfort.report.brief import write_brief
+
+    if title is not None and len(folders) != 1:
+        raise InputError("--title applies to a single brief", where="--title", fix="drop --title or give one folder")
+    for folder in folders:
+        folder = Path(folder)
+        for path in write_brief(folder, out_dir or folder, scene=scene_path, schemes=scheme_paths,
+                                pdf=not no_pdf, title=title):
+            click.echo(f"wrote {path}")

@@ -567,11 +567,22 @@
     return new C().addTo(map);
   }
 
+  // a view named in the address (#scheme=..&dep=..&colouring=..&metric=..&panels=legend), e.g. for a snapshot
+  function fromAddress(r) {
+    var q = new URLSearchParams((window.location.hash || "").replace(/^#/, "")), dep = q.get("dep");
+    if (q.get("scheme") && D.schemes.some(function (s) { return s.name === q.get("scheme"); })) { S.scheme = q.get("scheme"); }
+    if (r && dep !== null && /^[0-9]+$/.test(dep) && +dep < r.deps.length) { S.dep = +dep; }
+    if (["comfort", "utci", "shade", "difference"].indexOf(q.get("colouring")) >= 0) { S.colouring = q.get("colouring"); }
+    if (cfg.measures[q.get("metric")] && ["comfort", "heat", "utci"].indexOf(q.get("metric")) >= 0) { S.metric = q.get("metric"); }
+    if (q.get("panels") === "legend") { document.documentElement.classList.add("wc-snapshot"); }
+  }
+
   function start() {
     var r = routes(), narrow = window.innerWidth < NARROW, b = D.bounds;
     if (r) {
       S.scheme = r.open.scheme; S.dep = r.open.dep; S.colouring = r.open.colouring; S.metric = r.open.metric;
     } else { S.scheme = D.schemes.length ? D.schemes[0].name : ""; }
+    fromAddress(r);
     map = L.map("wc-map", {zoomControl: true, preferCanvas: false, zoomSnap: 0.25});
     window.walkcomfortMap = map;
     window.walkcomfortState = S;
@@ -596,14 +607,18 @@
       var p = foldable("wc-legend", "Legend", narrow);
       ui.legend = p.box; ui.legendBody = p.body; return p.box;
     });
+    if (b) { map.fitBounds(b, {maxZoom: 18}); } else { map.setView([0, 0], 2); }  // a view before any layer
+    redraw();
     if (b) {
       // keep the data clear of the panels where the window is wide enough for both
-      var wide = !narrow && ui.title && ui.controls && map.getSize().x > 1.8 * (ui.title.offsetWidth + ui.controls.offsetWidth);
+      var snap = document.documentElement.classList.contains("wc-snapshot");
+      var right = snap ? ui.legend.offsetWidth : ui.controls.offsetWidth;
+      var wide = !narrow && map.getSize().x > 1.8 * (ui.title.offsetWidth + right);
       map.fitBounds(b, {paddingTopLeft: [wide ? ui.title.offsetWidth + 20 : 24, 24],
-                        paddingBottomRight: [wide ? ui.controls.offsetWidth + 20 : 24, 24], maxZoom: 18});
+                        paddingBottomRight: [wide ? right + 20 : 24, 24], maxZoom: 18});
     } else { map.setView([0, 0], 2); }
     map.on("zoomend", restyle);
-    redraw();
+    restyle();
     window.addEventListener("beforeprint", function () { map.invalidateSize(); });
     document.documentElement.setAttribute("data-walkcomfort-ready", "1");
   }
