@@ -118,14 +118,7 @@ def naive_rate(job, scenes: dict, sample: int, prepared: bool, seed: int = 1) ->
     return done / (time.perf_counter() - t0)
 
 
-def main(argv=None) -> None:
-    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    ap.add_argument("--segments", type=int, default=2000)
-    ap.add_argument("--hours", type=int, default=14)
-    ap.add_argument("--tile-size", type=float, default=400.0)
-    ap.add_argument("--naive-sample", type=int, default=20)
-    ap.add_argument("--skip-dask", action="store_true")
-    args = ap.parse_args(argv)
+def engines_main(args) -> None:
 
     t0 = time.perf_counter()
     net, job, scenes = build_job(args.segments, args.hours, args.tile_size)
@@ -187,6 +180,187 @@ def main(argv=None) -> None:
         for n in (1, 2, 4, 8, 16, 32):
             proj = serial + cpu_2 / n
             print(f"  projected {n:2d} workers: {proj:7.1f} s ({job.expected_rows / proj:8.0f} rows/s)")
+
+# --- city scale: CPU per row with a model, driver memory, what the scheduler holds ---------------------
+
+#: The driver's memory budget: peak Python heap of this process while planning and running a job
+#: on Dask (workers compute and write) [MB] at 8,000 segments, and extrapolated to 12 M rows.
+DRIVER_BUDGET_MB_8K = 400.0
+DRIVER_BUDGET_MB_CITY = 2_000.0
+#: The per-row CPU goal with a model [ms].
+GOAL_MS_PER_ROW = 0.5
+CITY_ROWS = 12_000_000      # 100,000 segments x 24 h x 5 schemes
+CITY_SEGMENTS = 100_000
+
+
+def synthetic_bundle(folder: str) -> str:
+    """A comfort model bundle fitted on an invented campaign (the "small" preset the demo uses)."""
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.bundle import save_bundle
+    from walkcomfort.model.classifier import ComfortClassifier
+    from walkcomfort.model.evaluate import training_table
+
+    table = training_table(synthetic_campaign(n_participants=6, walks_per_participant=2, duration_s=1800,
+                                              vote_every_s=60, seed=5))
+    save_bundle(ComfortClassifier().fit(table.X, table.y), folder)
+    return folder
+
+
+def wire_bytes(obj) -> int:
+    """Bytes of ``obj`` in Dask's own wire format (what the scheduler keeps for a task's arguments)."""
+    from distributed.protocol import serialize_bytes
+
+    return len(serialize_bytes(obj))
+
+
+def held_bytes(job) -> dict:
+    """Per task now (partition description; tile data once per tile; bundle once) vs per task before."""
+    from walkcomfort.network.shipping import strip_partition, tile_keys
+
+    parts = job.partitions
+    sample = parts[:: max(1, len(parts) // 40)]
+    task = np.mean([wire_bytes(strip_partition(p)) for p in sample])
+    tiles = {}
+    for p in parts:
+        tiles.setdefault(tile_keys(p)[1], p)
+    tile = np.mean([wire_bytes((p.points, p.scene)) for p in list(tiles.values())[:: max(1, len(tiles) // 40)]])
+    before = np.mean([wire_bytes(p) for p in sample])  # the partition with its scene subset, per task
+    return {"task": task, "tile": tile, "tiles": len(tiles), "before": before,
+            "bundle": wire_bytes(job.bundle) if job.bundle else 0}
+
+
+def with_bundle(job, bundle_folder: str):
+    from walkcomfort.network.shipping import pack_bundle
+
+    bundle = pack_bundle(bundle_folder)
+    for p in job.partitions:
+        p.context = {**p.context, "model": bundle["digest"]}
+    job.bundle = bundle
+    return job
+
+
+def cpu_per_row(job, tmp: str, name: str) -> tuple[float, object]:
+    """CPU ms per row of the partition threads (compute + write), in-process engine."""
+    from walkcomfort.network import _physics
+
+    _physics._SVF_CACHE.clear()
+    report = run_job(job, os.path.join(tmp, name), "in-process", overwrite=True)
+    assert report.ok, report.failed[:1]
+    compute = report.timings["cpu"] - report.timings.get("cpu_write", 0.0)
+    return 1000.0 * report.timings["cpu"] / report.written_rows, 1000.0 * compute / report.written_rows
+
+
+def direct_cpu_per_row(job, bundle_folder: str | None) -> float:
+    """The path before shipping: the partition function called on partitions that name the bundle by path."""
+    import dataclasses
+
+    from walkcomfort.network import _physics
+
+    _physics._SVF_CACHE.clear()
+    c0, n = time.thread_time(), 0
+    for p in job.partitions:
+        q = dataclasses.replace(p, context={**p.context, "model": bundle_folder}) if bundle_folder else p
+        n += len(job.partition_fn(q))
+    return 1000.0 * (time.thread_time() - c0) / n
+
+
+def driver_run(job_builder, tmp: str, name: str, workers: int = 2) -> dict:
+    """Plan and run on a Dask LocalCluster, tracing this process's Python heap (workers compute and write)."""
+    import tracemalloc
+
+    tracemalloc.start()
+    t0 = time.perf_counter()
+    job = job_builder()
+    plan_peak = tracemalloc.get_traced_memory()[1]
+    report = run_job(job, os.path.join(tmp, name), "dask", workers=workers, processes=True, overwrite=True,
+                     summarise=True)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    assert report.ok, report.failed[:1]
+    return {"job": job, "report": report, "plan_peak_mb": plan_peak / 1e6, "peak_mb": peak / 1e6,
+            "wall_s": time.perf_counter() - t0}
+
+
+def city_main(args) -> None:
+    import resource
+
+    sizes = [int(x) for x in args.sizes.split(",")]
+    print(f"city scale: {sizes} segments x {args.hours} h x 2 schemes; load average {os.getloadavg()[0]:.1f} on "
+          f"{os.cpu_count()} cores (CPU times are the steady numbers on this shared machine)")
+    rows_by_size = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        bundle = args.model or synthetic_bundle(os.path.join(tmp, "model"))
+        for n in sizes:
+            net, job, _ = build_job(n, args.hours, args.tile_size)
+            job.parameters.pop("_plan_s", None)
+            first = n == sizes[0]
+            rule_ms = cpu_per_row(job, tmp, f"rule{n}")[0] if first else float("nan")
+            with_bundle(job, bundle)
+            model_ms, compute_ms = cpu_per_row(job, tmp, f"model{n}")
+            before_ms = direct_cpu_per_row(job, bundle) if first else float("nan")
+            hb = held_bytes(job)
+
+            def builder(n=n):
+                return with_bundle(build_job(n, args.hours, args.tile_size)[1], bundle)
+
+            d = driver_run(builder, tmp, f"dask{n}")
+            dcpu = 1000.0 * d["report"].timings["cpu"] / d["report"].written_rows
+            rows_by_size[n] = {"rows": job.expected_rows, "driver_mb": d["peak_mb"], "model_ms": model_ms}
+            print(f"\n{n} segments ({len(net.points)} points), {job.expected_rows} rows, {len(job.partitions)} "
+                  f"partitions, {hb['tiles']} tiles")
+            print(f"  CPU per row: rule {rule_ms:.3f} ms; with the model {model_ms:.3f} ms "
+                  f"({1000.0 / model_ms:,.0f} rows/s per core; goal <= {GOAL_MS_PER_ROW} ms: "
+                  f"{'met' if model_ms <= GOAL_MS_PER_ROW else 'NOT met'}), of which computing {compute_ms:.3f} ms "
+                  f"and the Parquet write the rest; the path before shipping (the partition function on "
+                  f"partitions naming the bundle by path, no write) {before_ms:.3f} ms -> ratio computing "
+                  f"engine/before x{compute_ms / before_ms:.2f}; Dask 2 workers {dcpu:.3f} ms "
+                  f"(x{dcpu / model_ms:.2f} of in-process, write included)")
+            print(f"  driver (Dask run, this process's Python heap): plan peak {d['plan_peak_mb']:.0f} MB, "
+                  f"run peak {d['peak_mb']:.0f} MB; peak tasks in flight {d['report'].timings.get('peak_in_flight')}"
+                  f"; wall {d['wall_s']:.0f} s; summary on the workers {d['report'].timings.get('summary', 0):.1f} s")
+            print(f"  scheduler-held bytes per task: {hb['task'] / 1e3:.1f} kB (before: {hb['before'] / 1e3:.1f} kB "
+                  f"with the scene subset in every task, x{hb['before'] / hb['task']:.0f}); tile data "
+                  f"{hb['tile'] / 1e3:.1f} kB once per tile while its partitions are in flight; model bundle "
+                  f"{hb['bundle'] / 1e3:.0f} kB once per job")
+        print(f"\ndriver process maximum resident set (whole benchmark, includes the in-process runs): "
+              f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1e3:.0f} MB")
+    big = max(rows_by_size)
+    ms = rows_by_size[big]["model_ms"]
+    print(f"\nextrapolation to {CITY_ROWS / 1e6:.0f} M rows ({CITY_SEGMENTS:,} segments x 24 h x 5 schemes) at "
+          f"{ms:.3f} ms per row: {CITY_ROWS * ms / 3.6e6:.1f} CPU-hours "
+          f"({CITY_ROWS * ms / 3.6e6 / 32 * 60:.0f} min on 32 cores)")
+    if len(rows_by_size) > 1:
+        small = min(rows_by_size)
+        a, b = rows_by_size[small], rows_by_size[big]
+        per_seg = (b["driver_mb"] - a["driver_mb"]) / (big - small)
+        # the plan holds one scene subset per tile and scheme: 5 schemes instead of 2 (one time chunk either way)
+        city_mb = b["driver_mb"] + per_seg * (CITY_SEGMENTS - big) * 5 / 2
+        print(f"  driver heap grows {per_seg * 1e3:.1f} kB per segment (plan: tiles, scene subsets, partitions; x5/2 "
+              f"for five schemes) -> "
+              f"~{city_mb:,.0f} MB at {CITY_SEGMENTS:,} segments (budget {DRIVER_BUDGET_MB_CITY:,.0f} MB: "
+              f"{'held' if city_mb <= DRIVER_BUDGET_MB_CITY else 'NOT held'}); at {big} segments "
+              f"{b['driver_mb']:.0f} MB (budget {DRIVER_BUDGET_MB_8K:.0f} MB: "
+              f"{'held' if b['driver_mb'] <= DRIVER_BUDGET_MB_8K else 'NOT held'})")
+    print("  the scheduler holds at most max_in_flight task descriptions plus the tiles in flight: bounded, "
+          "not growing with the city")
+
+
+def main(argv=None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--segments", type=int, default=2000, help="engine comparison size (--engines)")
+    ap.add_argument("--hours", type=int, default=14)
+    ap.add_argument("--tile-size", type=float, default=400.0)
+    ap.add_argument("--naive-sample", type=int, default=20)
+    ap.add_argument("--skip-dask", action="store_true")
+    ap.add_argument("--engines", action="store_true", help="the engine comparison against the naive baselines")
+    ap.add_argument("--sizes", default="2000,8000", help="city-scale section: segment counts")
+    ap.add_argument("--model", default=None, help="model bundle folder (default: one fitted on a synthetic campaign)")
+    args = ap.parse_args(argv)
+    if args.engines:
+        engines_main(args)
+    else:
+        city_main(args)
+
 
 if __name__ == "__main__":
     main()

@@ -216,6 +216,7 @@ class InProcessEngine:
                 finally:
                     report.timings["write"] += _time.perf_counter() - tw
                     report.timings["cpu"] += _time.thread_time() - cw
+                    report.timings["cpu_write"] = report.timings.get("cpu_write", 0.0) + _time.thread_time() - cw
                 outcome.status, outcome.written_rows, outcome.error = "written", len(rows), None
                 outcome.path, outcome.digest = path.relative_to(out_dir).as_posix(), _io.file_digest(path)
                 break
