@@ -86,6 +86,11 @@ UTCI_BAND = "utci_band"           # one of UTCI_BANDS (name)
 
 # --- comfort labels ------------------------------------------------------------------
 COMFORT_CLASSES = ("comfortable", "neutral", "uncomfortable")
+#: How each class is named in plots and legends.
+COMFORT_LABELS = {"comfortable": "Comfortable", "neutral": "Neutral", "uncomfortable": "Uncomfortable"}
+#: Each class's colour wherever it is drawn (chosen, and checked for colour-blind readers, in
+#: ``walkcomfort.report.palette``; kept here so every layer draws the same colours).
+COMFORT_COLOURS = {"comfortable": "#3e9fd8", "neutral": "#efc35b", "uncomfortable": "#6b1d4a"}
 TSV_SCALE = {  # ASHRAE Standard 55 seven-point thermal sensation scale
     -3: "cold", -2: "cool", -1: "slightly cool", 0: "neutral",
     1: "slightly warm", 2: "warm", 3: "hot",

@@ -63,10 +63,22 @@ def default_demo_dir() -> Path:
     return Path.cwd() / "demo_walks"
 
 
-def _has_verb(verb: str) -> tuple[bool, str]:
-    from walkcomfort.cli import VERBS
+#: The stage commands the demo runs: the CLI's own verbs (``walkcomfort.cli.VERBS``; a test
+#: checks they agree), called directly so the demo does not import the CLI that sits above it.
+STAGE_COMMANDS: dict[str, tuple[str, str]] = {
+    "ingest": ("walkcomfort.session.commands", "ingest"),
+    "frames": ("walkcomfort.imagery.commands", "frames"),
+    "thermal": ("walkcomfort.environment.commands", "thermal"),
+    "fit": ("walkcomfort.model.commands", "fit"),
+    "compare": ("walkcomfort.routes.commands", "compare"),
+    "network": ("walkcomfort.network.commands", "network"),
+    "map": ("walkcomfort.report.commands", "map_"),
+    "report": ("walkcomfort.report.commands", "report"),
+}
 
-    module, attr, _ = VERBS[verb]
+
+def _has_verb(verb: str) -> tuple[bool, str]:
+    module, attr = STAGE_COMMANDS[verb]
     try:
         if importlib.util.find_spec(module) is None:
             return False, f"{module} is missing from this installation"
@@ -83,10 +95,10 @@ def _has_verb(verb: str) -> tuple[bool, str]:
 
 def _run_verb(verb: str, args: list[str], echo: Callable[[str], None]) -> None:
     """Run one walkcomfort verb in this process (errors propagate as WalkcomfortError)."""
-    from walkcomfort.cli import cli
-
+    module, attr = STAGE_COMMANDS[verb]
+    command = getattr(importlib.import_module(module), attr)
     echo(f"$ walkcomfort {verb} " + " ".join(args))
-    cli.main(args=[verb, *args], prog_name="walkcomfort", standalone_mode=False, obj={"verbose": False})
+    command.main(args=list(args), prog_name=f"walkcomfort {verb}", standalone_mode=False, obj={"verbose": False})
 
 
 def _fit_has_option(name: str) -> bool:

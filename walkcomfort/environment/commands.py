@@ -16,25 +16,6 @@ COMPANIONS = ("qa.json", "quarantine.csv")
 HEAT_CAUTION_UTCI_C = 38.0
 
 
-def find_timelines(paths) -> list[Path]:
-    """``timeline.parquet`` files: given directly, in a walk folder, or in the walk folders of an output folder."""
-    found: list[Path] = []
-    for p in map(Path, paths):
-        if p.is_file() and p.suffix == ".parquet":
-            found.append(p)
-        elif (p / TIMELINE_FILE).is_file():
-            found.append(p / TIMELINE_FILE)
-        elif p.is_dir():
-            subs = sorted(d / TIMELINE_FILE for d in p.iterdir() if (d / TIMELINE_FILE).is_file())
-            if not subs:
-                raise InputError(f"no {TIMELINE_FILE} in this folder or its walk folders", where=p,
-                                 fix="run `walkcomfort ingest SESSION_DIR -o OUT` and give OUT or OUT/<walk_id>")
-            found.extend(subs)
-        else:
-            raise InputError("does not exist", where=p, fix="give an output folder of `walkcomfort ingest`")
-    return found
-
-
 def _read(path: Path):
     """A timeline with its attrs (session.timeline.read_timeline), plus the raw Parquet metadata."""
     from walkcomfort import _io
@@ -102,6 +83,7 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
     from walkcomfort import columns as C
     from walkcomfort.environment.pipeline import ENV_COLUMNS, add_environment
     from walkcomfort.environment.scene import load_scene
+    from walkcomfort.session.timeline import find_timelines
 
     files = find_timelines(timelines)
     scene = load_scene(scene_path) if scene_path is not None else None

@@ -322,13 +322,13 @@ def _trim_gps_csv(s, spec, radius_m: float):
 
 
 def _header_line(lines: list[str], header: list[str], s) -> str:
-    from walkcomfort.session.readers._common import _sniff, _split
+    from walkcomfort.session.readers._common import sniff_delimiter, split_fields
 
     for line in lines[:50]:
         st = line.strip()
         if not st or st.startswith("#"):
             continue
-        if [f.strip() for f in _split(line, s.delimiter or _sniff(line))] == header:
+        if [f.strip() for f in split_fields(line, s.delimiter or sniff_delimiter(line))] == header:
             return line
     raise InputError("header line not found again", where=s.display, fix="please report this")  # pragma: no cover
 
@@ -378,13 +378,13 @@ def _share_votes(s, stage: Path, pid: str, participant: str, guard: NoteGuard | 
         _io.atomic_write_text(stage / s.path, json.dumps(out, ensure_ascii=False, indent=2) + "\n")
         return {"kind": "votes", "rows_kept": len(recs), "participant_replaced": n_part, "notes_emptied": n_note}
 
-    from walkcomfort.session.readers._common import Quarantine, _sniff, read_delimited
+    from walkcomfort.session.readers._common import Quarantine, read_delimited, sniff_delimiter
 
     q = Quarantine(s.name, s.path)
     table = read_delimited(s.abs_path, s, [s.column("time")], [], q)
     lines = s.abs_path.read_bytes().decode("utf-8-sig", errors="replace").splitlines()
     header_line = _header_line(lines, table.header, s)
-    delim = s.delimiter or _sniff(header_line)
+    delim = s.delimiter or sniff_delimiter(header_line)
     hi = {h: i for i, h in enumerate(table.header)}
     n_part = n_note = 0
     buf = io.StringIO()

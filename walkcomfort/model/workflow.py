@@ -32,33 +32,13 @@ METRICS_FILE = "metrics.json"
 OOF_FILE = "oof_predictions.parquet"
 
 
-def find_timelines(paths) -> list[Path]:
-    """Timeline files under the given paths: a ``timeline.parquet``, a walk folder, or an output folder."""
-    found = []
-    for p in map(Path, paths):
-        if p.is_file():
-            found.append(p)
-        elif (p / TIMELINE_FILE).is_file():
-            found.append(p / TIMELINE_FILE)
-        elif p.is_dir():
-            hits = sorted(p.glob(f"**/{TIMELINE_FILE}"))
-            if not hits:
-                raise InputError(f"no {TIMELINE_FILE} under this folder", where=p,
-                                 fix="run `walkcomfort ingest` and `walkcomfort thermal` into it first")
-            found.extend(hits)
-        else:
-            raise InputError("no such file or folder", where=p, fix="check the path")
-    unique = list(dict.fromkeys(x.resolve() for x in found))
-    if not unique:
-        raise InputError("no timelines given", fix="pass timeline folders written by `walkcomfort thermal`")
-    return unique
-
-
 def load_campaign(paths) -> tuple[pd.DataFrame, list[Path]]:
     """Read and stack timelines (``session.timeline.read_timeline`` + ``combine_campaign``)."""
-    from walkcomfort.session.timeline import combine_campaign, read_timeline
+    from walkcomfort.session.timeline import combine_campaign, find_timelines, read_timeline
 
     files = find_timelines(paths)
+    if not files:
+        raise InputError("no timelines given", fix="pass timeline folders written by `walkcomfort thermal`")
     frames = []
     for f in files:
         df = read_timeline(f)

@@ -60,26 +60,6 @@ def read_points(path: str | os.PathLike):
     return df, dict(meta.get("attrs") or {})
 
 
-def find_walks(paths) -> list[Path]:
-    """Timeline files under the given paths (a timeline, a walk folder, or a folder of walk folders)."""
-    out: list[Path] = []
-    for raw in paths:
-        p = Path(raw)
-        if p.is_file():
-            out.append(p)
-        elif (p / TIMELINE_FILE).is_file():
-            out.append(p / TIMELINE_FILE)
-        elif p.is_dir():
-            found = sorted(p.glob(f"*/{TIMELINE_FILE}"))
-            if not found:
-                raise InputError("no timeline.parquet in this folder or its walk folders", where=p,
-                                 fix="pass the output folder of 'walkcomfort ingest' (or 'thermal')")
-            out.extend(found)
-        else:
-            raise InputError("no such file or folder", where=p, fix="check the path")
-    return out
-
-
 PREDICTION_COLUMNS = ("comfort_class", "p_comfortable", "p_neutral", "p_uncomfortable", "predictor", "reasons")
 
 
@@ -297,6 +277,7 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, net
     each difference. The page is self-contained (opens with no network) unless --online.
     """
     from walkcomfort.report.map import context_from_table, route_map
+    from walkcomfort.session.timeline import find_timelines
 
     if not points and not walk_paths and scene_path is None and network_dir is None:
         raise InputError("nothing to map", where="walkcomfort map",
@@ -307,7 +288,7 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, net
     t = read_route_tables(points)
     session = t["attrs"].get("session") if isinstance(t["attrs"].get("session"), dict) else {}
     zone = timezone or session.get("timezone") or "UTC"
-    walks = find_walks(walk_paths)
+    walks = find_timelines(walk_paths)
     error_source = "in-sample"
     if model_path is not None:
         walks, error_source = predicted_walks(walks, model_path)
@@ -383,6 +364,7 @@ def report(paths, out, timezone, title, scene_path):
     of walk folders, or model bundle folders from 'walkcomfort fit'.
     """
     from walkcomfort.report.session_report import write_session_report
+    from walkcomfort.session.timeline import find_timelines
 
     jobs: list[tuple[str, Path]] = []
     for p in paths:
@@ -390,7 +372,7 @@ def report(paths, out, timezone, title, scene_path):
         if is_model_bundle(p):
             jobs.append(("model", p))
         else:
-            jobs.extend(("session", t) for t in find_walks([p]))
+            jobs.extend(("session", t) for t in find_timelines([p]))
     single_file = out is not None and out.suffix.lower() in (".html", ".htm")
     if single_file and len(jobs) != 1:
         raise InputError(f"-o {out} names one file but there are {len(jobs)} reports to write", where="--out",

@@ -31,16 +31,10 @@ import math
 from walkcomfort import columns as C
 
 # --- comfort classes (our own palette) ---------------------------------------------------
-COMFORT_COLOURS: dict[str, str] = {
-    "comfortable": "#3e9fd8",
-    "neutral": "#efc35b",
-    "uncomfortable": "#6b1d4a",
-}
-COMFORT_LABELS: dict[str, str] = {
-    "comfortable": "Comfortable",
-    "neutral": "Neutral",
-    "uncomfortable": "Uncomfortable",
-}
+# (defined in the glossary, walkcomfort.columns, so that lower layers — the route plot — draw
+# the same colours without importing the report)
+COMFORT_COLOURS: dict[str, str] = C.COMFORT_COLOURS
+COMFORT_LABELS: dict[str, str] = C.COMFORT_LABELS
 # drawn under every route line so the light colours stay visible on a white page or on tiles
 HALO_COLOUR = "#1f1f1f"
 MISSING_COLOUR = "#9b9b9b"

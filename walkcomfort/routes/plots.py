@@ -31,8 +31,6 @@ def plot_comfort_along_route(points: pd.DataFrame, departure=None, timezone: str
     matplotlib.use("Agg", force=False)
     from matplotlib.figure import Figure
 
-    from walkcomfort.report.palette import COMFORT_COLOURS, COMFORT_LABELS
-
     deps = pd.DatetimeIndex(points[DEPARTURE].unique()).sort_values()
     dep = deps[0] if departure is None else pd.Timestamp(departure).tz_convert("UTC")
     sel = points[points[DEPARTURE] == dep]
@@ -45,8 +43,8 @@ def plot_comfort_along_route(points: pd.DataFrame, departure=None, timezone: str
         g = sel[sel[SCHEME] == name].sort_index()
         d = g[C.DIST_M].to_numpy(float)
         ys = [g[PROBA[c]].to_numpy(float) for c in C.COMFORT_CLASSES]
-        ax.stackplot(d, *ys, colors=[COMFORT_COLOURS[c] for c in C.COMFORT_CLASSES],
-                     labels=[COMFORT_LABELS[c] for c in C.COMFORT_CLASSES], step=None, alpha=0.9)
+        ax.stackplot(d, *ys, colors=[C.COMFORT_COLOURS[c] for c in C.COMFORT_CLASSES],
+                     labels=[C.COMFORT_LABELS[c] for c in C.COMFORT_CLASSES], step=None, alpha=0.9)
         ax.set_ylim(0, 1)
         ax.set_ylabel("probability")
         ax.set_title(f"{name} — predictor: {g['predictor'].iloc[0] if 'predictor' in g else ''}", fontsize=9,

@@ -326,3 +326,37 @@ def combine_campaign(timelines) -> pd.DataFrame:
     out = out.sort_values([WALK_ID], kind="stable")
     out.attrs["sessions"] = sessions
     return out
+
+
+def find_timelines(paths) -> list[Path]:
+    """The ``timeline.parquet`` files the user means, the one finder every verb uses.
+
+    Each path may be a timeline file, a walk folder holding one, or a folder of walk
+    folders (the output of ``walkcomfort ingest`` or ``thermal``: ``OUT/<walk_id>/timeline.parquet``,
+    one level down, never deeper, so copies elsewhere under the folder are not mixed in).
+
+    Parameters
+    ----------
+    paths : iterable of str or path-like
+
+    Returns
+    -------
+    list of Path
+        In the order given (walk folders sorted by name), each file once; empty for no paths.
+    """
+    found: list[Path] = []
+    for p in map(Path, paths):
+        if p.is_file():
+            found.append(p)
+        elif (p / TIMELINE_FILE).is_file():
+            found.append(p / TIMELINE_FILE)
+        elif p.is_dir():
+            subs = sorted(p.glob(f"*/{TIMELINE_FILE}"))
+            if not subs:
+                raise InputError(f"no {TIMELINE_FILE} in this folder or its walk folders", where=p,
+                                 fix="give the output folder of `walkcomfort ingest` (or `thermal`), "
+                                     "one of its walk folders, or a timeline.parquet")
+            found.extend(subs)
+        else:
+            raise InputError("does not exist (no such file or folder)", where=p, fix="check the path")
+    return list({f.resolve(): f for f in found}.values())
