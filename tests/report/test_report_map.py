@@ -10,10 +10,10 @@ import _report_synth as S
 import numpy as np
 import pytest
 
+from walkcomfort import _html as htmlsafe
 from walkcomfort import columns as C
 from walkcomfort.errors import InputError
 from walkcomfort.model.heldout_error import model_error_cells
-from walkcomfort.report import htmlsafe
 from walkcomfort.report import map as R
 from walkcomfort.report.map import routelayer as RL
 

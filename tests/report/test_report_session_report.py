@@ -60,7 +60,7 @@ def test_report_has_plots_tables_and_escaped_notes(tmp_path):
     assert len(parsed.imgs) == 2 and all(s.startswith("data:image/png;base64,") for s in parsed.imgs)
     sizes = [Image.open(io.BytesIO(base64.b64decode(s.split(",", 1)[1]))).size for s in parsed.imgs]
     assert sizes[0][0] == 1000 and sizes[0][1] > 600  # 10 in x 100 dpi, six panels tall
-    assert not [t for t, a in parsed.tags if t in ("script", "link", "iframe")]
+    assert not [t for t, a in parsed.tags if t in ("script", "link", "iframe")]  # the policy meta aside
     assert not [a for t, a in parsed.tags if any(k.startswith("on") for k in a)]
     # the note is text in a table cell, never markup
     assert "<script>window" not in page and "<img src=x" not in page
@@ -71,7 +71,9 @@ def test_report_has_plots_tables_and_escaped_notes(tmp_path):
     assert "<td>GPS jumps</td><td>2</td>" in page
     assert "<td>weather</td><td>out_of_range:t_air_c</td><td>3</td>" in page
     assert "7 row(s) set aside" in page
-    assert "<td>qa_gps_jump</td><td>10</td>" in page
+    # flags in words, counted in steps and minutes (1 s steps: 10 steps = 0.2 min)
+    assert "<td>GPS jump</td><td>10</td><td>0.2</td>" in page
+    assert 'http-equiv="Content-Security-Policy"' in page and "script-src 'none'" in page.replace("&#x27;", "'")
     # local times in the session's zone (07:58Z is 09:58 CEST)
     assert "09:58:00 – 10:07:59 (Europe/Madrid)" in page
     assert "+2 (warm)" in page and "<td>0 (neutral)</td>" in page
@@ -103,7 +105,9 @@ def test_report_without_environment_or_position():
 
 def test_utci_bands_shade_the_temperature_panel():
     w = S.timeline()
-    fig = SR.timeseries_figure(w, __import__("zoneinfo").ZoneInfo("Europe/Madrid"))
+    from walkcomfort.report.session_figures import timeseries_figure
+
+    fig = timeseries_figure(w, __import__("zoneinfo").ZoneInfo("Europe/Madrid"))
     temp_ax = fig.axes[1]
     labels = {t.get_text() for t in temp_ax.texts}
     lo, hi = temp_ax.get_ylim()
@@ -151,10 +155,31 @@ def test_scene_is_drawn_under_the_track():
     from zoneinfo import ZoneInfo
 
     w = S.timeline()
-    plain = SR.track_figure(w, ZoneInfo("UTC"))
-    with_scene = SR.track_figure(w, ZoneInfo("UTC"), S.scene())
+    from walkcomfort.report.session_figures import track_figure
+
+    plain = track_figure(w, ZoneInfo("UTC"))
+    with_scene = track_figure(w, ZoneInfo("UTC"), S.scene())
     # the invented scene has one building, one tree crown and one canopy near the track
     assert len(plain.axes[0].patches) == 0
     assert len(with_scene.axes[0].patches) == 3
     with pytest.raises(InputError, match="not valid JSON"):
         SR.session_report_html(w, {}, scene=__file__)
+
+
+def test_short_walk_time_axis_and_fitted_track_scale():
+    import matplotlib.dates as mdates
+
+    from walkcomfort.report import session_figures as F
+
+    w = S.timeline(n=120)  # a two-minute walk
+    zone = __import__("zoneinfo").ZoneInfo("Europe/Madrid")
+    fig = F.timeseries_figure(w, zone)
+    ax = fig.axes[0].get_shared_x_axes().get_siblings(fig.axes[0])[0]
+    labels = [mdates.DateFormatter("%H:%M:%S")(v) for v in ax.get_xticks()]
+    shown = [ax.xaxis.get_major_formatter()(v) for v in ax.get_xticks()]
+    assert shown == labels and len(set(shown)) == len(shown) >= 3, shown  # seconds, no repeated labels
+    # the track's colour scale spans only the bands the walk reaches, not -60…60 °C
+    tf = F.track_figure(w, zone)
+    bar = tf.axes[-1]
+    lo, hi = bar.get_ylim()
+    assert hi - lo < 30 and lo > -10, (lo, hi)

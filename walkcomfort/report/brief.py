@@ -22,8 +22,8 @@ from pathlib import Path
 import pandas as pd
 
 from walkcomfort import _io
+from walkcomfort._html import esc, page
 from walkcomfort.errors import InputError, WalkcomfortError
-from walkcomfort.report.htmlsafe import esc, page
 from walkcomfort.report.map import context_from_table, route_map, write_map
 from walkcomfort.report.map.routelayer import BASE
 

@@ -16,7 +16,7 @@ Layout of ``OUT/``::
 
 from __future__ import annotations
 
-import html
+import base64
 from pathlib import Path
 
 import numpy as np
@@ -24,6 +24,8 @@ import pandas as pd
 
 from walkcomfort import _io
 from walkcomfort import columns as C
+from walkcomfort._html import esc, page
+from walkcomfort.labels import format_value, header
 from walkcomfort.routes.compare import CAUTION, Comparison
 from walkcomfort.routes.predict import PHYSICS_RULE
 from walkcomfort.routes.simulate import DEPARTURE
@@ -60,41 +62,51 @@ def points_geojson(points: pd.DataFrame, digits: int = 7) -> dict:
     return {"type": "FeatureCollection", "features": feats}
 
 
-def _fmt(v) -> str:
-    if isinstance(v, pd.Timestamp):
-        return v.strftime("%Y-%m-%d %H:%M %Z")
-    if isinstance(v, (float, np.floating)):
-        if not np.isfinite(v):
-            return "–"
-        a = abs(float(v))
-        if a >= 100:
-            return f"{v:.0f}"
-        if a < 5e-4:
-            return "0"  # rounding noise of a difference, not a value
-        return f"{v:.3g}"
-    return str(v)
+TIME_COLUMNS = (DEPARTURE, "arrival")
 
 
-def _local(df: pd.DataFrame, timezone: str | None) -> pd.DataFrame:
+def with_local_times(df: pd.DataFrame, timezone: str | None, index_name: str | None = None) -> pd.DataFrame:
+    """The table with ``<col>_local`` beside each UTC time column (and ``time_local`` for a time index).
+
+    The UTC columns stay as they are; the local ones are the same instants in the route's zone
+    (UTC when no zone is known), so a reader of the CSV or Parquet sees local clock time.
+    """
+    zone = timezone or "UTC"
     out = df.copy()
-    for c in (DEPARTURE, "arrival"):
-        if c in out.columns and timezone:
-            out[c] = pd.DatetimeIndex(out[c]).tz_convert(timezone)
+    for c in TIME_COLUMNS:
+        if c in out.columns:
+            at = out.columns.get_loc(c) + 1
+            out.insert(at, f"{c}_local", pd.DatetimeIndex(pd.to_datetime(out[c], utc=True)).tz_convert(zone))
+    if index_name and isinstance(out.index, pd.DatetimeIndex) and out.index.tz is not None:
+        out.insert(0, f"{index_name}_local", out.index.tz_convert(zone))
     return out
 
 
-def markdown_table(df: pd.DataFrame, columns=None) -> str:
-    cols = list(columns or df.columns)
-    cols = [c for c in cols if c in df.columns]
-    lines = ["| " + " | ".join(cols) + " |", "|" + "|".join("---" for _ in cols) + "|"]
+def csv_ready(df: pd.DataFrame, index: bool = False) -> pd.DataFrame:
+    """Times as ISO 8601 to the second with their offset (no microseconds) for the CSV files."""
+    out = df.copy()
+    for c in out.columns:
+        if isinstance(out[c].dtype, pd.DatetimeTZDtype):
+            out[c] = out[c].dt.round("s").map(lambda t: t.isoformat() if pd.notna(t) else "")
+    if index and isinstance(out.index, pd.DatetimeIndex):
+        name = out.index.name
+        out.index = pd.Index([t.isoformat() for t in out.index.round("s")], name=name)
+    return out
+
+
+def markdown_table(df: pd.DataFrame, columns=None, timezone: str | None = None) -> str:
+    """A Markdown table with plain labels and units as headers and each kind of number formatted alike."""
+    cols = [c for c in list(columns or df.columns) if c in df.columns]
+    lines = ["| " + " | ".join(header(c) for c in cols) + " |", "|" + "|".join("---" for _ in cols) + "|"]
     for _, r in df[cols].iterrows():
-        lines.append("| " + " | ".join(_fmt(r[c]).replace("|", "/") for c in cols) + " |")
+        lines.append("| " + " | ".join(format_value(c, r[c], timezone).replace("|", "/") for c in cols) + " |")
     return "\n".join(lines)
 
 
 SUMMARY_COLS = ["scheme", DEPARTURE, "walk_min", "exp_min_comfortable", "exp_min_neutral", "exp_min_uncomfortable",
                 "argmax_min_comfortable", "shade_share", "mean_utci_c", "peak_utci_c", "heat_dose_cmin"]
-COMPARE_COLS = ["scheme", DEPARTURE, "delta_exp_min_comfortable", "delta_exp_min_uncomfortable",
+COMPARE_COLS = ["scheme", DEPARTURE, "delta_exp_min_comfortable", "delta_exp_min_comfortable_lo",
+                "delta_exp_min_comfortable_hi", "within_model_error", "delta_exp_min_uncomfortable",
                 "delta_shade_share", "delta_mean_utci_c", "delta_peak_utci_c", "delta_heat_dose_cmin"]
 BEST_COLS = ["scheme", DEPARTURE, "departures_n", "exp_min_comfortable", "exp_share_comfortable", "mean_utci_c",
              "heat_dose_cmin"]
@@ -118,14 +130,14 @@ def summary_markdown(result: Comparison, timezone: str | None = None, title: str
     for n in result.notices:
         lines.append(f"> Note: {n}")
     lines += ["", f"> Caution: {CAUTION}", "", "## Walks (one row per scheme and departure)", "",
-              markdown_table(_local(result.summary, timezone), SUMMARY_COLS), ""]
+              markdown_table(result.summary, SUMMARY_COLS, timezone), ""]
     if len(result.comparison):
         lines += ["## Schemes against the base (scheme − base)", "",
-                  markdown_table(_local(result.comparison, timezone), COMPARE_COLS), ""]
+                  markdown_table(result.comparison, COMPARE_COLS, timezone), ""]
     if len(result.best) and result.best["departures_n"].max() > 1:
         lines += ["## Best departure in the sweep", "",
                   "Most expected comfortable share; ties go to the lower heat dose.", "",
-                  markdown_table(_local(result.best, timezone), BEST_COLS), ""]
+                  markdown_table(result.best, BEST_COLS, timezone), ""]
     if len(result.cost):
         lines += ["## What each scheme adds, and what it buys", "",
                   "Gain = expected comfortable minutes per walk over the base, averaged over departures.", "",
@@ -144,49 +156,61 @@ def summary_markdown(result: Comparison, timezone: str | None = None, title: str
         if unchanged:
             lines += [f"No section of this route is cooler by more than 0.05 °C under: {', '.join(unchanged)} "
                       "(the scheme does not reach this route, or not at these times).", ""]
-    lines += ["Minutes [min]; shares 0…1; UTCI [°C]; heat dose = time integral of UTCI above 26 °C [°C·min].", ""]
+    lines += [f"Times are local ({timezone or 'UTC'}); shares in %; changes of a share in percentage points; "
+              "heat dose = time integral of UTCI above 26 °C [°C·min].", ""]
     return "\n".join(lines)
 
 
-def summary_html(markdown: str) -> str:
-    """A self-contained HTML page from :func:`summary_markdown` (tables, headings, notes; all text escaped)."""
-    body = []
+SUMMARY_STYLE = ("body{font-family:system-ui,sans-serif;max-width:72rem;margin:2rem auto;padding:0 1rem;color:#1f1f1f}"
+                 ".wide{overflow-x:auto}table{border-collapse:collapse;margin:1rem 0;font-size:.85rem}"
+                 "td,th{border:1px solid #bbb;padding:.25rem .5rem;text-align:right;vertical-align:top}"
+                 "th{background:#eee;font-weight:600}td:first-child,th:first-child{text-align:left}"
+                 ".note{background:#fff6df;padding:.5rem}img{max-width:100%;border:1px solid #ccc}"
+                 "@media print{.wide{overflow:visible}}")
+
+
+def _html_table(rows: list[str]) -> str:
+    head, *rest = rows
+    cells = [c.strip() for c in head.strip("|").split("|")]
+    out = ['<div class="wide"><table>', "<tr>" + "".join(f"<th>{esc(c)}</th>" for c in cells) + "</tr>"]
+    for r in rest[1:]:
+        out.append("<tr>" + "".join(f"<td>{esc(c.strip())}</td>" for c in r.strip("|").split("|")) + "</tr>")
+    out.append("</table></div>")
+    return "\n".join(out)
+
+
+def _html_line(line: str) -> str:
+    for prefix, tag in (("## ", "h2"), ("# ", "h1")):
+        if line.startswith(prefix):
+            return f"<{tag}>{esc(line[len(prefix):])}</{tag}>"
+    if line.startswith("> "):
+        return f'<p class="note">{esc(line[2:])}</p>'
+    if line.startswith("- "):
+        return f"<p>{esc(line[2:])}</p>"
+    return f"<p>{esc(line).replace('**', '')}</p>" if line.strip() else ""
+
+
+def summary_html(markdown: str, images: tuple = ()) -> str:
+    """A self-contained HTML page from :func:`summary_markdown` (all text escaped, the shared policy).
+
+    ``images`` are ``(alt text, PNG bytes)`` pairs embedded after the first heading's block.
+    """
+    body: list[str] = []
     rows: list[str] = []
-
-    def flush():
-        if rows:
-            head, *rest = rows
-            cells = [c.strip() for c in head.strip("|").split("|")]
-            out = ["<table>", "<tr>" + "".join(f"<th>{html.escape(c)}</th>" for c in cells) + "</tr>"]
-            for r in rest[1:]:
-                out.append("<tr>" + "".join(f"<td>{html.escape(c.strip())}</td>" for c in r.strip("|").split("|"))
-                           + "</tr>")
-            out.append("</table>")
-            body.append("\n".join(out))
-            rows.clear()
-
-    for line in markdown.splitlines():
+    for line in markdown.splitlines() + [""]:
         if line.startswith("|"):
             rows.append(line)
             continue
-        flush()
-        if line.startswith("## "):
-            body.append(f"<h2>{html.escape(line[3:])}</h2>")
-        elif line.startswith("# "):
-            body.append(f"<h1>{html.escape(line[2:])}</h1>")
-        elif line.startswith("> "):
-            body.append(f"<p class=\"note\">{html.escape(line[2:])}</p>")
-        elif line.startswith("- "):
-            body.append(f"<p>{html.escape(line[2:])}</p>")
-        elif line.strip():
-            text = html.escape(line).replace("**", "")
-            body.append(f"<p>{text}</p>")
-    flush()
-    style = ("body{font-family:system-ui,sans-serif;max-width:70rem;margin:2rem auto;padding:0 1rem;color:#1f1f1f}"
-             "table{border-collapse:collapse;margin:1rem 0;font-size:.85rem}td,th{border:1px solid #bbb;"
-             "padding:.25rem .5rem;text-align:right}th{background:#eee}.note{background:#fff6df;padding:.5rem}")
-    return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>Route comfort</title>"
-            f"<style>{style}</style></head><body>\n" + "\n".join(body) + "\n</body></html>\n")
+        if rows:
+            body.append(_html_table(rows))
+            rows = []
+        if line.startswith("## ") and images:
+            body += [f'<p><img alt="{esc(alt)}" src="data:image/png;base64,{base64.b64encode(png).decode()}"></p>'
+                     for alt, png in images]
+            images = ()
+        body.append(_html_line(line))
+    title = next((ln[2:] for ln in markdown.splitlines() if ln.startswith("# ")), "Route comfort")
+    return page(title, "\n".join(b for b in body if b), style=SUMMARY_STYLE)
 
 
 def _telling_departure(result: Comparison):
@@ -219,22 +243,27 @@ def write_outputs(result: Comparison, out_dir, provenance: dict, timezone: str |
     pts = result.points
     meta = {"provenance": provenance, "caution": CAUTION, "attrs": {k: v for k, v in pts.attrs.items()
                                                                     if isinstance(v, (str, int, float, list, dict))}}
-    written["points.parquet"] = _io.write_parquet(out / "points.parquet", pts, meta)
-    written["points.csv"] = _io.write_csv(out / "points.csv", pts)
+    local = {name: with_local_times(df, timezone) for name, df in (
+        ("summary", result.summary), ("comparison", result.comparison), ("best", result.best))}
+    points_local = with_local_times(pts, timezone, index_name=pts.index.name or C.TIME)
+    points_local.attrs = pts.attrs
+    written["points.parquet"] = _io.write_parquet(out / "points.parquet", points_local, meta)
+    written["points.csv"] = _io.write_csv(out / "points.csv", csv_ready(points_local, index=True))
     written["points.geojson"] = _io.write_json(out / "points.geojson", points_geojson(pts))
-    written["summary.parquet"] = _io.write_parquet(out / "summary.parquet", result.summary, meta)
-    written["summary.csv"] = _io.write_csv(out / "summary.csv", result.summary, index=False)
-    written["comparison.csv"] = _io.write_csv(out / "comparison.csv", result.comparison, index=False)
-    written["best_departures.csv"] = _io.write_csv(out / "best_departures.csv", result.best, index=False)
+    written["summary.parquet"] = _io.write_parquet(out / "summary.parquet", local["summary"], meta)
+    written["summary.csv"] = _io.write_csv(out / "summary.csv", csv_ready(local["summary"]), index=False)
+    written["comparison.csv"] = _io.write_csv(out / "comparison.csv", csv_ready(local["comparison"]), index=False)
+    written["best_departures.csv"] = _io.write_csv(out / "best_departures.csv", csv_ready(local["best"]), index=False)
     written["cost_effectiveness.csv"] = _io.write_csv(out / "cost_effectiveness.csv", result.cost, index=False)
     written["along_route.csv"] = _io.write_csv(out / "along_route.csv", result.along, index=False)
-    md = summary_markdown(result, timezone=timezone)
-    written["summary.md"] = _io.atomic_write_text(out / "summary.md", md)
-    written["summary.html"] = _io.atomic_write_text(out / "summary.html", summary_html(md))
     if plot_departure is None:
         plot_departure = _telling_departure(result)
     fig = plot_comfort_along_route(pts, departure=plot_departure, timezone=timezone)
     save_figure(fig, out / "comfort_along_route.png")
     written["comfort_along_route.png"] = out / "comfort_along_route.png"
+    md = summary_markdown(result, timezone=timezone)
+    written["summary.md"] = _io.atomic_write_text(out / "summary.md", md)
+    plot = ("Comfort and UTCI along the route, one panel per scheme", (out / "comfort_along_route.png").read_bytes())
+    written["summary.html"] = _io.atomic_write_text(out / "summary.html", summary_html(md, images=(plot,)))
     written["provenance.json"] = _io.write_json(out / "provenance.json", provenance)
     return written

@@ -3,7 +3,7 @@
 The page's own script and style are real files (``static/map.js``, ``static/map.css``)
 read with :mod:`importlib.resources`. Data travel in a ``<script type="application/json">``
 block (never executed); the script builds every popup, label and legend entry with
-``textContent``. The Content-Security-Policy of :mod:`walkcomfort.report.htmlsafe` allows
+``textContent``. The Content-Security-Policy of :mod:`walkcomfort._html` allows
 only the page's own inline scripts, by hash.
 
 Leaflet is inlined unless ``online=True`` (then it is linked from the CDN with
@@ -19,10 +19,10 @@ from functools import lru_cache
 from importlib import resources
 from pathlib import Path
 
+from walkcomfort._html import esc, json_block, with_policy
 from walkcomfort._io import atomic_write_text
 from walkcomfort.errors import DataQualityWarning, InputError
 from walkcomfort.report import offline as leaflet
-from walkcomfort.report.htmlsafe import esc, json_block, with_policy
 from walkcomfort.report.map.build import RouteMap
 from walkcomfort.report.map.tiles import tile_csp_sources, tile_url
 

@@ -1,5 +1,9 @@
 """One escaping rule and one Content-Security-Policy for every HTML page walkcomfort writes.
 
+It sits beside :mod:`walkcomfort._io` at the bottom of the layers, so every stage that
+writes a page (routes' summary, the model report, the session report, the map, the brief)
+uses the same rules.
+
 User text (vote notes, scheme labels, site names, file names) never reaches a page as
 markup: text in HTML goes through :func:`esc`, data for scripts through :func:`js_json`
 (placed in ``<script type="application/json">`` blocks, never executed), and every page
