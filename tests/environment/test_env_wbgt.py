@@ -200,3 +200,41 @@ def test_extra_index_columns_for_the_chain():
     np.testing.assert_allclose(g["wbgt_c"][[1, 3]], out["wbgt_c"][[1, 3]])
     with pytest.raises(InputError, match="unknown index 'pmv'"):
         I.check_indices(["pet", "pmv"])
+
+
+def test_the_chain_adds_pet_and_wbgt_only_when_asked(tmp_path):
+    from walkcomfort.environment.chain import ENV_COLUMNS, environment_columns
+    from walkcomfort.environment.indices import extra_index_columns
+
+    times = pd.date_range("2026-07-15 10:00", periods=6, freq="10min", tz="UTC")
+    pos = pd.DataFrame({"lon": [-0.75] * 6, "lat": [38.80] * 6})
+    wx = pd.DataFrame({"t_air_c": np.linspace(30, 34, 6), "rh_pct": 40.0, "wind_ms": 1.5, "pressure_hpa": 1005.0})
+    plain = environment_columns(times, pos, wx, wind_height_m=10.0)
+    assert list(plain.columns) == list(ENV_COLUMNS)
+    more = environment_columns(times, pos, wx, wind_height_m=10.0, indices=("pet", "wbgt"))
+    pd.testing.assert_frame_equal(more[list(ENV_COLUMNS)], plain)  # nothing else changes
+    assert more.attrs["environment"]["indices"] == ["pet", "wbgt"]
+    expect = extra_index_columns(["pet", "wbgt"], t_air_c=wx.t_air_c, rh_pct=wx.rh_pct, tmrt_c=plain.tmrt_c,
+                                 wind10_ms=plain.wind10_ms, pressure_hpa=wx.pressure_hpa,
+                                 sun_elev_deg=plain.sun_elev_deg, dni_wm2=plain.dni_wm2, dhi_wm2=plain.dhi_wm2,
+                                 beam_trans_frac=plain.beam_trans_frac, svf=plain.svf)
+    np.testing.assert_allclose(more["pet_c"], expect["pet_c"])
+    np.testing.assert_allclose(more["wbgt_c"], expect["wbgt_c"])
+    # open ground at midday in July, 30-34 °C: hot but plausible
+    assert more["wbgt_c"].between(24, 34).all() and more["pet_c"].between(30, 55).all()
+
+
+def test_thermal_extra_index_on_a_recorded_walk_and_a_rerun_without_it(tmp_path, fixtures_dir, capsys):
+    from walkcomfort.cli import main
+
+    out = tmp_path / "out"
+    assert main(["ingest", str(fixtures_dir / "sessions" / "walk_ok"), "-o", str(out)]) == 0
+    assert main(["thermal", str(out), "--extra-index", "pet", "--extra-index", "wbgt"]) == 0
+    tl = pd.read_parquet(out / "fixture-p01-am" / "timeline.parquet")
+    assert {"pet_c", "pet_class", "wbgt_c"} <= set(tl.columns)
+    has_globe = tl["t_globe_c"].notna() & tl["wind_ms"].notna()
+    assert tl.loc[has_globe, "wbgt_c"].notna().all()
+    # re-run without: the indices of the earlier run do not stay behind, stale, beside new columns
+    assert main(["thermal", str(out)]) == 0
+    tl = pd.read_parquet(out / "fixture-p01-am" / "timeline.parquet")
+    assert not {"pet_c", "pet_class", "wbgt_c"} & set(tl.columns)

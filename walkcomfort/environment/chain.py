@@ -60,6 +60,7 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
+from walkcomfort.environment import indices as _indices
 from walkcomfort.environment import shade as _shade
 from walkcomfort.environment import skyview as _skyview
 from walkcomfort.environment import sun as _sun
@@ -96,7 +97,7 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
                         n_sectors: int = 36, svf_radius_m: float = SVF_RADIUS_M, svf_cell_m: float = SVF_CELL_M,
                         z0_m: float = _utci.Z0_UTCI_M, crown_model: str = "per_crossing",
                         inside_buildings: str = "flag", flux_options: dict | None = None,
-                        warn: bool = True) -> pd.DataFrame:
+                        warn: bool = True, indices=()) -> pd.DataFrame:
     """Sun, irradiance, shade, sky view, Tmrt, wind at 10 m and UTCI for points at times.
 
     Parameters
@@ -144,6 +145,9 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         Keyword arguments of :func:`walkcomfort.environment.tmrt.outdoor_fluxes`.
     warn : bool, default True
         Warn (ValidityRangeWarning) when rows fall outside the UTCI validity range.
+    indices : iterable of str, optional
+        Indices beside UTCI to add: ``"pet"`` (``pet_c, pet_class``) and/or ``"wbgt"``
+        (``wbgt_c``), by :func:`walkcomfort.environment.indices.extra_index_columns`.
 
     Returns
     -------
@@ -208,6 +212,12 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         C.QA_UTCI_RANGE: u[C.QA_UTCI_RANGE].to_numpy(bool), C.QA_WIND_CLAMPED: u[C.QA_WIND_CLAMPED].to_numpy(bool),
         C.QA_INSIDE_BUILDING: inside,
     }, index=idx)
+    # 8. indices beside UTCI, when asked (PET, WBGT) -------------------------------------------
+    for name, values in _indices.extra_index_columns(
+            indices, t_air_c=wx[C.T_AIR_C], rh_pct=wx[C.RH_PCT], tmrt_c=tmrt, wind10_ms=wind10,
+            pressure_hpa=wx[C.PRESSURE_HPA], sun_elev_deg=s_elev, dni_wm2=dni, dhi_wm2=dhi, beam_trans_frac=trans,
+            svf=svf, t_globe_c=wx[C.T_GLOBE_C], globe=globe, z0_m=z0_m, flux_options=flux_options).items():
+        out[name] = values
     meta = dict(irr_meta)
     if globe_meta:
         meta["globe"] = globe_meta
@@ -223,6 +233,7 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         "svf_radius_m": float(svf_radius_m), "svf_cell_m": float(svf_cell_m),
         "wind_height_m": None if wind_height_m is None else float(wind_height_m), "z0_m": float(z0_m),
         "flux_options": dict(flux_options or {}), "inside_buildings": inside_buildings,
+        "indices": list(_indices.check_indices(indices)),
         "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": int((source == "globe").sum()),
                       "inside_building": int(inside.sum()), "tmrt_fluxes": int((source == "fluxes").sum()),
                       "tmrt_missing": int(np.isnan(tmrt).sum())},

@@ -70,7 +70,10 @@ def _irradiance_table(path: Path):
 @click.option("--inside-buildings", "inside", type=click.Choice(["flag", "snap"]), default="flag", show_default=True,
               help="Positions inside a building footprint (GPS error): flag them, or also move them just outside "
                    "the nearest wall for shade and sky view.")
-def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe, crown_model, inside):
+@click.option("--extra-index", "extra_index", type=click.Choice(["pet", "wbgt"]), multiple=True,
+              help="Also compute PET of the reference person (pet_c, pet_class) and/or WBGT (wbgt_c). Repeatable.")
+def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe, crown_model, inside,
+            extra_index=()):
     """Add sun, shade, sky view, Tmrt and UTCI to ingested timelines (TIMELINES: walk or output folders).
 
     Tmrt comes from the globe thermometer (ISO 7726) where it was logged, otherwise from
@@ -99,12 +102,12 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
             click.echo(f"{walk_id}: replacing environment columns from an earlier run ({len(again)} columns)")
         env = add_environment(df, scene=scene, irradiance=irr, use_globe=not no_globe, z_m=z_m,
                               n_sectors=n_sectors, overwrite=bool(again), crown_model=crown_model,
-                              inside_buildings=inside, warn=False)
+                              inside_buildings=inside, warn=False, indices=extra_index)
         target_dir = path.parent if out_dir is None else Path(out_dir) / walk_id
         parameters = {"scene": None if scene_path is None else Path(scene_path).name,
                       "irradiance": irradiance if isinstance(irr, str) else Path(irradiance).name,
                       "body_height_m": z_m, "n_sectors": n_sectors, "use_globe": not no_globe,
-                      "crown_model": crown_model, "inside_buildings": inside}
+                      "crown_model": crown_model, "inside_buildings": inside, "extra_index": list(extra_index)}
         prov = _io.provenance(inputs=[path, *inputs_extra], parameters=parameters)
         new_meta = dict(meta)
         new_meta["session"] = env.attrs["session"]
@@ -113,8 +116,9 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
         data = env.copy()
         data.attrs = {}
         # tmrt_source/utci_band hold None where unknown; Parquet keeps them as strings + nulls
-        for col in (C.TMRT_SOURCE, C.UTCI_BAND):
-            data[col] = pd.array(data[col], dtype="string")
+        for col in (C.TMRT_SOURCE, C.UTCI_BAND, "pet_class"):
+            if col in data.columns:
+                data[col] = pd.array(data[col], dtype="string")
         if out_dir is not None:
             for name in COMPANIONS:
                 src = path.parent / name

@@ -39,6 +39,11 @@ def check_indices(names) -> tuple[str, ...]:
     return tuple(n for n in names if n != "utci")
 
 
+def extra_columns(names) -> tuple[str, ...]:
+    """The column names the requested extra indices add (checked as :func:`check_indices` does)."""
+    return tuple(c for n in check_indices(names) for c in INDEX_COLUMNS[n])
+
+
 def wind_from_10m(wind10_ms, height_m: float, z0_m: float):
     """Wind at ``height_m`` from the wind at 10 m, by the logarithmic profile with roughness ``z0_m`` [m s⁻¹]."""
     return np.asarray(wind10_ms, dtype=float) * np.log(height_m / z0_m) / np.log(10.0 / z0_m)

@@ -34,6 +34,7 @@ import pandas as pd
 from walkcomfort import columns as C
 from walkcomfort.environment import utci as _utci
 from walkcomfort.environment.chain import BODY_HEIGHT_M, ENV_COLUMNS, environment_columns
+from walkcomfort.environment.indices import EXTRA_INDICES, extra_columns
 from walkcomfort.environment.scene import Scene
 from walkcomfort.errors import InputError
 
@@ -82,7 +83,7 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
                     globe_height_m: float | None = None, z_m: float = BODY_HEIGHT_M, n_sectors: int = 36,
                     svf_radius_m: float = 200.0, z0_m: float = _utci.Z0_UTCI_M, overwrite: bool = False,
                     flux_options: dict | None = None, crown_model: str = "per_crossing",
-                    inside_buildings: str = "flag", warn: bool = True) -> pd.DataFrame:
+                    inside_buildings: str = "flag", warn: bool = True, indices=()) -> pd.DataFrame:
     """Sun, irradiance, shade, sky view, Tmrt and UTCI for every row of a timeline.
 
     Parameters
@@ -129,6 +130,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
         them 0.5 m outside the nearest wall for shade and sky view (lat/lon are not changed).
     warn : bool, default True
         Warn (ValidityRangeWarning) when rows fall outside the UTCI validity range.
+    indices : iterable of str, optional
+        Also ``"pet"`` and/or ``"wbgt"`` (see :func:`walkcomfort.environment.chain.environment_columns`).
 
     Returns
     -------
@@ -145,7 +148,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
     if not isinstance(df.index, pd.DatetimeIndex) or df.index.tz is None:
         raise InputError("the timeline's index is not a tz-aware time index", where="add_environment",
                          fix="index the timeline by UTC time (as `walkcomfort ingest` writes it)")
-    present = [c for c in ENV_COLUMNS if c in df.columns]
+    # PET/WBGT of an earlier run go too (recomputed only when asked again): never stale next to a new chain
+    present = [c for c in (*ENV_COLUMNS, *extra_columns(EXTRA_INDICES)) if c in df.columns]
     if present and not overwrite:
         raise InputError(f"the timeline already has environment columns {present}", where="add_environment",
                          fix="pass overwrite=True to recompute them, or drop them first")
@@ -167,7 +171,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
     env = environment_columns(df.index, df.reindex(columns=[C.LON, C.LAT, C.X_M, C.Y_M, C.ELEV_M]), weather,
                               scene=scene, wind_height_m=wind_h, z_m=z_m, globe=globe, n_sectors=n_sectors,
                               svf_radius_m=svf_radius_m, z0_m=z0_m, crown_model=crown_model,
-                              inside_buildings=inside_buildings, flux_options=flux_options, warn=warn)
+                              inside_buildings=inside_buildings, flux_options=flux_options, warn=warn,
+                              indices=indices)
     out = df.drop(columns=present) if present else df.copy()
     out = pd.concat([out, env.set_axis(df.index)], axis=1)
     out.attrs = dict(df.attrs)
