@@ -26,6 +26,7 @@ from walkcomfort._html import esc, page
 from walkcomfort.errors import InputError, WalkcomfortError
 from walkcomfort.report.map import context_from_table, route_map, write_map
 from walkcomfort.report.map.routelayer import BASE
+from walkcomfort.report.tables import read_route_tables
 
 CHROMIUM_FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
                   "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-extensions",
@@ -196,8 +197,6 @@ def write_brief(folder: Path, out_dir: Path, *, scene=None, schemes=(), pdf: boo
     ``folder`` is an output folder of ``walkcomfort compare`` (points.parquet, summary.parquet,
     comparison.csv, best_departures.csv).
     """
-    from walkcomfort.report.commands import read_route_tables  # the verb module imports this one
-
 
     need = [folder / n for n in ("points.parquet", "comparison.csv", "best_departures.csv")]
     missing = [p.name for p in need if not p.is_file()]
