@@ -30,6 +30,7 @@ import pandas as pd
 
 from walkcomfort import columns as C
 from walkcomfort.environment import chain
+from walkcomfort.environment.pet import PET_C
 from walkcomfort.environment.scene import Scene
 from walkcomfort.network.partition import P_COLUMNS, Partition, aggregate_points
 from walkcomfort.network.tiling import SVF_RADIUS_M
@@ -66,7 +67,7 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
     svf = _tile_svf(part, scene, z) if own and scene is not None else None
     env = chain.environment_columns(part.times, pts, w, scene=scene, wind_height_m=ctx.get("wind_height_m"),
                                     grid=True, site=ctx["site"], z_m=z, sky_view=svf,
-                                    svf_radius_m=SVF_RADIUS_M, warn=False)
+                                    svf_radius_m=SVF_RADIUS_M, warn=False, indices=ctx.get("indices", ()))
 
     def nt(name):
         return env[name].to_numpy().reshape(n, t)
@@ -78,7 +79,8 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
             C.WIND_MS: w[C.WIND_MS].to_numpy(float), C.TMRT_C: nt(C.TMRT_C), C.UTCI_C: nt(C.UTCI_C),
             C.QA_UTCI_RANGE: nt(C.QA_UTCI_RANGE).astype(bool),
             C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy(),
-            C.QA_INSIDE_BUILDING: nt(C.QA_INSIDE_BUILDING).astype(bool)}
+            C.QA_INSIDE_BUILDING: nt(C.QA_INSIDE_BUILDING).astype(bool),
+            **({PET_C: nt(PET_C)} if PET_C in env.columns else {})}  # network --index pet
 
 
 #: Sky view factors already computed in this process, by tile content (time chunks of one

@@ -23,7 +23,7 @@ EXIT_PARTITIONS_FAILED = 3
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
                     min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0,
-                    daytime=False):
+                    daytime=False, index="utci"):
     """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
     from walkcomfort.network.batch import BASE, plan_job, sunlit_times, time_range
     from walkcomfort.network.segments import load_network
@@ -73,6 +73,8 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     context = {"wind_height_m": float(weather.attrs.get("wind_height_m", getattr(source, "wind_height_m", 10.0))),
                "weather": getattr(source, "label", "weather"), "model": bundle["digest"] if bundle else None,
                "predictor": predictor}
+    if index == "pet":  # only then: a UTCI job keeps its digest
+        context["indices"] = ["pet"]
     weather = weather.copy()
     weather.attrs = {}
     job = plan_job(network, times, scenes, weather, tile_size_m=tile_size_m, time_chunk=time_chunk,
@@ -153,10 +155,12 @@ def write_outputs(out_dir, network, job, report) -> dict:
               "(without it such a folder is refused: results of two jobs never mix).")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Output folder.")
+@click.option("--index", type=click.Choice(["utci", "pet"]), default="utci", show_default=True,
+              help="Also PET of the reference person per segment x time (pet_c; mean_pet_c, max_pet_c per segment).")
 def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model,
             start, end, step, timezone, daytime, segment_length_m, spacing_m, tile_size_m, time_chunk,
             min_sun_elev_deg, engine, scheduler, workers, threads_per_worker, write_on, retries, resume, overwrite,
-            out_dir):
+            out_dir, index="utci"):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -172,7 +176,7 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
         raise InputError("--scheduler was given with --engine in-process", fix="add --engine dask")
     net, job = plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone or "UTC",
                                weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
-                               min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime)
+                               min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime, index=index)
     click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
                f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
                err=True)

@@ -81,6 +81,8 @@ def segment_summary(rows: pd.DataFrame, base: str = BASE, step_h: float | None =
                         "expected_comfortable_h": g["_pcomf"].sum(), "uncomfortable_h": g["_unc"].sum(),
                         "heat_stress_h": g["_heat"].sum(), "mean_utci_c": g[C.UTCI_C].mean(),
                         "max_utci_c": g[C.UTCI_C].max(), "mean_shade_frac": g[C.SHADE_FRAC].mean()})
+    if "pet_c" in df.columns:  # network --index pet
+        out["mean_pet_c"], out["max_pet_c"] = g["pet_c"].mean(), g["pet_c"].max()
     for c in CHANGE_COLUMNS:
         out[c] = np.nan
     schemes = sorted(df["scheme"].unique())

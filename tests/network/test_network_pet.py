@@ -1,0 +1,51 @@
+"""``network --index pet``: PET per segment x time beside UTCI, its summary, and a UTCI job left as it was."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from walkcomfort import columns as C
+from walkcomfort.environment import pet as P
+from walkcomfort.network.engines import read_segment_hours
+from walkcomfort.network.synthetic import grid_network
+
+
+def _plan(tmp_path, **kw):
+    from walkcomfort.network.commands import plan_from_files
+
+    streets = tmp_path / "streets.geojson"
+    streets.write_text(json.dumps(grid_network(2, 2, block_m=60.0)))
+    return plan_from_files(streets, None, [], "2026-07-14T11:00", "2026-07-14T12:00", "1h", "Europe/Madrid",
+                           conditions="t_air_c=31,rh_pct=40,wind_ms=2", segment_length_m=60.0, **kw)
+
+
+def test_pet_rows_are_the_mean_of_the_points_and_summarised(tmp_path):
+    from walkcomfort.network import _physics
+    from walkcomfort.network.engines import run_job
+    from walkcomfort.network.summaries import summary_from_results
+
+    _, job = _plan(tmp_path, index="pet")
+    assert run_job(job, tmp_path / "out").ok
+    rows = read_segment_hours(tmp_path / "out")
+    assert rows[P.PET_C].notna().all() and rows[P.PET_C].between(25.0, 60.0).all()  # open ground, 31 °C, noon
+    # from the definition: a segment's PET is the mean over its points, as for UTCI
+    part = job.partitions[0]
+    env = _physics.point_environment(part)
+    seg = part.points[C.SEGMENT_ID].to_numpy() == part.segment_ids[0]
+    got = rows.loc[(rows[C.SEGMENT_ID] == part.segment_ids[0]) & (rows.index == part.times[0]), P.PET_C]
+    assert got.iloc[0] == pytest.approx(env[P.PET_C][seg, 0].mean(), rel=1e-12)
+    summary = summary_from_results(tmp_path / "out")
+    assert {"mean_pet_c", "max_pet_c"} <= set(summary.columns)
+    means = rows.groupby([C.SEGMENT_ID, "scheme"])[P.PET_C].mean()
+    np.testing.assert_allclose(summary["mean_pet_c"].to_numpy(), means.reindex(summary.index).to_numpy())
+
+
+def test_a_utci_job_is_unchanged_by_the_option(tmp_path):
+    _, plain = _plan(tmp_path)
+    _, utci = _plan(tmp_path, index="utci")
+    _, pet = _plan(tmp_path, index="pet")
+    assert plain.digest == utci.digest != pet.digest  # a PET job never resumes into a UTCI one
+    assert "indices" not in plain.parameters["context"]
