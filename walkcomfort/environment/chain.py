@@ -90,6 +90,15 @@ WEATHER_COLUMNS = (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.PRESSURE_HPA, C.GHI_WM2, C.
 
 _WHERE = "environment chain"
 
+#: The decisions every caller shares (module docstring), recorded with each result.
+DECISIONS = {
+    "chain": "walkcomfort.environment.chain.environment_columns",
+    "sun_at": "the site (per time)",
+    "leaf_month": "local mean solar time at the site (UTC + lon/15 h)",
+    "missing_wind_height": "refused",
+    "low_sun": "no elevation cut",
+}
+
 
 def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *, scene: Scene | None = None,
                         wind_height_m: float | None = None, grid: bool = False, site: dict | None = None,
@@ -159,44 +168,33 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         "fluxes"), ``wind10_ms`` [m s⁻¹], ``utci_c`` [°C], ``utci_band`` and the QA flags.
         ``attrs["environment"]`` records every parameter, the irradiance source and QA counts.
     """
-    idx, pos, wx = _rows(times, positions, weather, grid)
-    if inside_buildings not in ("flag", "snap"):
-        raise InputError(f"inside_buildings must be 'flag' or 'snap', got {inside_buildings!r}",
-                         where=_WHERE, fix="use 'flag' (default) or 'snap'")
-    if scene is not None and not isinstance(scene, Scene):
-        raise InputError(f"scene must be a Scene (load_scene), got {type(scene).__name__}", where=_WHERE,
-                         fix="load it with walkcomfort.environment.scene.load_scene(path)")
-    x, y = _local_xy(pos, scene)
+    idx, pos, wx, at = _rows(times, positions, weather, grid)
+    _check_options(scene, inside_buildings, wx[C.WIND_MS], wind_height_m)
     site = _site(site, scene, pos)
-    if scene is None and np.isfinite(pos[C.LAT]).any():  # open ground: a frame of its own at the site
-        x, y = (np.asarray(v, float) for v in LocalFrame(site["lon"], site["lat"]).project(pos[C.LON], pos[C.LAT]))
+    x, y = _local_xy(pos, scene, site)
     n = len(idx)
 
     # 1. sun position at the site --------------------------------------------------------------
     s_elev, s_zen, s_az = _sun_position(idx, site, wx[C.PRESSURE_HPA], wx[C.T_AIR_C])
     # 2. irradiance in the open ----------------------------------------------------------------
     ghi, dni, dhi, irr_meta = _irradiance(idx, site, wx, s_elev, s_zen)
-    # 3. direct-beam transmittance through the scene -------------------------------------------
+    # 3. direct-beam transmittance through the scene (positions: once each; ``at``: row -> position)
     x, y, inside = _inside_buildings(scene, x, y, inside_buildings)
     month = leaf_month(idx, site["lon"])
-    zz = np.full(n, float(z_m))
-    trans = _beam(scene, x, y, zz, s_elev, s_az, month, crown_model)
+    trans = _beam(scene, x[at], y[at], np.full(n, float(z_m)), s_elev, s_az, month, crown_model)
     # 4. sky view factor (per position; it does not change with time) -------------------------
     if sky_view is None:
-        svf, crowns = _sky_view_rows(scene, x, y, zz, n_sectors, svf_radius_m, svf_cell_m)
+        svf, crowns = _sky_view_rows(scene, x, y, np.full(x.size, float(z_m)), n_sectors, svf_radius_m,
+                                     svf_cell_m)
     else:
-        svf, crowns = _given_sky_view(sky_view, n, len(positions), grid)
+        svf, crowns = _given_sky_view(sky_view, x.size)
+    svf, crowns, inside = svf[at], crowns[at], inside[at]
     # 5. mean radiant temperature --------------------------------------------------------------
-    wind = wx[C.WIND_MS]
-    if np.isfinite(wind).any() and wind_height_m is None:
-        raise InputError("the wind sensor height is not known", where=_WHERE,
-                         fix="state it: [sensors] wind_height_m in session.toml for a recorded walk, "
-                             "the weather source's height (10 m for a weather file) for a planned one")
     tmrt_flux = np.asarray(_tmrt.tmrt_outdoor(s_elev, dni, dhi, trans, svf, wx[C.T_AIR_C], wx[C.RH_PCT],
                                               **dict(flux_options or {})), dtype=float)
     tmrt, source, globe_meta = _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m)
     # 6. wind at 10 m --------------------------------------------------------------------------
-    wind10 = (np.asarray(_utci.wind_at_10m(wind, float(wind_height_m), z0_m=z0_m), dtype=float)
+    wind10 = (np.asarray(_utci.wind_at_10m(wx[C.WIND_MS], float(wind_height_m), z0_m=z0_m), dtype=float)
               if wind_height_m is not None else np.full(n, np.nan))
     # 7. UTCI and its stress band --------------------------------------------------------------
     u = _utci.utci_from_conditions(wx[C.T_AIR_C], tmrt, wind10, wx[C.RH_PCT], warn=warn)
@@ -218,26 +216,19 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
             pressure_hpa=wx[C.PRESSURE_HPA], sun_elev_deg=s_elev, dni_wm2=dni, dhi_wm2=dhi, beam_trans_frac=trans,
             svf=svf, t_globe_c=wx[C.T_GLOBE_C], globe=globe, z0_m=z0_m, flux_options=flux_options).items():
         out[name] = values
-    meta = dict(irr_meta)
-    if globe_meta:
-        meta["globe"] = globe_meta
-    meta.update({
-        "chain": "walkcomfort.environment.chain.environment_columns",
-        "sun_site": {k: float(site[k]) for k in ("lat", "lon", "elev_m")},
-        "leaf_month": "local mean solar time at the site (UTC + lon/15 h)",
-        "low_sun": "no elevation cut",
-        "scene": None if scene is None else {"features": len(scene), "source": scene.source,
-                                             "site": dict(scene.site), "crs": scene.crs.to_string()},
-        "assumptions": "open ground (no shade, svf 1)" if scene is None else "flat ground, scene obstacles",
-        "z_m": float(z_m), "n_sectors": int(n_sectors), "crown_model": crown_model,
-        "svf_radius_m": float(svf_radius_m), "svf_cell_m": float(svf_cell_m),
-        "wind_height_m": None if wind_height_m is None else float(wind_height_m), "z0_m": float(z0_m),
-        "flux_options": dict(flux_options or {}), "inside_buildings": inside_buildings,
-        "indices": list(_indices.check_indices(indices)),
-        "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": int((source == "globe").sum()),
-                      "inside_building": int(inside.sum()), "tmrt_fluxes": int((source == "fluxes").sum()),
-                      "tmrt_missing": int(np.isnan(tmrt).sum())},
-    })
+    meta = {**irr_meta, **({"globe": globe_meta} if globe_meta else {}), "sun_site": site,
+            "scene": None if scene is None else {"features": len(scene), "source": scene.source,
+                                                 "site": dict(scene.site), "crs": scene.crs.to_string()},
+            "assumptions": "open ground (no shade, svf 1)" if scene is None else "flat ground, scene obstacles",
+            "z_m": float(z_m), "n_sectors": int(n_sectors), "crown_model": crown_model,
+            "svf_radius_m": float(svf_radius_m), "svf_cell_m": float(svf_cell_m),
+            "wind_height_m": None if wind_height_m is None else float(wind_height_m), "z0_m": float(z0_m),
+            "flux_options": dict(flux_options or {}), "inside_buildings": inside_buildings,
+            "indices": list(_indices.check_indices(indices)),
+            "qa_counts": {**u.attrs["qa_counts"], "tmrt_globe": int((source == "globe").sum()),
+                          "inside_building": int(inside.sum()), "tmrt_fluxes": int((source == "fluxes").sum()),
+                          "tmrt_missing": int(np.isnan(tmrt).sum())},
+            **DECISIONS}
     out.attrs["environment"] = meta
     return out
 
@@ -251,7 +242,10 @@ def _num(frame: pd.DataFrame, name: str, n: int) -> np.ndarray:
 
 
 def _rows(times, positions: pd.DataFrame, weather: pd.DataFrame, grid: bool):
-    """Row times, positions and weather as flat arrays (a grid is spread position-major)."""
+    """Row times and weather as flat arrays, the positions once each, and each row's position.
+
+    A grid is spread position-major: row ``i * T + j`` is position *i* at time *j*.
+    """
     idx = times if isinstance(times, pd.DatetimeIndex) else pd.DatetimeIndex(times)
     if idx.tz is None:
         raise InputError("times have no time zone", where=_WHERE,
@@ -269,23 +263,38 @@ def _rows(times, positions: pd.DataFrame, weather: pd.DataFrame, grid: bool):
     wx = {c: _num(weather, c, n_t) for c in WEATHER_COLUMNS}
     if C.GHI_WM2 not in weather.columns:
         wx[C.GHI_WM2] = None  # no measured irradiance: the clear sky
-    if grid:
-        pos = {c: np.repeat(v, n_t) for c, v in pos.items()}
-        wx = {c: None if v is None else np.tile(v, n_pos) for c, v in wx.items()}
-        idx = pd.DatetimeIndex(np.tile(idx.as_unit("ns").asi8, n_pos).astype("datetime64[ns]")).tz_localize("UTC")
-    elif n_pos != n_t:
-        raise InputError(f"{n_pos} positions for {n_t} times", where=_WHERE,
-                         fix="give one position per time, or grid=True for every position at every time")
-    return idx.rename(C.TIME), pos, wx
+    if not grid:
+        if n_pos != n_t:
+            raise InputError(f"{n_pos} positions for {n_t} times", where=_WHERE,
+                             fix="give one position per time, or grid=True for every position at every time")
+        return idx.rename(C.TIME), pos, wx, np.arange(n_t)
+    wx = {c: None if v is None else np.tile(v, n_pos) for c, v in wx.items()}
+    idx = pd.DatetimeIndex(np.tile(idx.as_unit("ns").asi8, n_pos).astype("datetime64[ns]")).tz_localize("UTC")
+    return idx.rename(C.TIME), pos, wx, np.repeat(np.arange(n_pos), n_t)
 
 
-def _local_xy(pos: dict, scene: Scene | None):
-    """Local x/y of every row: projected from lon/lat into the scene's frame, else x_m/y_m."""
+def _check_options(scene, inside_buildings: str, wind: np.ndarray, wind_height_m) -> None:
+    if inside_buildings not in ("flag", "snap"):
+        raise InputError(f"inside_buildings must be 'flag' or 'snap', got {inside_buildings!r}",
+                         where=_WHERE, fix="use 'flag' (default) or 'snap'")
+    if scene is not None and not isinstance(scene, Scene):
+        raise InputError(f"scene must be a Scene (load_scene), got {type(scene).__name__}", where=_WHERE,
+                         fix="load it with walkcomfort.environment.scene.load_scene(path)")
+    if np.isfinite(wind).any() and wind_height_m is None:  # decision: never guessed (module docstring)
+        raise InputError("the wind sensor height is not known", where=_WHERE,
+                         fix="state it: [sensors] wind_height_m in session.toml for a recorded walk, "
+                             "the weather source's height (10 m for a weather file) for a planned one")
+
+
+def _local_xy(pos: dict, scene: Scene | None, site: dict):
+    """Local x/y of every position: lon/lat projected into the scene's frame (or, on open ground,
+    a frame at the site), else the given x_m/y_m."""
     has_ll = bool(np.isfinite(pos[C.LAT]).any())
-    if scene is not None and has_ll:
-        x, y = scene.project(pos[C.LON], pos[C.LAT])
+    if has_ll:
+        frame = scene if scene is not None else LocalFrame(site["lon"], site["lat"])
+        x, y = frame.project(pos[C.LON], pos[C.LAT])
         return np.asarray(x, float), np.asarray(y, float)
-    if not has_ll and (scene is None or not np.isfinite(pos[C.X_M]).any()):
+    if scene is None or not np.isfinite(pos[C.X_M]).any():
         raise InputError("positions have neither lon/lat nor x_m/y_m with a scene", where=_WHERE,
                          fix="give lon/lat per row (GPS), or x_m/y_m together with the scene they refer to")
     return pos[C.X_M], pos[C.Y_M]
@@ -300,6 +309,9 @@ def _site(site: dict | None, scene: Scene | None, pos: dict) -> dict:
                 "elev_m": float(scene.site.get("elev_m", 0.0))}
     lon, lat, elev = pos[C.LON], pos[C.LAT], pos[C.ELEV_M]
     ok = np.isfinite(lon) & np.isfinite(lat)
+    if not ok.any():
+        raise InputError("positions have neither lon/lat nor x_m/y_m with a scene", where=_WHERE,
+                         fix="give lon/lat per row (GPS), or x_m/y_m together with the scene they refer to")
     return {"lat": float((lat[ok].min() + lat[ok].max()) / 2), "lon": float((lon[ok].min() + lon[ok].max()) / 2),
             "elev_m": float(np.median(elev[np.isfinite(elev)])) if np.isfinite(elev).any() else 0.0}
 
@@ -423,13 +435,11 @@ def _sky_view_rows(scene, x, y, z, n_sectors, radius_m, cell_m):
     return svf, crowns
 
 
-def _given_sky_view(sky_view, n_rows: int, n_pos: int, grid: bool):
+def _given_sky_view(sky_view, n_pos: int):
     svf, crowns = (np.asarray(v, dtype=float).reshape(-1) for v in sky_view)
     if svf.size != n_pos or crowns.size != n_pos:
         raise InputError(f"sky_view has {svf.size} values for {n_pos} positions", where=_WHERE,
                          fix="give (svf, sky_frac_crowns) per position, as chain.sky_view returns them")
-    if grid:
-        return np.repeat(svf, n_rows // max(n_pos, 1)), np.repeat(crowns, n_rows // max(n_pos, 1))
     return svf, crowns
 
 
