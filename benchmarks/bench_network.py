@@ -37,22 +37,22 @@ from walkcomfort.network.engines import run_job  # noqa: E402
 from walkcomfort.network.segments import network_from_geojson  # noqa: E402
 from walkcomfort.network.synthetic import _lonlat, grid_network, grid_scene  # noqa: E402
 
-N_X, N_Y, BLOCK_M = 26, 40, 100.0     # 26 x 40 streets: 2,014 block segments
+N_X, N_Y, BLOCK_M = 26, 40, 100.0     # 26 x 40 streets: 2,014 block segments (more streets east for more)
 LON0, LAT0 = -3.70, 40.42
 
 
-def street_trees_scheme(scene_geojson: dict):
+def street_trees_scheme(scene_geojson: dict, n_x: int = N_X, n_y: int = N_Y):
     """A scheme adding a tree every 25 m along every street (between the crossings)."""
     from walkcomfort.environment.scene import Scene
     from walkcomfort.routes.schemes import apply_scheme, scheme_from_geojson
 
     edits = []
-    for i in range(N_X):
-        for j in range(N_Y):
+    for i in range(n_x):
+        for j in range(n_y):
             for k in (1, 2, 3):
                 for name, (x, y) in (("n", (i * BLOCK_M + 6.0, j * BLOCK_M + k * 25.0)),
                                      ("e", (i * BLOCK_M + k * 25.0, j * BLOCK_M + 6.0))):
-                    if (name == "n" and j == N_Y - 1) or (name == "e" and i == N_X - 1):
+                    if (name == "n" and j == n_y - 1) or (name == "e" and i == n_x - 1):
                         continue
                     edits.append({"type": "Feature",
                                   "properties": {"edit": "add", "id": f"new-{name}{i:03d}_{j:03d}_{k}", "kind": "tree",
@@ -68,11 +68,13 @@ def street_trees_scheme(scene_geojson: dict):
 def build_job(n_segments: int, hours: int, tile_size_m: float):
     from walkcomfort.routes.weather import StatedConditions
 
-    net = network_from_geojson(grid_network(N_X, N_Y, BLOCK_M, LON0, LAT0), segment_length_m=BLOCK_M, spacing_m=10.0)
+    # 26 x 40 streets give 2,014 segments; longer east-west for more (about 80 segments per extra street)
+    n_x = max(N_X, -(-(n_segments + N_Y) // (2 * N_Y - 1)))
+    net = network_from_geojson(grid_network(n_x, N_Y, BLOCK_M, LON0, LAT0), segment_length_m=BLOCK_M, spacing_m=10.0)
     if n_segments < net.n_segments:
         net = net.subset(net.segments.index[:n_segments])
-    base = grid_scene(N_X, N_Y, BLOCK_M, lon0=LON0, lat0=LAT0)
-    name, trees = street_trees_scheme(base)
+    base = grid_scene(n_x, N_Y, BLOCK_M, lon0=LON0, lat0=LAT0)
+    name, trees = street_trees_scheme(base, n_x, N_Y)
     times = time_range("2026-07-14T06:00", f"2026-07-14T{5 + hours:02d}:00", "1h", "Europe/Madrid")
     site = base["walkcomfort"]["site"]
     source = StatedConditions(t_air_c=33.0, rh_pct=35.0, wind_ms=2.0)
