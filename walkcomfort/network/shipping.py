@@ -62,9 +62,13 @@ def unpack_bundle(payload: dict) -> str:
     one machine never see half a bundle.
     """
     digest = str(payload["digest"])
+    known = _UNPACKED.get(digest)
+    if known is not None and Path(known, "manifest.json").is_file():
+        return known
     root = Path(tempfile.gettempdir()) / CACHE_DIR
     folder = root / digest.replace(":", "-")[:40]
     if (folder / "manifest.json").is_file() and _folder_digest(folder, payload) == digest:
+        _UNPACKED[digest] = str(folder)
         return str(folder)
     root.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=".bundle.", dir=root))
@@ -82,7 +86,12 @@ def unpack_bundle(payload: dict) -> str:
             raise
     finally:
         shutil.rmtree(stage, ignore_errors=True)
+    _UNPACKED[digest] = str(folder)
     return str(folder)
+
+
+#: Bundles this process already wrote or checked, by digest (a worker runs many partitions).
+_UNPACKED: dict[str, str] = {}
 
 
 def _folder_digest(folder: Path, payload: dict) -> str | None:
