@@ -53,3 +53,52 @@ def test_session_report_of_a_real_ingest(demo_outputs):
     page = (root / "walks" / walk_id / "session_report.html").read_text()
     assert f"Session {walk_id}" in page and "all rows accounted for" in page
     assert "<td>gps</td><td>gps</td>" in page  # the per-source table from the real qa.json
+
+
+@pytest.mark.browser
+def test_difference_view_of_the_demo_canopy_on_the_streets(tmp_path, demo_dir, browser, served, artifacts_dir):
+    """The canopy scheme's street segments under the canopy show as better; far ones as no change."""
+    from shapely.geometry import shape
+
+    from walkcomfort.environment.geo import LocalFrame
+    from walkcomfort.report import palette as P
+
+    scheme = demo_dir / "schemes" / "canopy-placa.geojson"
+    assert main(["network", str(demo_dir / "streets.geojson"),
+                 "--scene", str(demo_dir / "scene.geojson"), "--scheme", str(scheme),
+        "--weather", str(demo_dir / "weather" / "design-day.csv"), "--logger-wind-height", "1.1",
+        "--start", "2026-07-15T13:00", "--end", "2026-07-15T15:00", "--step", "2h",
+        "--timezone", "Europe/Madrid", "--out", str(tmp_path / "net")]) == 0
+    assert main(["map", "--network", str(tmp_path / "net"), "--scheme", str(scheme), "--timezone", "Europe/Madrid",
+                 "-o", str(tmp_path / "demo.html")]) == 0
+    data = S.page_data((tmp_path / "demo.html").read_text())
+    streets = data["streets"]["canopy-placa"]
+    canopy = shape(json.loads(scheme.read_text())["features"][0]["geometry"])
+    frame = LocalFrame(canopy.centroid.x, canopy.centroid.y)
+
+    def metres(line):  # distance of a segment's vertices from the canopy's edge
+        from shapely.geometry import LineString, Polygon
+
+        lon, lat = zip(*canopy.exterior.coords, strict=True)
+        poly = Polygon(list(zip(*frame.project(lon, lat), strict=True)))
+        xs, ys = frame.project([p[1] for p in line], [p[0] for p in line])
+        return LineString(list(zip(xs, ys, strict=True))).distance(poly)
+
+    dist = [metres(line) for line in streets["c"]]
+    near = [i for i, d in enumerate(dist) if d < 2.0]
+    far = [i for i, d in enumerate(dist) if d > 150.0]
+    assert near and far
+    browser.allowed_origin = served.origin  # the server serves this test's folder
+    page = browser.new_page(1280, 860)
+    page.goto(served.url("demo.html"))
+    page.wait_for_selector("html[data-walkcomfort-ready]", timeout=15_000)
+    page.locator("select.wc-scheme").select_option("canopy-placa")
+    page.locator("input[name=wc-colouring][value=difference]").check()
+    page.locator("select.wc-metric").select_option("utci")
+    page.wait_for_function("() => walkcomfortState.metric === 'utci' && document.querySelectorAll('path.wc-street').length > 0")
+    strokes = page.locator("path.wc-street").evaluate_all("els => els.map(e => e.getAttribute('stroke'))")
+    assert len(strokes) == len(streets["c"])
+    better = {P.DIFF_STOPS[3], P.DIFF_STOPS[4]}
+    assert all(strokes[i] in better for i in near), [strokes[i] for i in near]
+    assert all(strokes[i] == P.DIFF_STOPS[P.DIFF_NONE] for i in far), [strokes[i] for i in far]
+    page.screenshot(path=str(artifacts_dir / "demo_canopy_difference_streets.png"))

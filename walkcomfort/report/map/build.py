@@ -243,7 +243,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     data["cfg"] = legend_config(routes["scales"] if routes else None, bool(routes and routes["comfort_from_model"]),
                                 street_scale, ST.hours_keys(street_scale) if street_scale else None, error_source)
     data["context"] = _context(context, routes, label_of)
-    data["title"] = title or ("Predicted walking comfort" if predictions is not None else "Recorded walks")
+    data["title"] = title or ("Predicted walking comfort" if predictions is not None else
+                              "Predicted comfort on the street network" if net_docs else "Recorded walks")
     lat, lon = _points_of(data)
     data["bounds"] = [[min(lat), min(lon)], [max(lat), max(lon)]] if lat else None
     alone = predictions is None  # over predicted routes the extra layers start switched off
@@ -259,7 +260,18 @@ def _add_streets(data: dict, net_docs: list, times: str | None, shown: list, dec
     data["streets"] = {str(d["walkcomfort"]["scheme"]): ST.network_payload(d, scale, int(decimals)) for d in net_docs}
     data["street_times"] = times or "the network batch's hours"
     shown.extend(s for s in data["streets"] if s not in shown)
+    if data["routes"] is None:
+        data["open"] = _street_opening(data["streets"])
     return scale
+
+
+def _street_opening(streets: dict) -> dict:
+    """Without routes: the scheme whose streets gain most expected comfortable hours, in the difference view."""
+    gains = {name: sum(v or 0.0 for v in s["v"]["d_expected_comfortable_h"]) for name, s in streets.items()
+             if s["change"]}
+    if not gains:
+        return {"scheme": next(iter(streets)), "colouring": "comfort", "metric": "comfort"}
+    return {"scheme": max(gains, key=lambda k: (gains[k], k)), "colouring": "difference", "metric": "comfort"}
 
 
 def _context(context: dict | None, routes: dict | None, label_of) -> dict:

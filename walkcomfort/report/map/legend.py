@@ -20,13 +20,14 @@ NETWORK_NOTE = ("Each street hour is a short walk along the segment with no expo
 
 #: how each difference measure is named, its unit, and what "better" means
 MEASURES = {
-    "comfort": {"title": "Expected comfortable minutes", "point": "chance of feeling comfortable",
+    "comfort": {"title": "Expected comfortable minutes", "short": "expected comfortable minutes",
+                "point": "chance of feeling comfortable",
                 "unit": "points", "better": "more comfortable", "worse": "less comfortable",
                 "street": "expected comfortable hours", "street_unit": "h"},
-    "heat": {"title": "Heat dose", "point": "heat-dose rate, UTCI above 26 °C", "unit": "°C",
+    "heat": {"title": "Heat dose", "short": "heat dose", "point": "heat-dose rate, UTCI above 26 °C", "unit": "°C",
              "better": "less heat", "worse": "more heat",
              "street": "hours with UTCI above 32 °C", "street_unit": "h"},
-    "utci": {"title": "UTCI", "point": "UTCI", "unit": "°C", "better": "cooler", "worse": "hotter",
+    "utci": {"title": "UTCI", "short": "UTCI", "point": "UTCI", "unit": "°C", "better": "cooler", "worse": "hotter",
              "street": "mean UTCI", "street_unit": "°C"},
 }
 

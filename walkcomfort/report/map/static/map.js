@@ -473,6 +473,8 @@
       ui.dep.addEventListener("input", function () { S.dep = +ui.dep.value; redraw(); });
       ui.prev.addEventListener("click", function () { if (S.dep > 0) { S.dep -= 1; redraw(); } });
       ui.next.addEventListener("click", function () { if (S.dep < r.deps.length - 1) { S.dep += 1; redraw(); } });
+    }
+    if (r || D.streets) {
       g = el("fieldset", "wc-colourings");
       g.appendChild(el("legend", null, "Colour by"));
       ui.colourings = {};
@@ -515,6 +517,8 @@
       ui.depLabel.textContent = r.deps[S.dep].label;
       ui.prev.disabled = S.dep <= 0;
       ui.next.disabled = S.dep >= r.deps.length - 1;
+    }
+    if (ui.colourings) {
       ui.colourings[S.colouring].checked = true;
       ui.metric.value = S.metric;
       ui.metricField.hidden = S.colouring !== "difference";
@@ -525,9 +529,13 @@
   function refreshStatus() {
     var r = routes(), names = {comfort: "predicted comfort", utci: "UTCI band", shade: "shade"}, text;
     if (!ui.status) { return; }
-    if (!r) { ui.status.textContent = "Showing: " + schemeLabel(S.scheme); return; }
+    if (!r) {
+      ui.status.textContent = "Showing: " + schemeLabel(S.scheme) + (D.streets ? " \u00b7 " + (diffOn() ?
+        "difference from the base in " + cfg.measures[S.metric].short : names[S.colouring] || "the base") : "");
+      return;
+    }
     text = "Showing: " + schemeLabel(S.scheme) + " \u00b7 departing " + r.deps[S.dep].label + " \u00b7 ";
-    text += diffOn() ? "difference from the base in " + cfg.measures[S.metric].title.toLowerCase() :
+    text += diffOn() ? "difference from the base in " + cfg.measures[S.metric].short :
       (S.colouring === "difference" ? "the base (no difference to show)" : names[S.colouring]);
     ui.status.textContent = text;
   }
@@ -581,6 +589,8 @@
     var r = routes(), narrow = window.innerWidth < NARROW, b = D.bounds;
     if (r) {
       S.scheme = r.open.scheme; S.dep = r.open.dep; S.colouring = r.open.colouring; S.metric = r.open.metric;
+    } else if (D.open) {
+      S.scheme = D.open.scheme; S.colouring = D.open.colouring; S.metric = D.open.metric;
     } else { S.scheme = D.schemes.length ? D.schemes[0].name : ""; }
     fromAddress(r);
     map = L.map("wc-map", {zoomControl: true, preferCanvas: false, zoomSnap: 0.25});
