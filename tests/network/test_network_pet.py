@@ -49,3 +49,19 @@ def test_a_utci_job_is_unchanged_by_the_option(tmp_path):
     _, pet = _plan(tmp_path, index="pet")
     assert plain.digest == utci.digest != pet.digest  # a PET job never resumes into a UTCI one
     assert "indices" not in plain.parameters["context"]
+
+
+def test_wbgt_hours_above_a_chosen_limit_per_segment(tmp_path):
+    from walkcomfort.network.engines import run_job
+    from walkcomfort.network.summaries import summary_from_results
+
+    _, job = _plan(tmp_path, wbgt_limit=24.0)
+    assert job.parameters["context"]["indices"] == ["wbgt"]
+    assert run_job(job, tmp_path / "out").ok
+    rows = read_segment_hours(tmp_path / "out")
+    assert rows["wbgt_c"].between(20.0, 35.0).all() and (rows["wbgt_limit_c"] == 24.0).all()
+    summary = summary_from_results(tmp_path / "out")
+    # from the definition: hours = number of segment-hours above the limit x the 1 h step
+    above = (rows["wbgt_c"] > 24.0).groupby([rows[C.SEGMENT_ID], rows["scheme"]]).sum().astype(float)
+    np.testing.assert_allclose(summary["wbgt_h_above_limit"].to_numpy(), above.reindex(summary.index).to_numpy())
+    assert (summary["wbgt_limit_c"] == 24.0).all()

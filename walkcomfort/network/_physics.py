@@ -32,6 +32,7 @@ from walkcomfort import columns as C
 from walkcomfort.environment import chain
 from walkcomfort.environment.pet import PET_C
 from walkcomfort.environment.scene import Scene
+from walkcomfort.environment.wbgt import WBGT_C
 from walkcomfort.network.partition import P_COLUMNS, Partition, aggregate_points
 from walkcomfort.network.tiling import SVF_RADIUS_M
 
@@ -80,7 +81,9 @@ def point_environment(part: Partition, scene=None) -> dict[str, np.ndarray]:
             C.QA_UTCI_RANGE: nt(C.QA_UTCI_RANGE).astype(bool),
             C.QA_LOW_SUN: np.broadcast_to(low, (n, t)).copy(),
             C.QA_INSIDE_BUILDING: nt(C.QA_INSIDE_BUILDING).astype(bool),
-            **({PET_C: nt(PET_C)} if PET_C in env.columns else {})}  # network --index pet
+            **({PET_C: nt(PET_C)} if PET_C in env.columns else {}),  # network --index pet
+            **({WBGT_C: nt(WBGT_C), "wbgt_limit_c": np.full(t, float(ctx["wbgt_limit_c"]))}  # --wbgt-limit
+               if WBGT_C in env.columns else {})}
 
 
 #: Sky view factors already computed in this process, by tile content (time chunks of one

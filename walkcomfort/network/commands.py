@@ -23,7 +23,7 @@ EXIT_PARTITIONS_FAILED = 3
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
                     min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0,
-                    daytime=False, index="utci"):
+                    daytime=False, index="utci", wbgt_limit=None):
     """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
     from walkcomfort.network.batch import BASE, plan_job, sunlit_times, time_range
     from walkcomfort.network.segments import load_network
@@ -75,6 +75,9 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
                "predictor": predictor}
     if index == "pet":  # only then: a UTCI job keeps its digest
         context["indices"] = ["pet"]
+    if wbgt_limit is not None:
+        context["indices"] = [*context.get("indices", []), "wbgt"]
+        context["wbgt_limit_c"] = float(wbgt_limit)
     weather = weather.copy()
     weather.attrs = {}
     job = plan_job(network, times, scenes, weather, tile_size_m=tile_size_m, time_chunk=time_chunk,
@@ -157,10 +160,13 @@ def write_outputs(out_dir, network, job, report) -> dict:
               help="Output folder.")
 @click.option("--index", type=click.Choice(["utci", "pet"]), default="utci", show_default=True,
               help="Also PET of the reference person per segment x time (pet_c; mean_pet_c, max_pet_c per segment).")
+@click.option("--wbgt-limit", type=float, default=None,
+              help="Also estimated WBGT per segment x time and the hours above this limit [°C] per segment. "
+                   "A planning estimate, not a heat-safety assessment.")
 def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model,
             start, end, step, timezone, daytime, segment_length_m, spacing_m, tile_size_m, time_chunk,
             min_sun_elev_deg, engine, scheduler, workers, threads_per_worker, write_on, retries, resume, overwrite,
-            out_dir, index="utci"):
+            out_dir, index="utci", wbgt_limit=None):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -176,7 +182,8 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
         raise InputError("--scheduler was given with --engine in-process", fix="add --engine dask")
     net, job = plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone or "UTC",
                                weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
-                               min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime, index=index)
+                               min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime, index=index,
+                               wbgt_limit=wbgt_limit)
     click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
                f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
                err=True)
@@ -192,6 +199,11 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
     rate = report.written_rows / seconds if seconds > 0 else float("nan")
     click.echo(f"rows expected {report.expected_rows}, written {report.written_rows} "
                f"({seconds:.1f} s, {rate:.0f} rows/s) -> {out_dir}", err=True)
+    if wbgt_limit is not None:
+        from walkcomfort.environment.wbgt import PLANNING_CAUTION
+
+        click.echo(f"note: wbgt_h_above_limit counts the hours with estimated WBGT above {wbgt_limit:g} °C. "
+                   f"{PLANNING_CAUTION}", err=True)
     if len(net.quarantine):
         click.echo(f"{len(net.quarantine)} network features quarantined: see {Path(out_dir) / QUARANTINE_CSV}",
                    err=True)

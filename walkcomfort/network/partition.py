@@ -20,7 +20,7 @@ P_COLUMNS = tuple(f"p_{c}" for c in C.COMFORT_CLASSES)
 
 #: Columns of a partition's result (after the index ``time``), in this order.
 ROW_COLUMNS = (C.SEGMENT_ID, "scheme", C.TILE_ID, C.SUN_ELEV_DEG, C.SUN_AZIM_DEG, C.SHADE_FRAC, C.SVF,
-               C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.TMRT_C, C.UTCI_C, C.UTCI_BAND, "pet_c", *P_COLUMNS,
+               C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.TMRT_C, C.UTCI_C, C.UTCI_BAND, "pet_c", "wbgt_c", "wbgt_limit_c", *P_COLUMNS,
                "comfort_class", "predictor", C.QA_LOW_SUN, C.QA_UTCI_RANGE, C.QA_INSIDE_BUILDING, "n_points")
 
 

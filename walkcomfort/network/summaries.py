@@ -83,6 +83,11 @@ def segment_summary(rows: pd.DataFrame, base: str = BASE, step_h: float | None =
                         "max_utci_c": g[C.UTCI_C].max(), "mean_shade_frac": g[C.SHADE_FRAC].mean()})
     if "pet_c" in df.columns:  # network --index pet
         out["mean_pet_c"], out["max_pet_c"] = g["pet_c"].mean(), g["pet_c"].max()
+    if "wbgt_limit_c" in df.columns:  # network --wbgt-limit: hours with the segment's WBGT above the limit
+        df["_wbgt"] = (df["wbgt_c"].to_numpy(float) > df["wbgt_limit_c"].to_numpy(float)).astype(float) * step
+        g = df.groupby([C.SEGMENT_ID, "scheme"], sort=True)
+        out["wbgt_limit_c"], out["wbgt_h_above_limit"] = g["wbgt_limit_c"].first(), g["_wbgt"].sum()
+        out["max_wbgt_c"] = g["wbgt_c"].max()
     for c in CHANGE_COLUMNS:
         out[c] = np.nan
     schemes = sorted(df["scheme"].unique())
