@@ -70,7 +70,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
 
         predictor = Predictor.from_bundle(model).label
         bundle = pack_bundle(model)  # travels with the job: workers never see this machine's path
-    context = {"wind_height_m": float(weather.attrs.get("wind_height_m", getattr(source, "wind_height_m", 10.0))),
+    context = {"wind_height_m": float(weather.attrs.get("wind_height_m", source.wind_height_m)),
                "weather": getattr(source, "label", "weather"), "model": bundle["digest"] if bundle else None,
                "predictor": predictor}
     if index == "pet":  # only then: a UTCI job keeps its digest
@@ -143,7 +143,8 @@ def write_outputs(out_dir, network, job, report) -> dict:
               help="Side of a spatial tile [m].")
 @click.option("--time-chunk", default=24, show_default=True, type=int, help="Time steps per partition.")
 @click.option("--lowest-sun", "min_sun_elev_deg", default=5.0, show_default=True, type=float,
-              help="Lowest sun elevation used for shade [°]; lower suns count as blocked and are flagged.")
+              help="Lowest sun elevation whose shadows each tile carries in full [°]; at a lower sun a "
+                   "shadow from beyond the tile can be missed, and those times are flagged (qa_low_sun).")
 @click.option("--engine", type=click.Choice(["in-process", "dask"]), default="in-process", show_default=True,
               help="Where partitions run.")
 @click.option("--scheduler", help="Address of a running Dask scheduler (tcp://host:8786); default a local cluster.")
