@@ -60,6 +60,8 @@ def main(argv=None) -> None:
     from walkcomfort.environment import pet as P
     from walkcomfort.session.heat_safety import wbgt_from_logger
 
+    _, iwall, _ = _timed(lambda: __import__("pythermalcomfort.models"))  # one-off, paid by the first PET call
+    print(f"import pythermalcomfort.models: {iwall:.2f} s (once per process; not in the times below)")
     walk = invented_walk(int(args.hours * 3600))
     n = len(walk)
     print(f"walk: {n} rows at 1 s ({args.hours:g} h)")
