@@ -25,6 +25,7 @@ from walkcomfort.errors import WalkcomfortError
 VERBS: dict[str, tuple[str, str, str]] = {
     "check": ("walkcomfort.session.commands", "check", "Validate a session folder; write nothing."),
     "ingest": ("walkcomfort.session.commands", "ingest", "Align one or many session folders on one timeline with QA."),
+    "scene": ("walkcomfort.environment.commands", "scene", "Build a scene GeoJSON from a local OpenStreetMap extract."),
     "thermal": ("walkcomfort.environment.commands", "thermal", "Add sun, shade, sky view, Tmrt and UTCI to timelines."),
     "frames": ("walkcomfort.imagery.commands", "frames", "Compute camera-frame cues (sky, greenery, people, quality)."),
     "share": ("walkcomfort.imagery.commands", "share", "Write a shareable copy of a session: faces blurred, track ends trimmed."),

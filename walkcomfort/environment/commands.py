@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections import Counter
 from pathlib import Path
 
 import click
@@ -72,8 +73,10 @@ def _irradiance_table(path: Path):
                    "the nearest wall for shade and sky view.")
 @click.option("--extra-index", "extra_index", type=click.Choice(["pet", "wbgt"]), multiple=True,
               help="Also compute PET of the reference person (pet_c, pet_class) and/or WBGT (wbgt_c). Repeatable.")
+@click.option("--strict", is_flag=True,
+              help="Refuse walks that lie mostly outside the scene's extent instead of warning.")
 def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe, crown_model, inside,
-            extra_index=()):
+            extra_index=(), strict=False):
     """Add sun, shade, sky view, Tmrt and UTCI to ingested timelines (TIMELINES: walk or output folders).
 
     Tmrt comes from the globe thermometer (ISO 7726) where it was logged, otherwise from
@@ -84,6 +87,7 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
 
     from walkcomfort import _io
     from walkcomfort import columns as C
+    from walkcomfort.environment.coverage import check_scene_coverage
     from walkcomfort.environment.pipeline import ENV_COLUMNS, add_environment
     from walkcomfort.environment.scene import load_scene
     from walkcomfort.session.timeline import find_timelines
@@ -97,6 +101,11 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
     for path in files:
         df, meta = _read(path)
         walk_id = str(df.attrs["session"].get("walk_id") or path.parent.name)
+        if scene is not None and C.LAT in df.columns:
+            note = check_scene_coverage(scene, df[C.LON], df[C.LAT], f"walk {walk_id}", strict=strict,
+                                        where=scene_path)
+            if note:
+                click.echo(f"warning: {note}", err=True)
         again = [c for c in ENV_COLUMNS if c in df.columns]
         if again:
             click.echo(f"{walk_id}: replacing environment columns from an earlier run ({len(again)} columns)")
@@ -144,3 +153,69 @@ def thermal(timelines, scene_path, out_dir, irradiance, z_m, n_sectors, no_globe
             click.echo(f"  caution: {hot} rows at very strong or extreme heat stress (UTCI > "
                        f"{HEAT_CAUTION_UTCI_C:g} °C). On field walks follow local occupational-health guidance "
                        "(rest, water, shade, stopping rules); these figures are not medical advice.")
+
+
+@click.command()
+@click.argument("extract", type=click.Path(path_type=Path))
+@click.option("--out", "-o", "out_path", type=click.Path(path_type=Path), required=True,
+              help="Scene GeoJSON to write; the report goes beside it (<name>.report.json).")
+@click.option("--bbox", default=None, help="Keep features touching WEST,SOUTH,EAST,NORTH (degrees).")
+@click.option("--around", "route_paths", multiple=True, type=click.Path(path_type=Path),
+              help="Keep features within --buffer of these routes (GeoJSON lines or GPX); repeatable.")
+@click.option("--buffer", "buffer_m", type=float, default=150.0, show_default=True,
+              help="Distance around the --around routes [m].")
+@click.option("--storey-height", type=float, default=3.0, show_default=True,
+              help="Height of one storey for buildings tagged with building:levels only [m].")
+@click.option("--default-height", type=float, default=9.0, show_default=True,
+              help="Height of buildings with neither height nor building:levels [m].")
+@click.option("--tree-height", type=float, default=10.0, show_default=True,
+              help="Height of trees without a height tag [m].")
+@click.option("--crown-diameter", type=float, default=6.0, show_default=True,
+              help="Crown diameter of trees without diameter_crown [m].")
+@click.option("--tree-row-spacing", type=float, default=8.0, show_default=True,
+              help="Spacing of trees along natural=tree_row lines without a spacing tag [m].")
+def scene(extract, out_path, bbox, route_paths, buffer_m, storey_height, default_height, tree_height,
+          crown_diameter, tree_row_spacing):
+    """Build a scene GeoJSON from a local OpenStreetMap extract (.osm.pbf, .osm or a GeoJSON export).
+
+    Buildings take their height from `height`, else `building:levels` x storey height, else
+    the default (each records its source); trees come from natural=tree points and
+    natural=tree_row lines; roofs, shelters, canopies and covered ways become canopies.
+    Invalid outlines are repaired; everything dropped is listed with its reason in the
+    report. Heights from defaults are estimates: check them before design decisions.
+    """
+    from walkcomfort import _io
+    from walkcomfort.environment.osm import read_osm
+    from walkcomfort.environment.osmscene import SceneRules, build_scene, clip_around, parse_bbox, read_lines_lonlat
+
+    for name, v in (("--storey-height", storey_height), ("--default-height", default_height),
+                    ("--tree-height", tree_height), ("--crown-diameter", crown_diameter),
+                    ("--tree-row-spacing", tree_row_spacing)):
+        if not v > 0:
+            raise InputError(f"{name} {v!r} is not positive", where=name, fix="give a length in metres")
+    if bbox is not None and route_paths:
+        raise InputError("both --bbox and --around were given", where="--bbox", fix="clip by one of them")
+    clip = parse_bbox(bbox) if bbox is not None else None
+    if route_paths:
+        clip = clip_around([ln for p in route_paths for ln in read_lines_lonlat(p)], buffer_m)
+    rules = SceneRules(storey_height_m=storey_height, default_height_m=default_height, tree_height_m=tree_height,
+                       crown_diameter_m=crown_diameter, tree_row_spacing_m=tree_row_spacing)
+    osm = read_osm(extract)
+    built, report = build_scene(osm, rules, clip_lonlat=clip)
+    prov = _io.provenance(inputs=[extract, *route_paths], parameters={
+        "bbox": bbox, "buffer_m": buffer_m if route_paths else None, "rules": report["rules"]})
+    report["provenance"] = prov
+    report_path = out_path.with_name(out_path.name.removesuffix(".geojson") + ".report.json")
+    _io.write_json(out_path, built.to_geojson())
+    _io.write_json(report_path, report)
+    c, h = report["counts"], report["height_sources"]
+    click.echo(f"{out_path}: {c.get('buildings', 0)} buildings (height from height {h.get('height', 0)}, "
+               f"building:levels {h.get('building:levels', 0)}, default {h.get('default', 0)}), "
+               f"{c.get('trees', 0) + c.get('tree_row_trees', 0)} trees ({c.get('tree_row_trees', 0)} from tree rows), "
+               f"{c.get('canopies', 0)} canopies")
+    dropped = Counter(d["kind"] for d in report["dropped"])
+    click.echo(f"  repaired outlines {len(report['repaired'])}; set aside {len(report['dropped'])} "
+               f"({', '.join(f'{k} {v}' for k, v in sorted(dropped.items())) or 'none'}) — reasons in {report_path}")
+    if h.get("default", 0):
+        click.echo(f"  note: {h['default']} buildings have no height in OpenStreetMap and stand at the default "
+                   f"{default_height:g} m; check them (or tag them) before drawing conclusions")

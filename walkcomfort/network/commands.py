@@ -23,7 +23,8 @@ EXIT_PARTITIONS_FAILED = 3
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
                     min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0,
-                    daytime=False, index="utci", wbgt_limit=None):
+                    daytime=False, index="utci", wbgt_limit=None, strict=False, weather_format=None,
+                    weather_map=None):
     """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
     from walkcomfort.network.batch import BASE, plan_job, sunlit_times, time_range
     from walkcomfort.network.segments import load_network
@@ -36,6 +37,14 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
 
         scene = load_scene(scene_path)
     network = load_network(streets, segment_length_m, spacing_m, crs=getattr(scene, "crs", None))
+    if scene is not None:
+        from walkcomfort.environment.coverage import check_scene_coverage, scene_coverage
+
+        lon, lat = network.points[C.LON], network.points[C.LAT]
+        note = check_scene_coverage(scene, lon, lat, "the street network", strict=strict, where=scene_path)
+        if note:
+            mostly = scene_coverage(scene, lon, lat).mostly_outside
+            click.echo(f"{'warning' if mostly else 'note'}: {note}", err=True)
     scenes = {BASE: scene.to_geojson() if scene is not None else None}
     for p in scheme_paths:
         scheme = load_scheme(p)
@@ -51,7 +60,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     site = {"lat": float(site_meta.get("lat", network.points[C.LAT].mean())),
             "lon": float(site_meta.get("lon", network.points[C.LON].mean())),
             "elev_m": float(site_meta.get("elev_m", 0.0))}
-    kw = {"max_distance_km": max_station_km}
+    kw = {"max_distance_km": max_station_km, "fmt": weather_format, "column_map": weather_map}
     if logger_wind_height is not None:
         kw["wind_height_m"] = logger_wind_height
     if daytime:
@@ -60,7 +69,7 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
         if len(times) == 0:
             raise InputError(f"none of the {n_all} times from {start} to {end} has the sun above the horizon",
                              fix="choose daytime hours or leave out --daytime")
-    source = open_weather(weather_path, parse_conditions(conditions), **kw)
+    source = open_weather(weather_path, parse_conditions(conditions, complete=weather_path is None), **kw)
     weather = source.conditions(times, site["lat"], site["lon"], site["elev_m"])
     predictor, bundle = "physics-rule", None
     if model:
@@ -122,7 +131,12 @@ def write_outputs(out_dir, network, job, report) -> dict:
               help="Scheme GeoJSON to compare with the base scene; repeat for several.")
 @click.option("--weather", "weather_path", type=click.Path(dir_okay=False, path_type=Path),
               help="Weather file (EPW/TMY) or logger series.")
-@click.option("--conditions", help="Stated weather instead of a file: 't_air_c=33,rh_pct=30,wind_ms=1.5'.")
+@click.option("--weather-format", default=None,
+              help="Read --weather as this format (epw, tmy3, pvgis-tmy, nsrdb, …) instead of recognising it.")
+@click.option("--weather-map", type=click.Path(dir_okay=False, path_type=Path), default=None,
+              help="TOML column map for a logger CSV given as --weather (see `walkcomfort route --help`).")
+@click.option("--conditions", help="Stated weather instead of a file: 't_air_c=33,rh_pct=30,wind_ms=1.5' "
+                                   "(with --weather: fills only what the file lacks).")
 @click.option("--logger-wind-height", type=float, default=None,
               help="Wind sensor height of a logger series [m] (if the file does not say).")
 @click.option("--max-station-km", type=float, default=50.0, show_default=True,
@@ -164,10 +178,11 @@ def write_outputs(out_dir, network, job, report) -> dict:
 @click.option("--wbgt-limit", type=float, default=None,
               help="Also estimated WBGT per segment x time and the hours above this limit [°C] per segment. "
                    "A planning estimate, not a heat-safety assessment.")
-def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_wind_height, max_station_km, model,
-            start, end, step, timezone, daytime, segment_length_m, spacing_m, tile_size_m, time_chunk,
-            min_sun_elev_deg, engine, scheduler, workers, threads_per_worker, write_on, retries, resume, overwrite,
-            out_dir, index="utci", wbgt_limit=None):
+@click.option("--strict", is_flag=True, help="Refuse a network that lies mostly outside the scene's extent.")
+def network(streets, scene_path, scheme_paths, weather_path, weather_format, weather_map, conditions,
+            logger_wind_height, max_station_km, model, start, end, step, timezone, daytime, segment_length_m,
+            spacing_m, tile_size_m, time_chunk, min_sun_elev_deg, engine, scheduler, workers, threads_per_worker,
+            write_on, retries, resume, overwrite, out_dir, index="utci", wbgt_limit=None, strict=False):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -184,7 +199,8 @@ def network(streets, scene_path, scheme_paths, weather_path, conditions, logger_
     net, job = plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone or "UTC",
                                weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
                                min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime, index=index,
-                               wbgt_limit=wbgt_limit)
+                               wbgt_limit=wbgt_limit, strict=strict, weather_format=weather_format,
+                               weather_map=weather_map)
     click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
                f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
                err=True)

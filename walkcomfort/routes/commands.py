@@ -58,6 +58,8 @@ def route_options(f):
         click.option("--walker", default=None,
                      help="Walker attributes the model may use: 'clo=0.5,acclimatised=1,age_band=25-34'."),
         click.option("--no-reasons", is_flag=True, help="Skip per-point explanations (faster)."),
+        click.option("--strict", is_flag=True,
+                     help="Refuse routes that lie mostly outside the scene's extent instead of warning."),
     ]
     for o in reversed(opts):
         f = o(f)
@@ -68,7 +70,8 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
                    weather_path=None, conditions=None, design_day=None, season=None, model_path=None,
                    spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
                    logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None,
-                   actual_year=False, weather_format=None, weather_map=None, wbgt_limit=None, index="utci"):
+                   actual_year=False, weather_format=None, weather_map=None, wbgt_limit=None, index="utci",
+                   strict=False):
     """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
 
     Returns
@@ -90,6 +93,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         scene = load_scene(scene_path)
     route = load_route(route_path, spacing_m=spacing_m, dem=dem, route_id=route_id,
                        crs=scene.crs if scene is not None else None)
+    coverage_note = route_coverage(route, scene, strict, scene_path, echo)
     schemes = [load_scheme(p) for p in scheme_paths]
     if schemes and scene is None:
         raise InputError(f"scheme '{schemes[0].name}' edits a scene, but no scene was given", where=scheme_paths[0],
@@ -109,7 +113,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
     result = compare_schemes(route, schemes, deps, weather, scene=scene, predictor=predictor,
                              include_base=include_base, flat_speed_ms=flat_speed_ms, timezone=timezone,
                              walker=walker_attrs, explain=not no_reasons)
-    told = set(route.notices) | set(getattr(weather, "notices", []) or [])
+    told = set(route.notices) | set(getattr(weather, "notices", []) or []) | {coverage_note}
     for n in result.notices:
         if n not in told:
             echo(f"note: {n}")
@@ -133,6 +137,21 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
         prov = _io.provenance(inputs, params)
         written = _write(result, out_dir, prov, timezone)
     return result, written
+
+
+def route_coverage(route, scene, strict: bool, scene_path, echo) -> str | None:
+    """Warn (or refuse with ``strict``) when the route lies mostly outside the scene; the notice text."""
+    from walkcomfort import columns as C
+    from walkcomfort.environment.coverage import check_scene_coverage, scene_coverage
+
+    if scene is None:
+        return None
+    lon, lat = route.points[C.LON], route.points[C.LAT]
+    note = check_scene_coverage(scene, lon, lat, "the route", strict=strict, where=scene_path)
+    cov = scene_coverage(scene, lon, lat)
+    if note and cov is not None and cov.mostly_outside:
+        echo(f"warning: {note}")
+    return note
 
 
 def resolve_departures(weather, departures, timezone, design_day, season, echo):

@@ -445,21 +445,10 @@ def _scene_coverage_notices(route: Route, scene, margin_m: float = 50.0) -> list
     """A notice when (part of) the route lies outside the scene's extent: no obstacles there."""
     if scene is None or len(scene) == 0:
         return ["no scene (or an empty one): the route is walked over open ground, no shade and sky view 1"]
-    import shapely
-    from shapely.geometry import shape
+    from walkcomfort.environment.coverage import check_scene_coverage
 
-    geoms = [shape(f["geometry"]) for f in scene.features]
-    x0, y0, x1, y1 = shapely.total_bounds(np.array(geoms, dtype=object))
-    lon, lat = route.points[C.LON].to_numpy(float), route.points[C.LAT].to_numpy(float)
-    # the margin in degrees (1° of latitude ≈ 111 km; longitude shrinks with cos φ)
-    dlat = margin_m / 111_000.0
-    dlon = dlat / max(np.cos(np.radians(np.nanmean(lat))), 1e-6)
-    inside = (lon >= x0 - dlon) & (lon <= x1 + dlon) & (lat >= y0 - dlat) & (lat <= y1 + dlat)
-    if inside.all():
-        return []
-    share = 1.0 - inside.mean()
-    return [f"{share:.0%} of the route lies more than {margin_m:g} m outside the scene's extent: no buildings, "
-            "trees or canopies are known there, so it is walked as open ground"]
+    note = check_scene_coverage(scene, route.points[C.LON], route.points[C.LAT], "the route", margin_m=margin_m)
+    return [note] if note else []
 
 
 def scheme_inventory_empty() -> dict:

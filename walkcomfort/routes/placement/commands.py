@@ -7,7 +7,7 @@ from pathlib import Path
 import click
 
 from walkcomfort.errors import InputError
-from walkcomfort.routes.commands import parse_walker, resolve_departures, route_options
+from walkcomfort.routes.commands import parse_walker, resolve_departures, route_coverage, route_options
 
 
 def _weights(items, where: str) -> dict:
@@ -99,6 +99,8 @@ def run_advice(route_paths, out_dir, echo=None, **kw) -> dict:
     scene = load_scene(kw["scene_path"])
     routes = [load_route(p, spacing_m=kw["spacing_m"], dem=kw["dem"], route_id=kw["route_id"], crs=scene.crs)
               for p in route_paths]
+    for r in routes:
+        route_coverage(r, scene, kw["strict"], kw["scene_path"], echo)
     weather = open_weather(kw["weather_path"], parse_conditions(kw["conditions"], complete=kw["weather_path"] is None),
                            fmt=kw["weather_format"], column_map=kw["weather_map"],
                            typical=False if kw["actual_year"] else None,
