@@ -412,7 +412,10 @@
     else if (S.colouring === "utci") { title = "Streets: UTCI band of the mean UTCI"; }
     else if (S.colouring === "shade") { title = "Streets: mean share of direct sun blocked"; }
     else { title = "Streets: expected comfortable hours"; }
-    return section("streets", title, keys.map(function (x) { return key(x.colour, x.label, !!x.none); })
+    var used = {};
+    if (S.colouring === "utci") { s.k.utci.forEach(function (b) { used[b] = true; }); }
+    return section("streets", title, keys.filter(function (x, i) { return S.colouring !== "utci" || used[i]; })
+      .map(function (x) { return key(x.colour, x.label + (x.range ? " (" + x.range + ")" : ""), !!x.none); })
       .concat([el("div", "wc-caution", "Covers " + D.street_times + ". " + cfg.network_note)]));
   }
 
@@ -561,8 +564,9 @@
 
   function titleBlock(body) {
     var c = D.context || {}, t = el("table", "wc-context");
+    // what is shown stays readable with the block folded (phones)
     ui.status = el("div", "wc-status");
-    body.appendChild(ui.status);
+    body.parentNode.insertBefore(ui.status, body);
     [["Site", c.site], ["Date", c.date], ["Weather", c.weather], ["Design day", c.design_day],
      ["Walker", c.walker], ["Model", c.model]].forEach(function (p) { if (p[1]) { row(t, p[0], p[1]); } });
     body.appendChild(t);
@@ -629,7 +633,10 @@
     } else { map.setView([0, 0], 2); }
     map.on("zoomend", restyle);
     restyle();
-    window.addEventListener("beforeprint", function () { map.invalidateSize(); });
+    // the printed map is narrower (the panels move beside it): fit the data to it again
+    function refit() { map.invalidateSize(); if (b) { map.fitBounds(b, {padding: [12, 12], maxZoom: 18}); } }
+    window.addEventListener("beforeprint", refit);
+    if (window.matchMedia) { window.matchMedia("print").addEventListener("change", refit); }
     document.documentElement.setAttribute("data-walkcomfort-ready", "1");
   }
 
