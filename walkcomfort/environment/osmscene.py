@@ -163,11 +163,31 @@ class SceneBuilder:
         self.frame = frame
         self.clip = clip_local  # shapely polygon in local metres, or None
         self.items: list[tuple[object, dict]] = []
+        self._pre: dict = {}  # id(element) -> (local geometry, valid with area, inside the clip)
         self.report = SceneReport()
 
     # --- geometry helpers
     def _local(self, geom):
         return shapely.transform(geom, lambda xy: np.column_stack(self.frame.project(xy[:, 0], xy[:, 1])))
+
+    def prepare(self, elements) -> None:
+        """Project, validate and clip-test every element's geometry at once (one pyproj call, vectorised GEOS)."""
+        els = [e for e in elements if e.geometry is not None]
+        if not els:
+            return
+        geoms = np.empty(len(els), dtype=object)
+        geoms[:] = [e.geometry for e in els]
+        local = self._local(geoms)
+        usable = shapely.is_valid(geoms) & (shapely.area(geoms) > 0)
+        inside = np.ones(len(els), bool) if self.clip is None else shapely.intersects(self.clip, local)
+        self._pre = {id(e): (loc, ok, ins) for e, loc, ok, ins in zip(els, local, usable, inside, strict=True)}
+
+    def _prepared_outline(self, el: OsmElement):
+        """(local geometry, inside) of a valid polygonal element prepared in :meth:`prepare`, or None."""
+        pre = self._pre.get(id(el))
+        if pre is None or not pre[1] or el.geometry.geom_type not in ("Polygon", "MultiPolygon"):
+            return None
+        return pre[0], pre[2]
 
     def _inside(self, geom_local) -> bool:
         return self.clip is None or self.clip.intersects(geom_local)
@@ -183,6 +203,12 @@ class SceneBuilder:
         getattr(self, f"_add_{kind}")(el)
 
     def _outline(self, el: OsmElement, kind: str):
+        pre = self._prepared_outline(el)
+        if pre is not None:
+            if not pre[1]:
+                self.report.drop(el, kind, "outside the clip area")
+                return None
+            return pre[0]
         geom, note = _polygonal(el.geometry)
         if geom is None:
             self.report.drop(el, kind, note)
@@ -250,8 +276,13 @@ class SceneBuilder:
                 self.report.drop(el, "tree", f"a {el.geometry.geom_type} tree is not understood")
                 return
             el = OsmElement(el.osm_id, el.tags, geom.centroid)
-        local = self._local(el.geometry)
-        if not self._inside(local):
+        pre = self._pre.get(id(el))
+        if pre is not None:
+            local, inside = pre[0], bool(pre[2])
+        else:
+            local = self._local(el.geometry)
+            inside = self._inside(local)
+        if not inside:
             self.report.drop(el, "tree", "outside the clip area")
             return
         self.report.counts["trees"] += 1
@@ -312,6 +343,7 @@ def build_scene(osm: OsmData, rules: SceneRules | None = None, clip_lonlat=None,
     if clip_lonlat is not None:
         clip_local = shapely.transform(clip_lonlat, lambda xy: np.column_stack(frame.project(xy[:, 0], xy[:, 1])))
     builder = SceneBuilder(rules, frame, clip_local)
+    builder.prepare(osm.elements)
     for el in osm.elements:
         builder.add(el)
     scene = _to_scene(builder, frame, site)
