@@ -20,13 +20,12 @@ PACKAGE = ROOT / "walkcomfort"
 LINT = "import sys; from importlinter.cli import lint_imports_command; sys.exit(lint_imports_command())"
 
 #: Private names still imported from another module, in code other stages own (the physics
-#: modules' shared internals, a reader's record parser). Shrink it; never grow it.
+#: modules' shared internals). Shrink it; never grow it.
 KNOWN_PRIVATE_IMPORTS = {
     ("walkcomfort.environment.shade", "walkcomfort.environment.scene", "_prepare"),
     ("walkcomfort.environment.skyview", "walkcomfort.environment.shade", "_EMPTY"),
     ("walkcomfort.environment.skyview", "walkcomfort.environment.shade", "_arr"),
     ("walkcomfort.environment.skyview", "walkcomfort.environment.shade", "_obstacles"),
-    ("walkcomfort.imagery.share", "walkcomfort.session.readers.votes", "_json_records"),
 }
 
 

@@ -359,10 +359,10 @@ def _share_plain(s, stage: Path) -> dict:
 def _share_votes(s, stage: Path, pid: str, participant: str, guard: NoteGuard | None) -> dict:
     note_col, part_col = s.column("note"), s.column("participant")
     if s.format == "json":
-        from walkcomfort.session.readers.votes import _json_records
+        from walkcomfort.session.readers.votes import json_records
 
         obj = json.loads(s.abs_path.read_bytes().decode("utf-8-sig"))
-        recs = _json_records(s.abs_path, s)      # a fresh parse: the list that is edited and written
+        recs = json_records(s.abs_path, s)      # a fresh parse: the list that is edited and written
         n_part = n_note = 0
         for i, r in enumerate(recs):
             if part_col in r and str(r[part_col]).strip():

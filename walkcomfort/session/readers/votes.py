@@ -184,3 +184,7 @@ def _json_records(path: Path, spec) -> list[dict]:
         raise InputError(f"vote #{bad[0]} is not an object", where=spec.display,
                          fix='write each vote as {"time": ..., "comfort": ...}')
     return obj
+
+
+#: Public name for other modules (the shareable copy re-reads a votes JSON as the reader does).
+json_records = _json_records
