@@ -213,9 +213,11 @@ def scene(extract, out_path, bbox, route_paths, buffer_m, storey_height, default
                f"building:levels {h.get('building:levels', 0)}, default {h.get('default', 0)}), "
                f"{c.get('trees', 0) + c.get('tree_row_trees', 0)} trees ({c.get('tree_row_trees', 0)} from tree rows), "
                f"{c.get('canopies', 0)} canopies")
-    dropped = Counter(d["kind"] for d in report["dropped"])
-    click.echo(f"  repaired outlines {len(report['repaired'])}; set aside {len(report['dropped'])} "
-               f"({', '.join(f'{k} {v}' for k, v in sorted(dropped.items())) or 'none'}) — reasons in {report_path}")
+    outside = sum(1 for d in report["dropped"] if d["reason"] == "outside the clip area")
+    dropped = Counter(d["kind"] for d in report["dropped"] if d["reason"] != "outside the clip area")
+    click.echo(f"  repaired outlines {len(report['repaired'])}; outside the area {outside}; set aside for a problem "
+               f"{sum(dropped.values())} ({', '.join(f'{k} {v}' for k, v in sorted(dropped.items())) or 'none'}) "
+               f"— reasons in {report_path}")
     if h.get("default", 0):
         click.echo(f"  note: {h['default']} buildings have no height in OpenStreetMap and stand at the default "
                    f"{default_height:g} m; check them (or tag them) before drawing conclusions")
