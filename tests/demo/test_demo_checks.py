@@ -155,20 +155,30 @@ def test_votes_come_from_the_documented_process():
     assert n == len(v)
 
 
-def test_shade_after_sun_feels_better_than_shade_all_along():
-    """The relief term of the invented process: same UTCI now, different history."""
+def test_the_body_state_carries_heat_over_and_cooling_is_felt():
+    """The invented process: a first-order body state with a rate term (latent.py docstring)."""
     w = latent.Walker("X", 1.3, 1.0, 0.0, 0.5, "25-34", True)
-    n = 900
-    sun_then_shade = np.r_[np.full(600, 38.0), np.full(300, 30.0)]
+    n = 2700
+    sun_then_shade = np.r_[np.full(900, 38.0), np.full(1800, 30.0)]
     shade_all_along = np.full(n, 30.0)
-    trans_a = np.r_[np.ones(600), np.zeros(300)]
     zeros = np.zeros(n)
-    a = latent.discomfort(w, sun_then_shade, trans_a, zeros, zeros + 50, zeros)
+    a = latent.discomfort(w, sun_then_shade, np.r_[np.ones(900), np.zeros(1800)], zeros, zeros + 50, zeros)
     b = latent.discomfort(w, shade_all_along, np.zeros(n), zeros, zeros + 50, zeros)
-    assert a["d"][620] < b["d"][620]          # 20 s into the shade: relief
-    # while in the sun, a long stretch adds discomfort at the same UTCI
-    assert a["d"][599] > latent.discomfort(w, np.full(60, 38.0), np.ones(60), zeros[:60], zeros[:60] + 50,
-                                           zeros[:60])["d"][59]
+    tau = latent.body_time_constant_s(w)
+    # same UTCI now, different history: the body is still warm from the sun (heat carried over) ...
+    assert a["body_c"][1200] > b["body_c"][1200] and a["d"][1200] > b["d"][1200]
+    # ... and the excess decays as exp(−t/τ) (first-order response, from the definition)
+    excess = a["body_c"][900:] - b["body_c"][900:]
+    assert excess[int(tau)] / excess[0] == pytest.approx(np.exp(-1.0), rel=0.01)
+    # the rate term: right after stepping into shade, the cooling is felt (the score drops below what the
+    # body state alone gives), more strongly than the same warming on the way back
+    static = latent.A_STATE * (a["body_c"] - latent.SKIN_NEUTRAL_C) * w.heat_sensitivity + w.bias
+    assert a["d"][905] < static[905]
+    assert latent.C_COOLING > latent.C_WARMING
+    # the no-history variant forgets at once: both histories give the same score in the shade
+    a0 = latent.discomfort(w, sun_then_shade, zeros, zeros, zeros + 50, zeros, variant="no-history")
+    b0 = latent.discomfort(w, shade_all_along, zeros, zeros, zeros + 50, zeros, variant="no-history")
+    np.testing.assert_allclose(a0["d"][901:], b0["d"][901:])
 
 
 @pytest.mark.parametrize("sid", ["sv-p04-2"])

@@ -110,21 +110,22 @@ vote's latent score (`truth/votes.csv`).
 
 ## The comfort process (INVENTED)
 
-The votes come from an invented process (`walkcomfort/demo/latent.py`), made so that a
-model which looks back over the walk has something real to learn:
+The votes come from an invented process (`walkcomfort/demo/latent.py`) that is *not* built from
+the comfort model's features, so that whether looking back over the walk helps is a fair test.
+Each walker carries a body state T (skin-temperature-like) that follows the UTCI U with a
+first-order lag of the walker's own time constant (τ = {latent.TAU_BODY_S / 60:.0f} min at 0.5 clo,
+slower with more clothing) towards T_ss = {latent.SKIN_NEUTRAL_C} °C + {latent.SKIN_GAIN}·(U − {latent.UTCI_REF_C:.0f} °C).
+The thermal part of the score is a static term in T and a term in its rate of change, cooling
+felt more strongly than warming (the structure of transient thermal-sensation models, e.g.
+Zhang et al. 2010, Building and Environment 45:380–388; the numbers are invented):
 
-    D = k_w·[a·(U − U₀) + b·(H − U₀) + c·min(t_sun, 12) − r·max(H − U − 1, 0)]
-        + s·max(slope, 0) + n·max(LAeq − 62, 0) + p·min(crowd, 8) + bias_w
+    S = a·(T − T_N) + c·dT/dt        D = k_w·S + s·max(slope, 0) + n·max(LAeq − 62, 0) + p·min(crowd, 8) + bias_w
 
-U is the UTCI now, U₀ = {latent.UTCI_REF_C:.0f} °C, H the heat load (UTCI exponentially weighted
-with τ = {latent.TAU_HEAT_S / 60:.0f} min), t_sun the minutes since the last shade, and the
-relief term makes shade after a hot stretch feel better than shade all along
-(a = {latent.A_NOW}, b = {latent.B_LOAD}, c = {latent.C_SUN}, r = {latent.R_RELIEF}, s = {latent.S_SLOPE},
+(a = {latent.A_STATE}, c = {latent.C_WARMING} warming / {latent.C_COOLING} cooling per K/min, s = {latent.S_SLOPE},
 n = {latent.N_NOISE}, p = {latent.P_CROWD}). k_w and bias_w differ per walker; each vote adds noise
 (σ = {latent.VOTE_NOISE}). Votes: comfortable below {latent.COMFORTABLE_BELOW}, uncomfortable above
-{latent.UNCOMFORTABLE_ABOVE}, neutral between. A rule on the current UTCI band alone cannot see
-H, t_sun, the relief, the slope, the noise or the crowd, so it does measurably worse than a
-history-aware model; a logistic regression on current thermal conditions sits in between.
+{latent.UNCOMFORTABLE_ABOVE}, neutral between. `truth/<session>.csv` keeps the body state as the UTCI
+it corresponds to (`heat_load_c`).
 
 ## Running the chain
 

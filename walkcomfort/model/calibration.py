@@ -2,11 +2,14 @@
 
 The analysis outdoor-comfort field studies publish next to their models:
 
-* votes binned by UTCI (default 2 °C bins); the mean thermal sensation vote (MTSV,
-  ASHRAE 55 seven-point scale) per bin, and a straight line MTSV = a + b·UTCI fitted
-  by weighted least squares (weights = votes per bin, bins with fewer than
-  ``min_votes`` left out). The **neutral UTCI** is where the line crosses 0:
-  −a / b.
+* the **neutral UTCI** from the individual thermal sensation votes (ASHRAE 55 seven-point
+  scale): a cumulative-logit (ordinal) regression of the vote on UTCI
+  (:mod:`walkcomfort.model.ordinal`; McCullagh 1980), and the UTCI at which the expected
+  vote under that model is 0 (:func:`neutral_utci_ordinal`);
+* for reference, the usual bin analysis: votes binned by UTCI (default 2 °C bins), the mean
+  sensation vote (MTSV) per bin, and a straight line MTSV = a + b·UTCI by weighted least
+  squares (weights = votes per bin, bins with fewer than ``min_votes`` left out), crossing
+  0 at −a / b (``neutral_bins``).
 * the share of votes "comfortable" or "neutral" per bin, and a logistic curve in
   UTCI and UTCI² fitted to the individual votes. The **acceptable range** is where
   that curve is at least 80 % (the level is a parameter). An end that lies beyond
@@ -70,6 +73,49 @@ def neutral_utci(bins: pd.DataFrame, min_votes: int = 5) -> dict:
         res["neutral_utci_c"] = float(-intercept / slope)
     else:
         res["note"] = "sensation does not rise with UTCI in these votes; no neutral UTCI"
+    return res
+
+
+def neutral_utci_ordinal(utci_c, tsv) -> dict:
+    """Neutral UTCI from individual sensation votes: E[vote | UTCI] = 0 under a cumulative logit.
+
+    The ordinal model is fitted on the individual votes (each vote one observation, no
+    binning); the expected vote is Σ_k v_k·P(vote = v_k | UTCI). Returns ``neutral_utci_c``
+    [°C] (NaN when the expected vote does not cross 0 within 15 K of the observed UTCI),
+    ``slope_per_c`` (d E[vote] / d UTCI at the neutral point), ``intercept`` (of that
+    tangent line, for plots), ``cut_points_c``, ``extrapolated`` (the crossing lies outside the
+    observed UTCI), ``method``, ``n_votes``.
+    """
+    from walkcomfort.model.ordinal import cumulative_logit_proba, fit_cumulative_logit
+
+    u = np.asarray(utci_c, dtype=float)
+    v = np.asarray(tsv, dtype=float)
+    ok = np.isfinite(u) & np.isfinite(v)
+    u, v = u[ok], v[ok]
+    res = {"neutral_utci_c": np.nan, "slope_per_c": np.nan, "intercept": np.nan, "cut_points_c": [],
+           "extrapolated": False, "method": "cumulative logit on individual votes", "n_votes": int(len(u))}
+    levels = np.unique(v)
+    if len(u) < 10 or len(levels) < 2:
+        res["note"] = f"{len(u)} sensation votes on {len(levels)} levels; need 10 votes on 2 levels"
+        return res
+    codes = np.searchsorted(levels, v)
+    fit = fit_cumulative_logit(u, codes, len(levels))
+    res["cut_points_c"] = fit["cut_points"]
+    if not fit["slope"] > 0:
+        res["note"] = "sensation does not rise with UTCI in these votes; no neutral UTCI"
+        return res
+    grid = np.arange(u.min() - 15.0, u.max() + 15.0, 0.01)
+    expected = cumulative_logit_proba(grid, fit["slope"], fit["thresholds"]) @ levels
+    cross = np.flatnonzero((expected[:-1] < 0) & (expected[1:] >= 0))
+    if not len(cross):
+        res["note"] = "the expected vote does not cross 0 within 15 K of the observed UTCI"
+        return res
+    i = cross[0]
+    x = grid[i] + (0 - expected[i]) * (grid[i + 1] - grid[i]) / (expected[i + 1] - expected[i])
+    slope = (expected[min(i + 50, len(grid) - 1)] - expected[max(i - 50, 0)]) / (grid[min(i + 50, len(grid) - 1)]
+                                                                                - grid[max(i - 50, 0)])
+    res.update(neutral_utci_c=float(x), slope_per_c=float(slope), intercept=float(-slope * x),
+               extrapolated=bool(x < u.min() or x > u.max()))
     return res
 
 
@@ -176,7 +222,8 @@ def local_calibration(utci_c, tsv=None, comfort=None, groups=None, bin_width: fl
     Returns
     -------
     dict
-        ``bins`` (records), ``neutral`` (fit), ``range``, ``ci`` (2.5 / 97.5 % per
+        ``bins`` (records), ``neutral`` (ordinal fit on the individual votes),
+        ``neutral_bins`` (the line through bin means, for reference), ``range``, ``ci`` (2.5 / 97.5 % per
         quantity), ``reference_band_c`` (9, 26), ``n_votes``, ``n_walkers``.
     """
     u = np.asarray(utci_c, dtype=float)
@@ -188,7 +235,7 @@ def local_calibration(utci_c, tsv=None, comfort=None, groups=None, bin_width: fl
     def once(sel):
         b = bin_votes(u[sel], None if tsv_a is None else tsv_a[sel], None if com_a is None else com_a[sel],
                       bin_width)
-        neu = neutral_utci(b, min_votes) if tsv_a is not None else {"neutral_utci_c": np.nan}
+        neu = neutral_utci_ordinal(u[sel], tsv_a[sel]) if tsv_a is not None else {"neutral_utci_c": np.nan}
         rng_ = acceptable_range(u[sel], com_a[sel], level) if com_a is not None else {"lower_c": np.nan,
                                                                                        "upper_c": np.nan}
         return b, neu, rng_
@@ -196,6 +243,7 @@ def local_calibration(utci_c, tsv=None, comfort=None, groups=None, bin_width: fl
     everything = np.arange(n)
     bins, neu, rng_ = once(everything)
     out = {"bins": bins.to_dict(orient="records"), "neutral": neu, "range": rng_,
+           "neutral_bins": neutral_utci(bins, min_votes) if tsv_a is not None else {"neutral_utci_c": np.nan},
            "reference_band_c": list(NO_STRESS_BAND_C), "n_votes": int(n), "n_walkers": int(len(set(g))),
            "bin_width_c": bin_width, "level": level, "ci": {}}
     if n_boot and n:

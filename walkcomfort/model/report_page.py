@@ -229,13 +229,20 @@ def write_model_report(result, out_html: str | os.PathLike) -> Path:
 
     cal_text = []
     if np.isfinite(neu.get("neutral_utci_c", np.nan)):
-        cal_text.append(f"Neutral UTCI of these walkers: {neu['neutral_utci_c']:.1f} °C{_ci('neutral_utci_c')}; "
-                        f"sensation rises by {neu['slope_per_c']:.2f} scale points per °C UTCI.")
+        ext = " (beyond the observed UTCI: an extrapolation)" if neu.get("extrapolated") else ""
+        ref = cal.get("neutral_bins", {}).get("neutral_utci_c", np.nan)
+        ref_text = (f" The straight line through the 2 K bin means, the older method, puts it at {ref:.1f} °C."
+                    if np.isfinite(ref) else "")
+        cal_text.append(f"Neutral UTCI of these walkers, from an ordinal regression of the "
+                        f"{neu.get('n_votes', '')} individual sensation votes on UTCI (where the expected vote is 0): "
+                        f"{neu['neutral_utci_c']:.1f} °C{_ci('neutral_utci_c')}{ext}; near it the expected sensation "
+                        f"rises by {neu['slope_per_c']:.2f} scale points per °C UTCI.{ref_text}")
     else:
         cal_text.append(f"No neutral UTCI could be estimated ({neu.get('note', 'no sensation votes')}).")
     if np.isfinite(rng_.get("lower_c", np.nan)):
         lo, hi = rng_["lower_c"], rng_["upper_c"]
-        share = f"At least {100 * cal['level']:.0f} % voted comfortable or neutral"
+        share = (f"The acceptable range (fitted on the individual comfort votes): at least {100 * cal['level']:.0f} % "
+                 "are predicted to vote comfortable or neutral")
         if rng_.get("lower_open") and rng_.get("upper_open"):
             text = f"{share} at every UTCI observed ({lo:.1f} … {hi:.1f} °C)."
         elif rng_.get("lower_open"):
