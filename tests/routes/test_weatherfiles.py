@@ -238,3 +238,39 @@ def test_format_override_and_unknown_content(tmp_path):
     junk.write_text("hello\nworld\n")
     with pytest.raises(InputError, match="not a weather file format"):
         read_weather_file(junk)
+
+
+def test_design_day_on_the_pvgis_typical_year_uses_its_utc_instants():
+    from walkcomfort.routes.designday import design_day
+
+    lines = _lines("tmy_45.000_8.000_2005_2023.csv")
+    head = next(i for i, s in enumerate(lines) if s.startswith("time(UTC),"))
+    rows = [r.split(",") for r in lines[head + 1:head + 1 + 8760]]
+    # reference: the largest T2m of the file's own rows, and the UTC day it falls on (instants, not hour ends)
+    best = max(rows, key=lambda r: float(r[1]))
+    hot = design_day(WeatherFile(WEATHER / "tmy_45.000_8.000_2005_2023.csv"), "hottest")
+    assert hot.t_max_c == float(best[1])
+    assert (hot.date.month, hot.date.day) == (int(best[0][4:6]), int(best[0][6:8]))
+
+
+def test_route_on_an_nsrdb_download_records_its_time_convention(tmp_path, capsys):
+    from walkcomfort.cli import main
+
+    route = tmp_path / "r.geojson"
+    route.write_text(json.dumps({"type": "Feature", "properties": {"route_id": "r"}, "geometry": {
+        "type": "LineString", "coordinates": [[-108.540, 40.530], [-108.538, 40.530]]}}))
+    out = tmp_path / "out"
+    assert main(["route", str(route), "--weather", str(WEATHER / "test_read_psm3.csv"), "--depart",
+                 "2017-07-15T12:00", "--timezone", "America/Denver", "--no-reasons", "-o", str(out)]) == 0
+    capsys.readouterr()
+    text = "\n".join(p.read_text(encoding="utf-8") for p in out.glob("*.json"))
+    text += "\n".join(p.read_text(encoding="utf-8") for p in out.glob("*.md"))
+    assert '"format": "nsrdb"' in text and "local standard time" in text
+    pts = pd.read_parquet(out / "points.parquet")
+    # 12:00 MDT = 18:00 UTC = 11:00 local standard time (UTC-7): between the file's 11:00 and 11:30 rows
+    lines = _lines("test_read_psm3.csv")
+    cols = lines[2].split(",")
+    vals = {r.split(",")[3] + ":" + r.split(",")[4]: float(r.split(",")[cols.index("Temperature")])
+            for r in lines[3:] if r.startswith("2017,7,15,11,")}
+    t0 = pts[C.T_AIR_C].iloc[0]
+    assert min(vals.values()) - 1e-9 <= t0 <= max(vals.values()) + 1e-9
