@@ -65,3 +65,28 @@ def test_wbgt_hours_above_a_chosen_limit_per_segment(tmp_path):
     above = (rows["wbgt_c"] > 24.0).groupby([rows[C.SEGMENT_ID], rows["scheme"]]).sum().astype(float)
     np.testing.assert_allclose(summary["wbgt_h_above_limit"].to_numpy(), above.reindex(summary.index).to_numpy())
     assert (summary["wbgt_limit_c"] == 24.0).all()
+
+
+def test_a_model_fitted_on_pet_gets_pet_from_the_chain(tmp_path):
+    from walkcomfort.environment.indices import with_pet
+    from walkcomfort.environment.utci import wind_at_10m
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.bundle import save_bundle
+    from walkcomfort.model.classifier import ComfortClassifier
+    from walkcomfort.model.evaluate import training_table
+    from walkcomfort.model.features import FEATURE_SETS
+    from walkcomfort.network import _physics
+    from walkcomfort.network.engines import run_job
+
+    camp = synthetic_campaign(n_participants=3, walks_per_participant=1, duration_s=600, vote_every_s=60, seed=2)
+    camp["wind10_ms"] = wind_at_10m(camp["wind_ms"], 1.1)
+    table = training_table(with_pet(camp))
+    folder = tmp_path / "model"
+    save_bundle(ComfortClassifier(n_estimators=10, features=list(FEATURE_SETS["planned-pet"])).fit(table.X, table.y),
+                folder)
+    _, job = _plan(tmp_path, model=folder)
+    assert job.parameters["context"]["indices"] == ["pet"]
+    part = job.partitions[0]
+    walks = _physics.segment_walks(part, _physics.point_environment(part))
+    assert walks[P.PET_C].notna().all()  # the model's PET features are real, not missing
+    assert run_job(job, tmp_path / "out").ok

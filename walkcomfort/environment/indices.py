@@ -95,3 +95,25 @@ def extra_index_columns(names, *, t_air_c, rh_pct, tmrt_c, wind10_ms, pressure_h
             w = np.where(np.isfinite(from_globe), from_globe, w)
         out[_wbgt.WBGT_C] = w
     return out
+
+
+def with_pet(frame, z0_m: float = 0.01):
+    """``frame`` with a ``pet_c`` column: kept if present, else computed from its environment columns.
+
+    Needs ``t_air_c, tmrt_c, wind10_ms, rh_pct`` (``pressure_hpa`` if present); a frame without
+    them gets an all-NaN ``pet_c`` (the features built from it are then missing, never invented).
+    Returns a new frame; the input is not changed.
+    """
+    if _pet.PET_C in frame.columns:
+        return frame
+    out = frame.copy()
+    need = ("t_air_c", "tmrt_c", "wind10_ms", "rh_pct")
+    if not all(c in frame.columns for c in need):
+        out[_pet.PET_C] = np.nan
+        return out
+    pressure = frame["pressure_hpa"] if "pressure_hpa" in frame.columns else None
+    pet = _pet.pet_interpolated(frame["t_air_c"], frame["tmrt_c"],
+                                wind_from_10m(frame["wind10_ms"], _wbgt.WBGT_HEIGHT_M, z0_m), frame["rh_pct"],
+                                pressure)
+    out[_pet.PET_C] = np.asarray(pet, dtype=float)
+    return out

@@ -40,10 +40,17 @@ def _counts(table, files) -> str:
               help="Walker resamples for the calibration intervals (0: none).")
 @click.option("--feature-set", type=click.Choice(list(FEATURE_SETS)), default="all", show_default=True,
               help="'planned' leaves out sound, light and camera features, which planned routes cannot supply.")
-def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap, feature_set):
+@click.option("--index", type=click.Choice(["utci", "pet"]), default="utci", show_default=True,
+              help="Thermal index the model's heat features use: UTCI, or PET of the reference person (computed "
+                   "from the timelines' environment when they lack it). The baselines stay UTCI-based.")
+def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap, feature_set, index="utci"):
     from walkcomfort.model.workflow import campaign_table, fit_table, format_metrics, write_fit_outputs
 
-    table, files, _ = campaign_table(timelines, target=target)
+    if feature_set.endswith("-pet"):  # a PET feature set needs the timelines' PET
+        index = "pet"
+    table, files, _ = campaign_table(timelines, target=target, index=index)
+    if index == "pet" and not feature_set.endswith("-pet"):
+        feature_set = f"{feature_set}-pet"
     click.echo(_counts(table, files)
                + (f"; {len(table.quarantine)} votes set aside (see the report)" if len(table.quarantine) else ""))
     result = fit_table(table, preset=preset, n_splits=folds, n_estimators=rounds, seed=seed, n_jobs=threads,

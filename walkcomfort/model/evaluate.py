@@ -21,7 +21,7 @@ from walkcomfort import columns as C
 from walkcomfort._progress import track
 from walkcomfort.errors import InputError
 from walkcomfort.model.classifier import check_target, labels_from_votes
-from walkcomfort.model.features import FEATURES, NOW_FEATURES, build_features, participant_attributes
+from walkcomfort.model.features import FEATURE_SETS, NOW_FEATURES, build_features, participant_attributes
 
 #: Display names of the models compared in every validation, in report order.
 MODEL_NAMES = {
@@ -288,7 +288,7 @@ def aligned_proba(model, X, labels) -> np.ndarray:
 # --- cross-validation -----------------------------------------------------------------------------
 
 def default_models(target: str = "comfort", preset: str = "small", n_estimators: int | None = None,
-                   random_state: int = 0, n_jobs: int = 1, features=FEATURES) -> dict:
+                   random_state: int = 0, n_jobs: int = 1, features=FEATURE_SETS["all"]) -> dict:
     """Factories for the compared models (keys of :data:`MODEL_NAMES`).
 
     ``history`` is the shipped model (cumulative, monotone); ``history_free`` the same features

@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
+from walkcomfort.environment.pet import PET_C
 from walkcomfort.errors import InputError
 
 #: History windows [min].
@@ -101,11 +102,30 @@ def _declare_all() -> tuple[str, ...]:
         _declare(ACCLIMATISED, "acclimatised to local heat (1 yes, 0 no)", "-"),
         _declare("age_band_lower", "age band (lower bound)", "years"),
     ]
+    # PET of the reference person in place of UTCI (fit --index pet; feature sets "*-pet")
+    names += [_declare(PET_C, "PET here", "°C")]
+    for w in WINDOWS_MIN:
+        names += [
+            _declare(f"pet_mean_{w}min", f"mean PET over the last {w} min", "°C"),
+            _declare(f"pet_ewm_{w}min", f"PET averaged with a {w}-min memory", "°C"),
+            _declare(f"pet_max_{w}min", f"highest PET in the last {w} min", "°C"),
+            _declare(f"pet_contrast_{w}min", f"how much hotter the last {w} min were than here (PET)", "°C"),
+        ]
     return tuple(names)
 
 
 #: The declared feature list, in model order.
 FEATURES: tuple[str, ...] = _declare_all()
+#: PET's features (current, history) and the UTCI ones they replace in the "*-pet" sets (the heat dose
+#: counts UTCI above 26 °C, so it goes with UTCI).
+PET_FEATURES: tuple[str, ...] = tuple(f for f in FEATURES if f == PET_C or f.startswith("pet_"))
+UTCI_FEATURES: tuple[str, ...] = tuple(f for f in FEATURES if f == C.UTCI_C or f.startswith(("utci_", "heat_dose_")))
+
+
+def uses_pet(model) -> bool:
+    """True for a model fitted on PET in place of UTCI (``fit --index pet``): its features have PET, not UTCI."""
+    names = {str(c) for c in getattr(model, "feature_names_in_", ())}
+    return PET_C in names and C.UTCI_C not in names
 
 #: Features only a recorded walk can have (sound meter, light meter, camera): NaN on every
 #: point of a planned (simulated) walk.
@@ -124,9 +144,9 @@ HISTORY_FEATURES: tuple[str, ...] = tuple(f for f in FEATURES if f not in NOW_FE
 
 #: Feature families for explanations in words (every feature belongs to exactly one).
 FAMILIES: dict[str, tuple[str, ...]] = {
-    "current heat": (C.UTCI_C, C.TMRT_C, C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SHADE_FRAC, "in_sun"),
-    "heat history": tuple(f for f in FEATURES if f.startswith(("utci_", "tmrt_", "heat_dose_"))
-                          and f not in (C.UTCI_C, C.TMRT_C)) + ("t_air_mean_5min", "wind_mean_5min"),
+    "current heat": (C.UTCI_C, PET_C, C.TMRT_C, C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SHADE_FRAC, "in_sun"),
+    "heat history": tuple(f for f in FEATURES if f.startswith(("utci_", "pet_", "tmrt_", "heat_dose_"))
+                          and f not in (C.UTCI_C, PET_C, C.TMRT_C)) + ("t_air_mean_5min", "wind_mean_5min"),
     "shade history": tuple(f for f in FEATURES if f.startswith("sun_min_")) + ("since_sun_shade_change_s",
                                                                               "sun_streak_min"),
     "slope and pace": (C.SPEED_MS, C.SLOPE_PCT, *(f"elev_gain_{w}min" for w in WINDOWS_MIN), "walk_elapsed_min"),
@@ -140,9 +160,13 @@ FAMILY_OF: dict[str, str] = {f: fam for fam, members in FAMILIES.items() for f i
 #: Named feature sets: "all" for recorded walks; "planned" for a model meant to predict along
 #: planned routes (without the sensor-only features, so it never leans on missing branches there).
 FEATURE_SETS: dict[str, tuple[str, ...]] = {
-    "all": FEATURES,
-    "planned": tuple(f for f in FEATURES if f not in SENSOR_ONLY_FEATURES),
+    "all": tuple(f for f in FEATURES if f not in PET_FEATURES),
+    "planned": tuple(f for f in FEATURES if f not in SENSOR_ONLY_FEATURES and f not in PET_FEATURES),
 }
+# the same sets with PET in place of UTCI (its current value, history and the UTCI heat dose)
+FEATURE_SETS.update({f"{name}-pet": tuple(f for f in FEATURES if (f in PET_FEATURES or f in feats)
+                                          and f not in UTCI_FEATURES)
+                     for name, feats in list(FEATURE_SETS.items())})
 
 
 def build_features(timeline: pd.DataFrame, participants: dict | None = None) -> pd.DataFrame:
@@ -260,6 +284,14 @@ def build_features(timeline: pd.DataFrame, participants: dict | None = None) -> 
         f[f"sun_min_{w}min"] = ctx.time_sum(sun, ws) / 60.0
         f[f"heat_dose_{w}min"] = ctx.time_sum(dose_rate, ws) / 60.0
         f[f"elev_gain_{w}min"] = ctx.plain_sum(climb, ws)
+    pet = col(PET_C)  # NaN unless the timeline carries PET (thermal --extra-index pet, fit --index pet)
+    f[PET_C] = pet
+    for w in WINDOWS_MIN:
+        nan = np.isnan(pet).all()
+        f[f"pet_mean_{w}min"] = pet if nan else ctx.mean(pet, 60.0 * w)
+        f[f"pet_ewm_{w}min"] = pet if nan else ctx.ewm(pet, 60.0 * w)
+        f[f"pet_max_{w}min"] = pet if nan else ctx.max(pet, 60.0 * w)
+        f[f"pet_contrast_{w}min"] = f[f"pet_ewm_{w}min"] - pet
 
     f["in_sun"] = np.where(np.isnan(shade), np.nan, (shade < SHADE_STATE_FRAC).astype(float))
     f["since_sun_shade_change_s"] = ctx.since_change(f["in_sun"])

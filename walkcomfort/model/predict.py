@@ -13,8 +13,9 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
+from walkcomfort.environment.indices import with_pet
 from walkcomfort.errors import InputError
-from walkcomfort.model.features import build_features
+from walkcomfort.model.features import build_features, uses_pet
 
 PROBA_COLUMNS = {c: f"p_{c}" for c in C.COMFORT_CLASSES}
 COMFORT_CLASS = "comfort_class"
@@ -79,6 +80,8 @@ def predict_timeline_folds(model, timeline: pd.DataFrame, reasons: bool = True, 
     if getattr(model, "target", "comfort") != "comfort":
         raise InputError(f"the model predicts the {model.target!r} target, not the 3-class comfort vote",
                          fix="use a bundle fitted with --target comfort")
+    if uses_pet(model):  # a model fitted on PET: the timeline's PET, computed from its environment if absent
+        timeline = with_pet(timeline)
     X = build_features(timeline, participants)
     proba = model.predict_proba(X)
     classes = [str(c) for c in model.classes_]

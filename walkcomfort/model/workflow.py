@@ -15,6 +15,7 @@ import pandas as pd
 
 from walkcomfort import _io
 from walkcomfort import columns as C
+from walkcomfort.environment.indices import with_pet
 from walkcomfort.errors import InputError
 from walkcomfort.model.evaluate import (
     MODEL_NAMES,
@@ -32,8 +33,12 @@ METRICS_FILE = "metrics.json"
 OOF_FILE = "oof_predictions.parquet"
 
 
-def load_campaign(paths) -> tuple[pd.DataFrame, list[Path]]:
-    """Read and stack timelines (``session.timeline.read_timeline`` + ``combine_campaign``)."""
+def load_campaign(paths, index: str = "utci") -> tuple[pd.DataFrame, list[Path]]:
+    """Read and stack timelines (``session.timeline.read_timeline`` + ``combine_campaign``).
+
+    ``index="pet"``: every timeline gets ``pet_c`` (kept when ``thermal --extra-index pet`` wrote it,
+    else computed from its environment columns, :func:`walkcomfort.environment.indices.with_pet`).
+    """
     from walkcomfort.session.timeline import combine_campaign, find_timelines, read_timeline
 
     files = find_timelines(paths)
@@ -45,7 +50,7 @@ def load_campaign(paths) -> tuple[pd.DataFrame, list[Path]]:
         if C.UTCI_C not in df.columns:
             raise InputError("the timeline has no UTCI column (utci_c)", where=f,
                              fix="add the thermal environment first: `walkcomfort thermal`")
-        frames.append(df)
+        frames.append(with_pet(df) if index == "pet" else df)
     return combine_campaign(frames), files
 
 
@@ -88,7 +93,8 @@ def fit_table(table: TrainingTable, preset: str = "small", n_splits: int | None 
         raise InputError("the timelines hold no usable votes", fix="ingest sessions with a votes source")
     features = feature_list(feature_set)
     settings = {"preset": preset, "n_splits": n_splits, "n_estimators": n_estimators, "seed": seed,
-                "n_jobs": n_jobs, "target": table.target, "n_boot": n_boot, "feature_set": feature_set}
+                "n_jobs": n_jobs, "target": table.target, "n_boot": n_boot, "feature_set": feature_set,
+                "index": "pet" if feature_set.endswith("-pet") else "utci"}
     cv = cross_validate(table, n_splits=n_splits, progress=progress, preset=preset, n_estimators=n_estimators,
                         random_state=seed, n_jobs=n_jobs, features=features, seed=seed)
     model = ComfortClassifier(preset=preset, target=table.target, n_estimators=n_estimators,
@@ -158,8 +164,8 @@ def read_oof_predictions(folder: str | os.PathLike) -> pd.DataFrame | None:
     return pd.read_parquet(path)
 
 
-def campaign_table(paths, target: str = "comfort") -> tuple[TrainingTable, list[Path], pd.DataFrame]:
-    campaign, files = load_campaign(paths)
+def campaign_table(paths, target: str = "comfort", index: str = "utci") -> tuple[TrainingTable, list[Path], pd.DataFrame]:
+    campaign, files = load_campaign(paths, index=index)
     table = training_table(campaign, target=target)
     return table, files, campaign
 

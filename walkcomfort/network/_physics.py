@@ -182,7 +182,8 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
                        C.ELEV_M: np.repeat(elev, t), C.DIST_M: np.repeat(dist, t),
                        C.SPEED_MS: np.repeat(speed, t),
                        C.SLOPE_PCT: np.repeat(slope, t)}, index=idx)
-    for name in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SUN_ELEV_DEG, C.SHADE_FRAC, C.SVF, C.TMRT_C, C.UTCI_C):
+    for name in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.SUN_ELEV_DEG, C.SHADE_FRAC, C.SVF, C.TMRT_C, C.UTCI_C,
+                 *((PET_C,) if PET_C in env else ())):  # a model fitted on PET reads the chain's PET
         df[name] = grid(env[name])
     df[C.BEAM_TRANS_FRAC] = 1.0 - df[C.SHADE_FRAC]
     df.attrs["session"] = {"timezone": "UTC", "site": part.tile_id, "simulated": True,

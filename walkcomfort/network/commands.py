@@ -74,10 +74,14 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     predictor, bundle = "physics-rule", None
     if model:
         # load once here: a bad bundle is one clear error now, not a failure in every partition
+        from walkcomfort.model.features import uses_pet
         from walkcomfort.network.shipping import pack_bundle
         from walkcomfort.routes.predict import Predictor
 
-        predictor = Predictor.from_bundle(model).label
+        loaded = Predictor.from_bundle(model)
+        predictor = loaded.label
+        if uses_pet(loaded.model):  # a model fitted on PET: the chain computes PET for it
+            index = "pet"
         bundle = pack_bundle(model)  # travels with the job: workers never see this machine's path
     context = {"wind_height_m": float(weather.attrs.get("wind_height_m", source.wind_height_m)),
                "weather": getattr(source, "label", "weather"), "model": bundle["digest"] if bundle else None,

@@ -103,7 +103,10 @@ class Predictor:
 
         first = timeline[C.WALK_ID].iloc[0] if C.WALK_ID in timeline.columns else None
         one = timeline[timeline[C.WALK_ID] == first] if first is not None else timeline
-        X = build_features(one)
+        from walkcomfort.environment.indices import with_pet
+        from walkcomfort.model.features import uses_pet
+
+        X = build_features(with_pet(one) if uses_pet(self.model) else one)
         names = [str(c) for c in getattr(self.model, "feature_names_in_", X.columns)]
         return [c for c in names if c in X.columns and X[c].isna().all()]
 
