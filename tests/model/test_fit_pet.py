@@ -51,7 +51,8 @@ def test_fit_with_pet_records_the_index_and_predicts_from_pet(timeline_dir, tmp_
     assert main(["fit", str(folder), "-o", str(bundle), "--index", "pet", "--folds", "2", "--rounds", "15",
                  "--bootstrap", "0"]) == 0
     manifest = json.loads((bundle / "manifest.json").read_text())
-    assert "pet" in json.dumps(manifest)  # the bundle says which index it saw
+    assert manifest["extra"]["settings"]["index"] == "pet"  # the bundle says which index it saw
+    assert manifest["extra"]["settings"]["feature_set"] == "all-pet"
     model = load_bundle(bundle)
     assert F.uses_pet(model) and C.UTCI_C not in set(model.feature_names_in_)
     # a timeline without PET is given its PET before the features: same as giving it
