@@ -45,6 +45,7 @@ from walkcomfort.errors import InputError
 from walkcomfort.imagery.cues import CueParams, frame_cues
 from walkcomfort.imagery.people import MIN_SOURCE_WIDTH, PeopleParams, count_people
 from walkcomfort.imagery.quality import QualityParams, quality_flags
+from walkcomfort.session.readers.frames import ImageTooLarge, open_image
 
 #: Bump when a rule changes in a way that changes results: old cache entries stop matching.
 ANALYSIS_VERSION = 5  # 5: greenery needs a green hue (yellow and ochre excluded)
@@ -95,11 +96,11 @@ def load_frame(path: str | os.PathLike, max_width: int | None = None) -> np.ndar
     InputError
         The file is missing or is not a readable image.
     """
-    from PIL import Image, ImageOps, UnidentifiedImageError
+    from PIL import ImageOps, UnidentifiedImageError
 
     p = Path(path)
     try:
-        with Image.open(p) as im:
+        with open_image(p) as im:
             if max_width and im.width > max_width and im.format == "JPEG":
                 # JPEG decodes at 1/2, 1/4, 1/8 scale almost for free; keep at least max_width
                 im.draft("RGB", (max_width, int(im.height * max_width / im.width)))
@@ -107,6 +108,9 @@ def load_frame(path: str | os.PathLike, max_width: int | None = None) -> np.ndar
             rgb = np.asarray(im.convert("RGB"))
     except FileNotFoundError:
         raise InputError("frame file not found", where=p, fix="check the frames folder named in session.toml") from None
+    except ImageTooLarge as exc:
+        raise InputError(f"frame is too large to decode ({exc})", where=p,
+                         fix="remove the file or give a downscaled copy; it is listed in the quarantine") from None
     except (UnidentifiedImageError, OSError, SyntaxError, ValueError) as exc:
         raise InputError(f"frame is not a readable image ({' '.join(str(exc).split())})", where=p,
                          fix="remove or replace the damaged file; it is listed in the quarantine") from None

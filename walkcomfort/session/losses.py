@@ -68,15 +68,22 @@ def assess(qa: dict, quarantine: pd.DataFrame, spec, spans: dict) -> tuple[list[
     track = spans.get("__track__")
     for name, e in qa["sources"].items():
         clock = _clock_hint(spans.get(name), track, sources[name]) if e["kind"] != "gps" else None
-        if clock:
-            warnings.append(f"{name}: {clock}")
+        failed = None
         for kind, share, fail, warn in _measures(e, limits):
             if share is None:
                 continue
-            if _over(kind, share, fail):
-                failures.append(_failure(name, e, kind, share, quarantine, sources[name], clock))
-            elif _over(kind, share, warn):
+            if _over(kind, share, fail) and failed is None:   # one failure per source: its first check
+                failed = _failure(name, e, kind, share, quarantine, sources[name], clock)
+            elif _over(kind, share, warn) and not _over(kind, share, fail):
                 warnings.append(_warning_line(name, e, kind, share))
+        if clock and failed is None and e["rows_used"] < 0.5 * max(1, e["rows_read"]):
+            failed = _clock_failure(name, e, sources[name], clock)
+        elif clock and failed is not None:
+            failed.update(_clock_failure(name, e, sources[name], clock))
+        elif clock:
+            warnings.append(f"{name}: {clock}")
+        if failed is not None:
+            failures.append(failed)
         if e["rows_read"] == 0:
             warnings.append(f"{name}: the file holds no rows")
     return failures, warnings
@@ -85,6 +92,13 @@ def assess(qa: dict, quarantine: pd.DataFrame, spec, spans: dict) -> tuple[list[
 #: reasons that are not losses: rows outside the walk window ([session] start/end, or a logger
 #: running before and after the walk) are trimmed on purpose; a clock error shows as low coverage
 TRIMMED = ("outside_walk_window",)
+
+
+def _clock_failure(name: str, e: dict, src, clock: str) -> dict:
+    return {"source": name, "file": e["file"], "check": "clock", "share": None,
+            "what": f"only {e['rows_used']} of {e['rows_read']} rows of source '{name}' fall on the walk",
+            "cause": clock, "row": None, "where": src.display, "reasons": dict(e["quarantine_reasons"]),
+            "fix": "correct the source's time_zone (or the session timezone), or add a [[sync]] event for its device"}
 
 
 def _measures(e: dict, limits: dict):
@@ -143,6 +157,8 @@ def likely_cause(e: dict, q: pd.DataFrame, src, clock: str | None, kind: str) ->
         return (f"readings are further apart than the maximum gap (median interval {e.get('median_interval_s')} s, "
                 f"largest gap {e.get('largest_gap_s')} s)",
                 "set max_gap_s on the source if the instrument logs that slowly, or check that it logged the whole walk")
+    if kind == "disorder":
+        top = "duplicate_time"
     for test in (_unit_cause, _number_cause, _time_cause, _place_cause):
         found = test(top, q, src)
         if found:
@@ -179,10 +195,12 @@ def _time_cause(top: str, q: pd.DataFrame, src):
         return ("times repeat: the time column may be read the wrong way (HHMM without padding, day and month "
                 "swapped, seconds dropped)", "check time_format against a few raw rows (one entry per time column, "
                                              "e.g. [\"%Y-%m-%d\", \"HHMM\"])")
-    if top in ("bad_time", "no_time"):
+    if top == "no_time":
+        return "points have no time", "export the recorded track with its times (a planned route has none)"
+    if top == "bad_time":
         first = str(q.loc[q["reason"] == top, "raw"].iloc[0])[:60] if len(q) else ""
-        what = "points have no time" if top == "no_time" else f"times do not match time_format (first: {first!r})"
-        return what, "declare time_format for this source (a strftime pattern, epoch_s/epoch_ms, or one entry per column)"
+        return (f"times do not match time_format (first: {first!r})",
+                "declare time_format for this source (a strftime pattern, epoch_s/epoch_ms, or one entry per column)")
     if top in ("nonexistent_local_time", "ambiguous_local_time"):
         return "times fall in a daylight-saving change", "declare the logger's zone (time_zone = \"UTC\" or an offset zone)"
     return None
@@ -194,6 +212,9 @@ def _place_cause(top: str, q: pd.DataFrame, src):
                 "check the device's clock, the source's time_zone, or [session] start/end")
     if top in ("no_position", "null_position"):
         return "fixes have no position", "export the track again after the receiver had a fix"
+    if top in ("unreadable_image", "no_exif_time", "image_too_large"):
+        return ("the frames are not readable JPEG/PNG images with a time", "copy the frames again from the camera "
+                "card, or read their time from the file name (time_from = \"filename\")")
     if top == "gps_jump":
         return "positions jump further than walking allows", "check the GPS export; a vehicle leg can be cut with start/end"
     return None

@@ -506,6 +506,11 @@ def _sync_events(data, m, tz, known, reference, folder) -> list[SyncEvent]:
                 ta = _time(s.get("device_time"), tz, f"{m} {w} device_time", required=True)
             tb = _time(s.get("true_time"), tz, f"{m} {w} true_time", required=True)
         for key, dev in (("device_a" if "device_a" in s else "device", da), ("device_b", db)):
+            if dev not in known and frame is not None and key == "device":
+                raise InputError(f"this sync event reads the clock of camera '{dev}' from a frame, but no frames "
+                                 "source uses that device", where=f"{m} {w} {key}",
+                                 fix="delete this [[sync]] table if no camera was carried, or add the camera's "
+                                     "[[source]] (kind = \"frames\") with device = " + f'"{dev}"')
             if dev not in known:
                 raise InputError(f"device '{dev}' is not used by any source nor declared", where=f"{m} {w} {key}",
                                  fix=_suggest(dev, sorted(known)) or "declare it under [devices] or correct the name")

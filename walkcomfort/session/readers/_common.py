@@ -439,11 +439,14 @@ def finish(times: pd.DatetimeIndex, values: dict[str, np.ndarray], reason: np.nd
     t_good = times[good]
     ns = t_good.asi8
     # a row is out of order when its time is earlier than a row before it in the file
-    if len(ns):
+    out_of_order, newest_first = 0, False
+    if len(ns) > 1:
         runmax = np.maximum.accumulate(ns)
         out_of_order = int(np.sum(ns[1:] < runmax[:-1]))
-    else:
-        out_of_order = 0
+        # a file written newest first (some loggers export that way) is in order, read backwards
+        newest_first = bool(np.all(np.diff(ns) <= 0)) and ns[0] > ns[-1]
+        if newest_first:
+            out_of_order = 0
     order = np.argsort(ns, kind="stable")
     gi = np.flatnonzero(good)[order]
     ts = t_good[order]
@@ -461,6 +464,7 @@ def finish(times: pd.DatetimeIndex, values: dict[str, np.ndarray], reason: np.nd
         "rows_read": int(n + pre),
         "rows_used": int(len(df)),
         "out_of_order": out_of_order,
+        "newest_first": newest_first,
         "duplicates": int(dup.sum()),
     }
     if extra:

@@ -10,7 +10,9 @@ A frame whose time cannot be read is quarantined, never given an invented time.
 
 from __future__ import annotations
 
+import contextlib
 import re
+import warnings
 from datetime import datetime
 from pathlib import Path
 
@@ -29,7 +31,7 @@ _CODES = {"%Y": r"\d{4}", "%m": r"\d{2}", "%d": r"\d{2}", "%H": r"\d{2}", "%M": 
           "%f": r"\d{1,6}", "%y": r"\d{2}", "%j": r"\d{3}", "%z": r"[+-]\d{4}", "%%": "%"}
 
 
-def pattern_regex(pattern: str) -> re.Pattern:
+def pattern_regex(pattern: str, where: str | None = None) -> re.Pattern:
     """A regex matching the text a strftime ``pattern`` produces (the codes listed in ``_CODES``)."""
     out = []
     i = 0
@@ -42,18 +44,44 @@ def pattern_regex(pattern: str) -> re.Pattern:
             from walkcomfort.errors import InputError
 
             raise InputError(f"filename_pattern code '{code}' is not supported; use %Y %m %d %H %M %S %f %y %j %z",
-                             fix="rewrite the pattern with the supported codes")
+                             where=where, fix="rewrite the pattern with the supported codes")
         else:
             out.append(re.escape(pattern[i]))
             i += 1
     return re.compile("".join(out))
 
 
-def exif_time(path: Path) -> tuple[str | None, str | None]:
-    """``("YYYY:MM:DD HH:MM:SS[.ffffff]", offset or None)`` from a file's EXIF, or ``(None, None)``."""
+#: Largest frame accepted [pixels]: 100 MP is past any chest or phone camera; a header claiming
+#: more is damaged or hostile (a "decompression bomb" would need gigabytes to decode).
+MAX_FRAME_PIXELS = 100_000_000
+
+
+class ImageTooLarge(ValueError):
+    """An image header claims more pixels than :data:`MAX_FRAME_PIXELS`."""
+
+
+@contextlib.contextmanager
+def open_image(path):
+    """Open an image for its header only, refusing sizes past :data:`MAX_FRAME_PIXELS` before any decoding."""
     from PIL import Image
 
-    with Image.open(path) as im:
+    with warnings.catch_warnings():
+        # Pillow's own bomb warning/error: our limit below is the one that applies
+        warnings.simplefilter("ignore", Image.DecompressionBombWarning)
+        try:
+            im = Image.open(path)
+        except Image.DecompressionBombError as exc:
+            raise ImageTooLarge(str(exc)) from None
+    with im:
+        if im.width * im.height > MAX_FRAME_PIXELS:
+            raise ImageTooLarge(f"the header claims {im.width} x {im.height} pixels, more than "
+                                f"{MAX_FRAME_PIXELS:,}")
+        yield im
+
+
+def exif_time(path: Path) -> tuple[str | None, str | None]:
+    """``("YYYY:MM:DD HH:MM:SS[.ffffff]", offset or None)`` from a file's EXIF, or ``(None, None)``."""
+    with open_image(path) as im:
         exif = im.getexif()
         ifd = exif.get_ifd(_EXIF_IFD)
         dto = ifd.get(_DATETIME_ORIGINAL) or exif.get(_DATETIME_ORIGINAL)
@@ -77,7 +105,7 @@ def read_frames(path, source_spec, session_spec):
         (posix path relative to the session folder).
     metadata : dict
         Counts, ``quarantine`` (``no_exif_time``, ``unreadable_image``,
-        ``bad_time``, ``name_does_not_match``, ``duplicate_time``), and
+        ``bad_time``, ``name_does_not_match``, ``image_too_large``, ``duplicate_time``), and
         ``ignored_files`` (files that are not JPEG/PNG).
     """
     from PIL import UnidentifiedImageError
@@ -93,7 +121,7 @@ def read_frames(path, source_spec, session_spec):
     naive = np.full(n, np.datetime64("NaT", "ns"), dtype="datetime64[ns]")
     aware = np.full(n, np.datetime64("NaT", "ns"), dtype="datetime64[ns]")
     if source_spec.time_from == "filename":
-        rx = pattern_regex(source_spec.filename_pattern)
+        rx = pattern_regex(source_spec.filename_pattern, where=f"{source_spec.where} filename_pattern")
         for i, p in enumerate(images):
             m = rx.match(p.stem)
             if not m:
@@ -112,6 +140,9 @@ def read_frames(path, source_spec, session_spec):
         for i, p in enumerate(images):
             try:
                 dto, off = exif_time(p)
+            except ImageTooLarge:
+                reason[i] = "image_too_large"
+                continue
             except (UnidentifiedImageError, OSError, SyntaxError, ValueError):
                 reason[i] = "unreadable_image"
                 continue
