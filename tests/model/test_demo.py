@@ -57,3 +57,35 @@ def test_history_model_beats_both_baselines_on_the_demo(demo_thermal, tmp_path, 
     ev = capsys.readouterr().out
     in_sample = json.loads((bundle / "metrics.json").read_text())["in_sample"]
     assert f"{in_sample['macro_f1']:.3f}" in ev and f"{in_sample['macro_f1']:.3f}" in (bundle / "report.html").read_text()
+
+
+@pytest.mark.slow
+def test_no_shade_adding_scheme_lowers_comfort_beyond_the_model_error(demo_thermal, tmp_path, capsys):
+    """The demo's planned-route model (monotone in heat) on the demo routes: adding shade never costs
+    expected comfortable minutes outside the fold-model interval, at any departure of the day."""
+    import pandas as pd
+
+    from walkcomfort.demo.scenario import DESIGN_DAY
+    from walkcomfort.demo.town import TIMEZONE
+
+    demo = Path(__file__).resolve().parents[2] / "demo_walks"
+    bundle = tmp_path / "planned"
+    assert main(["fit", str(demo_thermal), "-o", str(bundle), "--feature-set", "planned", "--bootstrap", "0"]) == 0
+    fit_out = capsys.readouterr().out
+    assert "history gain is" in fit_out and "interval over 8 walkers" in fit_out
+    adding = [demo / "schemes" / f"{s}.geojson" for s in ("trees-costa", "canopy-placa")]
+    for rid in ("estacio-escola", "mercat-parc"):
+        out = tmp_path / rid
+        args = ["compare", str(demo / "routes" / f"{rid}.geojson"), *[a for p in adding for a in ("--scheme", str(p))],
+                "-o", str(out), "--scene", str(demo / "scene.geojson"), "--weather",
+                str(demo / "weather" / "design-day.csv"), "--logger-wind-height", "1.1", "--timezone", TIMEZONE,
+                "--depart", f"{DESIGN_DAY}T08:00..{DESIGN_DAY}T20:00/1h", "--model", str(bundle),
+                "--walker", "clo=0.5,acclimatised=1,age_band=25-34", "--no-reasons"]
+        assert main(args) == 0
+        cmp_ = pd.read_csv(out / "comparison.csv")
+        assert len(cmp_) == 2 * 13 and cmp_["delta_exp_min_comfortable_lo"].notna().all()
+        # shade added: the interval's upper end is never below 0 (no loss beyond the model error)
+        worst = cmp_.loc[cmp_["delta_exp_min_comfortable_hi"].idxmin()]
+        assert (cmp_["delta_exp_min_comfortable_hi"] >= 0).all(), worst.to_dict()
+        # the schemes add shade (the premise of the check)
+        assert (cmp_["delta_shade_share"] >= 0).all() and (cmp_["delta_shade_share"] > 0).any()
