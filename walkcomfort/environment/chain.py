@@ -106,7 +106,7 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
                         n_sectors: int = 36, svf_radius_m: float = SVF_RADIUS_M, svf_cell_m: float = SVF_CELL_M,
                         z0_m: float = _utci.Z0_UTCI_M, crown_model: str = "per_crossing",
                         inside_buildings: str = "flag", flux_options: dict | None = None,
-                        warn: bool = True, indices=()) -> pd.DataFrame:
+                        warn: bool = True, indices=(), beam_trans=None) -> pd.DataFrame:
     """Sun, irradiance, shade, sky view, Tmrt, wind at 10 m and UTCI for points at times.
 
     Parameters
@@ -157,6 +157,10 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
     indices : iterable of str, optional
         Indices beside UTCI to add: ``"pet"`` (``pet_c, pet_class``) and/or ``"wbgt"``
         (``wbgt_c``), by :func:`walkcomfort.environment.indices.extra_index_columns`.
+    beam_trans : array-like, optional
+        Direct-beam transmittance per row [-], when the caller already knows it (the
+        placement advisor's trials of new crowns on top of the scene's); step 3 then
+        uses it instead of tracing the scene. Everything else is computed as usual.
 
     Returns
     -------
@@ -181,7 +185,10 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
     # 3. direct-beam transmittance through the scene (positions: once each; ``at``: row -> position)
     x, y, inside = _inside_buildings(scene, x, y, inside_buildings)
     month = leaf_month(idx, site["lon"])
-    trans = _beam(scene, x[at], y[at], np.full(n, float(z_m)), s_elev, s_az, month, crown_model)
+    if beam_trans is None:
+        trans = _beam(scene, x[at], y[at], np.full(n, float(z_m)), s_elev, s_az, month, crown_model)
+    else:
+        trans = np.broadcast_to(np.asarray(beam_trans, dtype=float), (n,)).copy()
     # 4. sky view factor (per position; it does not change with time) -------------------------
     if sky_view is None:
         svf, crowns = _sky_view_rows(scene, x, y, np.full(x.size, float(z_m)), n_sectors, svf_radius_m,

@@ -45,19 +45,21 @@ DEFAULT_THRESHOLD_C = 32.0
 def environment_with_beam(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Tmrt and UTCI [°C] of walk rows when their direct-beam transmittance becomes ``beam``.
 
-    Everything else (weather, sky view, diffuse light) stays as in the base scene; the
-    Tmrt and UTCI formulas are the environment chain's own.
+    The rows go through the one environment chain
+    (:func:`walkcomfort.environment.chain.environment_columns`) with the new beam given
+    and their sky view as traced for the base scene; everything else (sun, irradiance,
+    surfaces, wind) is the chain's own, so a trial differs from the base only by the beam.
     """
-    from walkcomfort.environment.tmrt import tmrt_outdoor
-    from walkcomfort.environment.utci import utci_from_conditions
+    from walkcomfort.environment.chain import environment_columns
 
     t = table.iloc[rows]
-    tmrt = np.asarray(tmrt_outdoor(t[C.SUN_ELEV_DEG].to_numpy(float), t[C.DNI_WM2].to_numpy(float),
-                                   t[C.DHI_WM2].to_numpy(float), np.asarray(beam, float), t[C.SVF].to_numpy(float),
-                                   t[C.T_AIR_C].to_numpy(float), t[C.RH_PCT].to_numpy(float)), float)
-    u = utci_from_conditions(t[C.T_AIR_C].to_numpy(float), tmrt, t[C.WIND10_MS].to_numpy(float),
-                             t[C.RH_PCT].to_numpy(float), warn=False)
-    return tmrt, u[C.UTCI_C].to_numpy(float)
+    weather_cols = [c for c in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.PRESSURE_HPA, C.GHI_WM2, C.DNI_WM2, C.DHI_WM2)
+                    if c in t.columns]
+    env = environment_columns(pd.DatetimeIndex(t[C.TIME]), t[[C.LON, C.LAT]], t[weather_cols],
+                              scene=table.attrs.get("scene"), wind_height_m=table.attrs.get("wind_height_m"),
+                              sky_view=(t[C.SVF].to_numpy(float), t[C.SKY_VIEW_CROWN_FRAC].to_numpy(float)),
+                              beam_trans=np.asarray(beam, float), warn=False)
+    return env[C.TMRT_C].to_numpy(float), env[C.UTCI_C].to_numpy(float)
 
 
 def default_response(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarray) -> np.ndarray:

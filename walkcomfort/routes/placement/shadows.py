@@ -24,8 +24,10 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
+from walkcomfort.environment.chain import leaf_month
 from walkcomfort.environment.scene import Scene
 from walkcomfort.environment.shade import beam_transmittance
+from walkcomfort.errors import InputError
 from walkcomfort.routes.placement.catalogue import Intervention
 
 #: Screening margin around the analytic shadow footprint [m] (grid convergence, crown shape).
@@ -70,13 +72,19 @@ def walk_table(walks: list[pd.DataFrame], weights: list[float] | None = None) ->
         (so sums are weighted minutes), ``walk_key`` an integer per walk.
     """
     weights = [1.0] * len(walks) if weights is None else list(weights)
+    heights = {(w.attrs.get("session") or {}).get("wind_height_m") for w in walks}
+    if len(heights) > 1:
+        raise InputError(f"the walks state different wind heights {sorted(map(str, heights))}",
+                         where="walks", fix="simulate every walk with the same weather source")
     parts = []
     for k, (w, wt) in enumerate(zip(walks, weights, strict=True)):
         df = w.reset_index()
         df["walk_key"] = k * 10_000 + pd.factorize(df[C.WALK_ID])[0]
         df["weight"] = float(wt) * df["step_s"].to_numpy(float) / 60.0
         parts.append(df)
-    return pd.concat(parts, ignore_index=True)
+    out = pd.concat(parts, ignore_index=True)
+    out.attrs["wind_height_m"] = heights.pop() if heights else None
+    return out
 
 
 def reachable_rows(table: pd.DataFrame, x: float, y: float, it: Intervention, z_m: float) -> np.ndarray:
@@ -105,8 +113,8 @@ def trace_options(table: pd.DataFrame, scene: Scene, sites: pd.DataFrame, catalo
     rows): the selection never picks them, and the ranked table can say why.
     """
     options = []
-    months = table[C.TIME].dt.tz_convert(table.attrs.get("timezone", "UTC")).dt.month.to_numpy() \
-        if C.TIME in table.columns else None
+    # the month of the leaves as the chain takes it (local mean solar time at the site)
+    months = leaf_month(pd.DatetimeIndex(table[C.TIME]), scene.site["lon"])
     for s in sites.itertuples(index=False):
         for it in catalogue.values():
             rows = reachable_rows(table, s.x_m, s.y_m, it, z_m)
@@ -116,7 +124,7 @@ def trace_options(table: pd.DataFrame, scene: Scene, sites: pd.DataFrame, catalo
                 tau = beam_transmittance(one, table["_x"].to_numpy()[rows], table["_y"].to_numpy()[rows],
                                          table[C.SUN_ELEV_DEG].to_numpy(float)[rows],
                                          table[C.SUN_AZIM_DEG].to_numpy(float)[rows], z_m=z_m,
-                                         month=None if months is None else months[rows])
+                                         month=months[rows])
                 keep = tau < TAU_STORE_MAX
                 rows, tau = rows[keep], np.asarray(tau, float)[keep]
             options.append(Option(len(options), s.site_id, it, float(s.x_m), float(s.y_m), float(s.lon),
@@ -143,6 +151,7 @@ def add_scene_xy(table: pd.DataFrame, scene: Scene) -> pd.DataFrame:
     x, y = scene.project(table[C.LON].to_numpy(float), table[C.LAT].to_numpy(float))
     out = table.copy()
     out["_x"], out["_y"] = np.asarray(x, float), np.asarray(y, float)
+    out.attrs = {**table.attrs, "scene": scene}
     return out
 
 
