@@ -245,7 +245,10 @@ def _model_report(bundle: Path, out: Path) -> Path:
 @click.option("--title", default=None, help="Page title (one input only).")
 @click.option("--scene", "scene_path", type=click.Path(path_type=Path), default=None,
               help="Scene GeoJSON drawn under each walk's track in the session reports.")
-def report(paths, out, timezone, title, scene_path):
+@click.option("--index", type=click.Choice(["utci", "pet"]), default="utci", show_default=True,
+              help="Thermal index drawn in the session reports: UTCI with its bands, or PET of the reference person "
+                   "with its classes (computed from the environment when the timeline lacks it).")
+def report(paths, out, timezone, title, scene_path, index="utci"):
     """Write HTML reports: a session report for each walk, a model report for a model bundle.
 
     PATHS are walk folders / timeline.parquet from 'walkcomfort ingest' (or 'thermal'), folders
@@ -276,7 +279,7 @@ def report(paths, out, timezone, title, scene_path):
             target = out if single_file else (out / folder.name / SESSION_REPORT_FILE if out
                                               else folder / SESSION_REPORT_FILE)
             written = write_session_report(src if src.name != TIMELINE_FILE else folder, out_html=target,
-                                           title=title, timezone=timezone, scene=scene_path)
+                                           title=title, timezone=timezone, scene=scene_path, index=index)
         click.echo(f"wrote {written}")
 
 

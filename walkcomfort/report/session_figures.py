@@ -16,12 +16,22 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
+from walkcomfort.environment.pet import PET_C, PET_CLASS_COLOURS, PET_CLASSES
 from walkcomfort.report import palette as P
 
 SHORT_WALK = pd.Timedelta(minutes=15)  # below this, the time axis shows seconds
 PANEL_HEIGHTS = {"votes": 0.55, "temp": 2.6, "noise": 1.3, "light": 1.3, "motion": 1.5}
 TEMPERATURES = ((C.T_AIR_C, "air temperature", "#1f1f1f", "-"), (C.T_GLOBE_C, "globe temperature", "#8a8a8a", ":"),
                 (C.TMRT_C, "Tmrt", "#b4452f", "--"), (C.UTCI_C, "UTCI", "#1d4e89", "-"))
+
+
+def index_scale(index: str = "utci") -> dict:
+    """The thermal index a session report shows (``report --index``): column, name, bands and colours."""
+    if index == "pet":
+        return {"col": PET_C, "name": "PET", "bands": tuple((lo, hi, name) for lo, hi, name, _ in PET_CLASSES),
+                "colours": PET_CLASS_COLOURS, "scale": "PET classes (Matzarakis & Mayer 1996) reached"}
+    return {"col": C.UTCI_C, "name": "UTCI", "bands": C.UTCI_BANDS, "colours": P.UTCI_BAND_COLOURS,
+            "scale": "assessment-scale bands reached"}
 
 
 def figure(width_in: float, height_in: float):
@@ -67,7 +77,7 @@ def qa_flags(df: pd.DataFrame) -> list[str]:
 
 def _panels(df: pd.DataFrame) -> list[str]:
     panels = ["votes"]
-    for name, cols in (("temp", (C.T_AIR_C, C.TMRT_C, C.UTCI_C)), ("noise", (C.LAEQ_DB,)),
+    for name, cols in (("temp", (C.T_AIR_C, C.TMRT_C, C.UTCI_C, PET_C)), ("noise", (C.LAEQ_DB,)),
                        ("light", (C.ILLUM_LUX,)), ("motion", (C.SPEED_MS, C.ELEV_M))):
         if _has(df, *cols):
             panels.append(name)
@@ -93,18 +103,20 @@ def _draw_votes(ax, votes: pd.DataFrame, vt) -> None:
               title="vote (number: TSV)", title_fontsize=7)
 
 
-def _utci_band_shading(ax, y_low: float, y_high: float) -> None:
-    for low, high, name in C.UTCI_BANDS:
+def _utci_band_shading(ax, y_low: float, y_high: float, scale: dict | None = None) -> None:
+    scale = scale or index_scale()
+    for low, high, name in scale["bands"]:
         lo, hi = max(low, y_low), min(high, y_high)
         if lo < hi:
-            ax.axhspan(lo, hi, color=P.UTCI_BAND_COLOURS[name], alpha=0.3, lw=0, zorder=0)
+            ax.axhspan(lo, hi, color=scale["colours"][name], alpha=0.3, lw=0, zorder=0)
             ax.text(1.002, (lo + hi) / 2, name, transform=ax.get_yaxis_transform(), fontsize=6.5,
                     va="center", ha="left", color="#333333", clip_on=False)
 
 
-def _draw_temperatures(ax, df: pd.DataFrame, t) -> None:
+def _draw_temperatures(ax, df: pd.DataFrame, t, scale: dict | None = None) -> None:
+    scale = scale or index_scale()
     values = []
-    for col, label, colour, style in TEMPERATURES:
+    for col, label, colour, style in (*TEMPERATURES[:3], (scale["col"], scale["name"], "#1d4e89", "-")):
         if col in df.columns and df[col].notna().any():
             ax.plot(t, df[col].to_numpy(float), style, color=colour, lw=1.2, label=label)
             values.append(df[col].to_numpy(float))
@@ -112,7 +124,7 @@ def _draw_temperatures(ax, df: pd.DataFrame, t) -> None:
     lo, hi = float(np.nanmin(allv)), float(np.nanmax(allv))
     pad = max(1.0, 0.08 * (hi - lo))
     ax.set_ylim(lo - pad, hi + pad)
-    _utci_band_shading(ax, lo - pad, hi + pad)
+    _utci_band_shading(ax, lo - pad, hi + pad, scale)
     ax.set_ylabel("[°C]")
     ax.legend(loc="upper left", fontsize=7, ncols=3, frameon=True, framealpha=0.8)
 
@@ -164,7 +176,8 @@ def _time_axis(ax, t, zone) -> None:
     ax.set_xlabel(f"local time ({zone.key if hasattr(zone, 'key') else zone})", fontsize=8)
 
 
-def timeseries_figure(df: pd.DataFrame, zone, title: str = "", flag_labels: dict | None = None):
+def timeseries_figure(df: pd.DataFrame, zone, title: str = "", flag_labels: dict | None = None,
+                      index: str = "utci"):
     """The stacked time-series figure (matplotlib Figure) of one walk in local time.
 
     Panels appear only for columns present: temperatures (air, Tmrt, UTCI on the UTCI
@@ -190,7 +203,7 @@ def timeseries_figure(df: pd.DataFrame, zone, title: str = "", flag_labels: dict
         fig.suptitle(title, fontsize=11)
     _draw_votes(by["votes"], votes, vt)
     if "temp" in by:
-        _draw_temperatures(by["temp"], df, t)
+        _draw_temperatures(by["temp"], df, t, index_scale(index))
     _draw_noise_light(by, df, t)
     if "motion" in by:
         _draw_motion(by["motion"], df, t)
@@ -233,23 +246,24 @@ def _draw_scene(ax, scene_gj: dict, lon0: float, lat0: float, kx: float, ky: flo
                                      alpha=0.5, zorder=0))
 
 
-def _utci_colours(fig, ax, x, y, utci: np.ndarray) -> None:
-    """Track points coloured by UTCI band, on a scale of only the bands the walk reaches."""
+def _utci_colours(fig, ax, x, y, utci: np.ndarray, scale: dict | None = None) -> None:
+    """Track points coloured by UTCI band (or PET class), on a scale of only the bands the walk reaches."""
     from matplotlib.colors import BoundaryNorm, ListedColormap
 
+    scale = scale or index_scale()
     lo, hi = float(np.nanmin(utci)), float(np.nanmax(utci))
-    bands = [b for b in reversed(C.UTCI_BANDS) if b[1] >= lo and b[0] < hi]  # cold to hot, those reached
+    bands = sorted((b for b in scale["bands"] if b[1] >= lo and b[0] < hi), key=lambda b: b[0])  # cold to hot
     inner = [b[1] for b in bands[:-1]]
     bounds = [min(lo, inner[0] - 1.0) if inner else lo - 1.0, *inner, max(hi, inner[-1] + 1.0) if inner else hi + 1.0]
-    cmap = ListedColormap([P.UTCI_BAND_COLOURS[b[2]] for b in bands])
+    cmap = ListedColormap([scale["colours"][b[2]] for b in bands])
     sc = ax.scatter(x, y, c=utci, cmap=cmap, norm=BoundaryNorm(bounds, cmap.N), s=9, zorder=2, linewidths=0)
     cb = fig.colorbar(sc, ax=ax, shrink=0.8, ticks=bounds)
-    cb.set_label("UTCI [°C] (assessment-scale bands reached)", fontsize=7)
+    cb.set_label(f"{scale['name']} [°C] ({scale['scale']})", fontsize=7)
     cb.ax.set_yticklabels([f"{v:.0f}" for v in bounds])
     cb.ax.tick_params(labelsize=6)
 
 
-def track_figure(df: pd.DataFrame, zone, scene: dict | None = None):
+def track_figure(df: pd.DataFrame, zone, scene: dict | None = None, index: str = "utci"):
     """Small map of the track (local metres) coloured by UTCI, votes on top, the scene underneath if given."""
     ok = df[C.LAT].notna() & df[C.LON].notna()
     tr = df[ok]
@@ -262,8 +276,9 @@ def track_figure(df: pd.DataFrame, zone, scene: dict | None = None):
     ax = fig.add_subplot(1, 1, 1)
     fig.subplots_adjust(left=0.16, right=0.98, top=0.97, bottom=0.12)
     ax.plot(x, y, color="#555555", lw=1.0, zorder=1)
-    if _has(tr, C.UTCI_C):
-        _utci_colours(fig, ax, x, y, tr[C.UTCI_C].to_numpy(float))
+    scale = index_scale(index)
+    if _has(tr, scale["col"]):
+        _utci_colours(fig, ax, x, y, tr[scale["col"]].to_numpy(float), scale)
     votes = vote_rows(tr)
     classes = votes[C.VOTE_COMFORT] if C.VOTE_COMFORT in votes.columns else [None] * len(votes)
     for row_x, row_y, cls in zip((votes[C.LON].to_numpy(float) - tr[C.LON].mean()) * kx,

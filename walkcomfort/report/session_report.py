@@ -29,6 +29,7 @@ import pandas as pd
 from walkcomfort import columns as C
 from walkcomfort._html import esc, page
 from walkcomfort._io import atomic_write_text
+from walkcomfort.environment.indices import with_pet
 from walkcomfort.errors import InputError
 from walkcomfort.report import session_figures as F
 
@@ -285,17 +286,18 @@ def _qa_section(data: pd.DataFrame, qa: dict, quarantine: pd.DataFrame | None) -
     return parts
 
 
-def _along_section(data: pd.DataFrame, zone, scene) -> list[str]:
+def _along_section(data: pd.DataFrame, zone, scene, index: str = "utci") -> list[str]:
     parts = ["<h2>Along the walk</h2>"]
     if not any(c in data.columns for c in (C.TMRT_C, C.UTCI_C)):
         parts.append("<p>This timeline has no Tmrt or UTCI yet: run <code>walkcomfort thermal</code> on it to add "
                      "the thermal environment.</p>")
-    ts = F.timeseries_figure(data, zone, flag_labels={c: flag_label(c) for c in F.qa_flags(data)})
-    parts.append(f'<img class="plot" alt="Time series of air temperature, Tmrt, UTCI, noise, light, speed and '
+    name = F.index_scale(index)["name"]
+    ts = F.timeseries_figure(data, zone, flag_labels={c: flag_label(c) for c in F.qa_flags(data)}, index=index)
+    parts.append(f'<img class="plot" alt="Time series of air temperature, Tmrt, {name}, noise, light, speed and '
                  f'elevation with votes" src="data:image/png;base64,{F.png_base64(ts)}">')
     if C.LAT in data.columns and C.LON in data.columns and data[[C.LAT, C.LON]].notna().all(axis=1).sum() >= 2:
-        tf = F.track_figure(data, zone, _scene_geojson(scene))
-        parts.append(f'<img class="map" alt="Map of the track coloured by UTCI with the votes" '
+        tf = F.track_figure(data, zone, _scene_geojson(scene), index=index)
+        parts.append(f'<img class="map" alt="Map of the track coloured by {name} with the votes" '
                      f'src="data:image/png;base64,{F.png_base64(tf)}">')
     return parts
 
@@ -327,7 +329,8 @@ def _provenance_section(data: pd.DataFrame, qa: dict) -> list[str]:
 
 
 def session_report_html(data: pd.DataFrame, qa: dict, quarantine: pd.DataFrame | None = None,
-                        title: str | None = None, timezone: str | None = None, scene=None) -> str:
+                        title: str | None = None, timezone: str | None = None, scene=None,
+                        index: str = "utci") -> str:
     """The session report page as a string (see :func:`write_session_report`)."""
     from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
@@ -342,7 +345,8 @@ def session_report_html(data: pd.DataFrame, qa: dict, quarantine: pd.DataFrame |
     title = title or f"Session {walk_id}"
     parts = [f"<h1>{_e(title)}</h1>", f'<p class="caution">{_e(FIELD_CAUTION)}</p>',
              _facts(data, qa, session, zone, tz_name, walk_id),
-             *_qa_section(data, qa, quarantine), *_along_section(data, zone, scene),
+             *_qa_section(data, qa, quarantine),
+             *_along_section(with_pet(data) if index == "pet" else data, zone, scene, index),
              *_votes_section(data, zone), *_provenance_section(data, qa)]
     return page(title, "\n".join(parts), style=_CSS)
 
@@ -378,7 +382,7 @@ def _scene_geojson(scene) -> dict | None:
 
 def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "session_report.html", *,
                          quarantine=None, title: str | None = None, timezone: str | None = None,
-                         scene=None) -> Path:
+                         scene=None, index: str = "utci") -> Path:
     """Write the HTML session report of one walk (atomically).
 
     Parameters
@@ -398,6 +402,9 @@ def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "sessi
         IANA zone for local times (default the session's zone).
     scene : path, dict or Scene, optional
         Scene GeoJSON drawn under the track in the small map.
+    index : {"utci", "pet"}
+        The thermal index drawn with its bands or classes (PET computed from the environment
+        columns when the timeline lacks ``pet_c``).
 
     Returns
     -------
@@ -405,5 +412,5 @@ def write_session_report(timeline, qa=None, out_html: str | os.PathLike = "sessi
         The written file.
     """
     data, qa_d, quar = load_session(timeline, qa, quarantine)
-    text = session_report_html(data, qa_d, quar, title=title, timezone=timezone, scene=scene)
+    text = session_report_html(data, qa_d, quar, title=title, timezone=timezone, scene=scene, index=index)
     return atomic_write_text(out_html, text)
