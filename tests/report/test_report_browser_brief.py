@@ -14,10 +14,11 @@ pytestmark = pytest.mark.browser
 
 
 def _comparison_folder(folder, label_scheme=None):
-    pred = S.predictions(schemes=("base", "trees"))
+    # three schemes and a long notice: the page must still be one
+    pred = S.predictions(schemes=("base", "trees", "awnings", "pergola"))
     meta = {"attrs": {"session": {"timezone": "Europe/Madrid", "site": "Invented square", "clo": 0.5},
                       "route_id": "r1", "weather": "stated conditions", "predictor": "physics-rule",
-                      "notices": ["an invented table"]}}
+                      "notices": ["an invented table; " * 12]}}
     _io.write_parquet(folder / "points.parquet", pred, meta)
     summ = S.summaries(pred)
     _io.write_parquet(folder / "summary.parquet", summ, meta)

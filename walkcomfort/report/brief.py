@@ -31,14 +31,14 @@ from walkcomfort.report.tables import read_route_tables
 CHROMIUM_FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
                   "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-extensions",
                   "--disable-default-apps", "--hide-scrollbars", "--mute-audio")
-SNAPSHOT_SIZE = (1100, 640)
+SNAPSHOT_SIZE = (1100, 460)
 CAVEATS = (
     "Planning estimates from a comfort model and simulated walks under one weather series; they compare "
     "design options and are not a heat-safety assessment.",
     "A difference whose interval includes zero is within model error: the schemes cannot be told apart there.",
     "Design decisions rest with local codes, heat-health guidance and licensed professional practice.",
 )
-HEADLINE = (("scheme", "Scheme"), ("departure", "Best departure (local)"),
+HEADLINE = (("scheme", "Scheme"), ("departure", "Departure (local)"),
             ("d_comf", "Δ expected comfortable minutes [min] (interval)"),
             ("d_dose", "Δ heat dose [°C·min]"), ("d_peak", "Δ peak UTCI [°C]"))
 
@@ -100,11 +100,12 @@ def signed(v: float, digits: int) -> str:
 
 
 def headline_rows(comparison: pd.DataFrame, best: pd.DataFrame, timezone: str, labels: dict) -> list[dict]:
-    """One row per scheme: its best departure and the comparison's changes at that departure."""
+    """One row per scheme: its best departure (``best``: scheme, departure) and the comparison's changes there."""
     rows = []
     comp = comparison.assign(_dep=pd.to_datetime(comparison["departure"], utc=True))
     for _, b in best[best["scheme"] != BASE].iterrows():
-        dep = pd.Timestamp(b["departure"]).tz_convert("UTC")
+        dep = pd.Timestamp(b["departure"])
+        dep = dep.tz_convert("UTC") if dep.tzinfo else dep.tz_localize("UTC")
         hit = comp[(comp["scheme"] == b["scheme"]) & (comp["_dep"] == dep)]
         if hit.empty:
             continue
@@ -144,36 +145,42 @@ def model_validity(bundle: Path | None, peak_utci: float | None) -> str:
 
 
 STYLE = """
-@page { size: A4 portrait; margin: 11mm; }
-body { font: 10pt/1.35 system-ui, -apple-system, "Segoe UI", Roboto, "DejaVu Sans", sans-serif; color: #1b1b1b;
+@page { size: A4 portrait; margin: 10mm; }
+body { font: 9.5pt/1.3 system-ui, -apple-system, "Segoe UI", Roboto, "DejaVu Sans", sans-serif; color: #1b1b1b;
   max-width: 190mm; margin: 0 auto; }
-h1 { font-size: 15pt; margin: 0 0 2mm; }
-.ctx { display: grid; grid-template-columns: auto 1fr; gap: 0.5mm 4mm; margin: 0 0 3mm; }
+h1 { font-size: 14pt; margin: 0 0 2mm; } h2 { font-size: 10.5pt; margin: 2mm 0 1mm; }
+.ctx { display: grid; grid-template-columns: auto 1fr; gap: 0.3mm 4mm; margin: 0 0 2mm; }
 .ctx dt { color: #444; } .ctx dd { margin: 0; }
-figure { margin: 0 0 3mm; } figure img { width: 100%; border: 1px solid #999; }
-figcaption { font-size: 8.5pt; color: #444; }
-table { border-collapse: collapse; width: 100%; margin: 0 0 3mm; font-size: 9.5pt; }
-th, td { border: 1px solid #bbb; padding: 1mm 2mm; text-align: right; vertical-align: top; }
+figure { margin: 0 0 2mm; } figure img { width: 100%; max-height: 66mm; object-fit: contain; border: 1px solid #999; }
+figcaption { font-size: 8pt; color: #444; }
+table { border-collapse: collapse; width: 100%; margin: 0 0 1.5mm; font-size: 8.5pt; }
+th, td { border: 1px solid #bbb; padding: 0.4mm 1.5mm; text-align: right; vertical-align: top; }
 th:first-child, td:first-child { text-align: left; } th { background: #eee; }
-.note { font-size: 8.5pt; color: #333; margin: 1mm 0; }
-ul.caveats { font-size: 8.5pt; margin: 1mm 0 0 5mm; padding: 0; }
+.note { font-size: 8pt; color: #333; margin: 1mm 0; }
+ul.caveats { font-size: 8pt; margin: 1mm 0 0 5mm; padding: 0; }
 """
 
 
+def _headline_table(rows: list[dict]) -> str:
+    head = "".join(f"<th>{esc(label)}</th>" for _, label in HEADLINE)
+    body = "".join("<tr>" + "".join(f"<td>{esc(r[k])}</td>" for k, _ in HEADLINE) + "</tr>" for r in rows)
+    return f"<table><tr>{head}</tr>{body or '<tr><td colspan=5>no scheme to compare</td></tr>'}</table>"
+
+
 def brief_html(title: str, context: dict, rows: list[dict], snapshot: bytes | None, caption: str,
-               validity: str, notes: list[str]) -> str:
+               validity: str, notes: list[str], hottest: tuple[str, list[dict]] | None = None) -> str:
     """The brief page (all text escaped; the snapshot as a data URI)."""
     ctx = "".join(f"<dt>{esc(k)}</dt><dd>{esc(v)}</dd>" for k, v in (
         ("Site", context.get("site")), ("Date", context.get("date")), ("Weather", context.get("weather")),
         ("Design day", context.get("design_day")), ("Walker", context.get("walker")),
         ("Model", context.get("model"))) if v)
-    head = "".join(f"<th>{esc(label)}</th>" for _, label in HEADLINE)
-    body = "".join("<tr>" + "".join(f"<td>{esc(r[k])}</td>" for k, _ in HEADLINE) + "</tr>" for r in rows)
     img = (f'<figure><img alt="Map: each scheme minus the base along the route" '
            f'src="data:image/png;base64,{base64.b64encode(snapshot).decode()}">'
            f"<figcaption>{esc(caption)}</figcaption></figure>") if snapshot else ""
     parts = [f"<h1>{esc(title)}</h1>", f'<dl class="ctx">{ctx}</dl>', img,
-             f"<table><tr>{head}</tr>{body or '<tr><td colspan=5>no scheme to compare</td></tr>'}</table>",
+             "<h2>At each scheme's best departure</h2>", _headline_table(rows),
+             *([f"<h2>At the hottest departure ({esc(hottest[0])})</h2>", _headline_table(hottest[1])]
+               if hottest and hottest[1] else []),
              '<p class="note">Δ = scheme − base on the same simulated walk. Expected comfortable minutes add up the '
              "model's chance of feeling comfortable over the walk; heat dose adds up UTCI above 26 °C over time. "
              "Negative heat dose and peak UTCI are improvements.</p>",
@@ -219,10 +226,17 @@ def write_brief(folder: Path, out_dir: Path, *, scene=None, schemes=(), pdf: boo
         with tempfile.TemporaryDirectory(prefix="walkcomfort-brief-") as tmp:
             snapshot = snapshot_png(write_map(fmap, Path(tmp) / "map.html", size_budget_bytes=None))
     peak = float(t["predictions"]["utci_c"].max()) if "utci_c" in t["predictions"] else None
+    routes = fmap.data["routes"]
+    hot_iso = routes["deps"][routes["open"]["dep"]]["iso"] if routes and routes["deps"] else None
+    hottest = None
+    if hot_iso is not None:
+        at_hot = pd.DataFrame({"scheme": sorted(set(comparison["scheme"])), "departure": pd.Timestamp(hot_iso)})
+        hottest = (routes["deps"][routes["open"]["dep"]]["label"], headline_rows(comparison, at_hot, zone, labels))
     html_text = brief_html(title or f"Shade schemes on route {route}: one-page brief", fmap.data["context"],
                            headline_rows(comparison, best, zone, labels), snapshot,
                            "Map: " + (fmap.data["context"].get("opened") or ""),
-                           model_validity(_bundle_of(t["provenance"]), peak), list(t["attrs"].get("notices") or []))
+                           model_validity(_bundle_of(t["provenance"]), peak), list(t["attrs"].get("notices") or []),
+                           hottest=hottest)
     html_path = _io.atomic_write_text(out_dir / f"brief_{route}.html", html_text)
     written = [html_path]
     if pdf:

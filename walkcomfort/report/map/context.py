@@ -12,6 +12,7 @@ import json
 from pathlib import Path
 
 import pandas as pd
+import pyarrow.parquet as pq
 
 from walkcomfort.report.map.inputs import as_text
 
@@ -52,11 +53,28 @@ def model_text(bundle: str | Path | None, predictor: str | None) -> str | None:
         if manifest.get(key):
             trained = str(manifest[key])[:10]
             break
+    trained = trained or _training_dates(bundle)
     digest = digest or str(manifest.get("model_digest", "")).rsplit(":", 1)[-1][:8] or None
     if manifest.get("n_train_rows"):
         votes = f"{manifest['n_train_rows']} votes from {manifest.get('n_train_groups', '?')} walkers"
-    bits = [f"trained {trained}" if trained else "training date not recorded", votes, digest and f"digest {digest}"]
+    bits = [f"trained on walks of {trained}" if trained else "training date not recorded", votes,
+            digest and f"digest {digest}"]
     return f"{name} ({', '.join(b for b in bits if b)})"
+
+
+def _training_dates(bundle: Path) -> str | None:
+    """The days of the walks a bundle was fitted on, from its out-of-fold predictions (one row per vote)."""
+    path = bundle / "oof_predictions.parquet"
+    try:
+        times = pd.DatetimeIndex(pq.read_table(path, columns=["time"]).column("time").to_pandas())
+    except (OSError, ValueError, KeyError):
+        return None
+    if not len(times):
+        return None
+    first, last = times.min(), times.max()
+    if first.date() == last.date():
+        return first.strftime("%d %b %Y")
+    return f"{first.strftime('%d %b')}–{last.strftime('%d %b %Y')}"
 
 
 def _weather_text(params: dict, attrs: dict) -> str | None:
