@@ -53,7 +53,7 @@ from walkcomfort.session.readers import read_source
 
 CONTINUOUS = ("weather", "noise", "light")
 #: flags of the track (the glossary's qa_* family): filled at the last position; inside a vehicle leg
-QA_STILL_FILL, QA_VEHICLE = "qa_still_fill", "qa_vehicle"
+QA_TRACK_FILL, QA_VEHICLE = "qa_track_fill", "qa_vehicle"
 #: share of readings with a lag error above 1 K beyond which the summary warns that a sensor never settled
 UNSETTLED_WARN_FRAC = 0.5
 
@@ -124,9 +124,13 @@ class TimelineBuilder:
         self.book.drop(gps.name, jumps, "gps_jump")
         g = self.frames[gps.name]
         if len(g) < 2:
-            raise InputError(f"the GPS track has {len(g)} usable fix(es); a timeline needs at least two",
-                             where=gps.display, fix="see the quarantine reasons printed above (written with the "
-                                                   "quarantine table) and check the file's times and coordinates")
+            q = self.quarantine()
+            counts = q.loc[q["source"] == gps.name, "reason"].value_counts()
+            why = ", ".join(f"{k} {v}" for k, v in counts.head(3).items()) or "none set aside"
+            raise InputError(f"the GPS track has {len(g)} usable fix(es) of {self.metas[gps.name]['rows_read']} "
+                             f"({why}); a timeline needs at least two", where=gps.display,
+                             fix="check the file's times and coordinates (the quarantine table lists every point "
+                                 "set aside)")
         _walks.refuse_long_track(g.index, self.limits, spec.tz, gps.display, str(spec.manifest_path))
         for s in spec.sources:
             df = self.frames[s.name]
@@ -183,14 +187,18 @@ class TimelineBuilder:
         cols = [c for c in (LAT, LON, ELEV_M, HR_BPM, T_DEVICE_C) if c in g.columns]
         fixes = g[cols].to_numpy(float)
         vals, gap = _st.to_steps(g.index.asi8, fixes, self.s_ns, self.step_ns, mg, energy=False)
-        vals, gap, still = _track.fill_still(self.s_ns, g.index.asi8, fixes, vals, gap, self.limits)
+        vals, gap, still, sparse = _track.fill_track_gaps(self.s_ns, g.index.asi8, fixes, vals, gap, self.limits)
         for j, c in enumerate(cols):
             self.out[c] = vals[:, j]
         _st.add_track(self.out, p["step_s"], p["elev_smooth_s"], p["track_smooth_s"])
-        self.gps_gap, self.still = gap, still
+        self.gps_gap, self.track_fill = gap, still | sparse
+        if len(self.vehicle_times):
+            self.warnings.append(f"{gps.name}: {len(self.vehicle_times)} fixes in vehicle legs (sustained speed above "
+                                 f"{self.limits['vehicle_speed_ms']:g} m/s), flagged qa_vehicle: cut them with "
+                                 "[session] start/end if they are not part of the walk")
         meta = self.metas[gps.name]
         self.extra[gps.name] = {"gps_jumps": self.n_jumps, **_st.gap_extra(g.index, mg, self.steps, gap),
-                                "still_filled_steps": int(still.sum()),
+                                "still_filled_steps": int(still.sum()), "sparse_filled_steps": int(sparse.sum()),
                                 "vehicle_fixes": int(len(self.vehicle_times)),
                                 **{k: meta.get(k) for k in ("gpx_version", "extensions", "n_segments",
                                                             "waypoints_ignored", "routes_ignored") if k in meta}}
@@ -324,7 +332,7 @@ class TimelineBuilder:
         if QA_SETTLING in self.flags:
             out[QA_SETTLING] = self.flags[QA_SETTLING]
         out[QA_GPS_JUMP] = self._step_flag(self.jump_times)
-        out[QA_STILL_FILL] = self.still
+        out[QA_TRACK_FILL] = self.track_fill
         out[QA_VEHICLE] = self._span_flag(self.vehicle_times)
         order = [c for c in column_order if c in out.columns] + [c for c in out.columns if c not in column_order]
         self.out = out[order]

@@ -18,8 +18,11 @@ key                        default  meaning
                                     (and at most ``outlier_max_fixes``) is quarantined as ``time_outlier``
 ``outlier_max_fixes``      20
 ``max_still_fill_s``       600      a gap between two fixes at the same place is filled (at the last
-                                    position, flagged ``qa_still_fill``) when at most this long [s]
+                                    position, flagged ``qa_track_fill``) when at most this long [s]
 ``still_radius_m``         15       "the same place": the two fixes at most this far apart [m]
+``max_sparse_gap_s``       120      a gap at walking speed (a receiver logging sparsely) is interpolated
+                                    (flagged ``qa_track_fill``) when at most this long [s]
+``sparse_max_speed_ms``    2.5      "walking speed" for that rule [m s⁻¹]
 ``vehicle_speed_ms``       4        a sustained speed above this marks a vehicle leg [m s⁻¹]
 ``vehicle_min_s``          30       … sustained for at least this long [s]
 ``accept_losses``          false    proceed although a source failed the loss limits (written to qa.json)
@@ -49,6 +52,8 @@ LIMITS: dict[str, tuple[float, float, float]] = {
     "outlier_max_fixes": (20.0, 0.0, 1e6),
     "max_still_fill_s": (600.0, 0.0, 7200.0),
     "still_radius_m": (15.0, 0.0, 500.0),
+    "max_sparse_gap_s": (120.0, 0.0, 3600.0),
+    "sparse_max_speed_ms": (2.5, 0.1, 10.0),
     "vehicle_speed_ms": (4.0, 1.0, 100.0),
     "vehicle_min_s": (30.0, 1.0, 3600.0),
 }

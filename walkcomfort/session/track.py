@@ -2,8 +2,9 @@
 
 - Many receivers log only while moving ("smart" or motion-triggered recording): a stop
   shows as a gap between two fixes at the same place. Such a gap, up to ``max_still_fill_s``
-  and with both fixes within ``still_radius_m``, is filled at the last position and flagged
-  ``qa_still_fill`` (the walker stood there; sensors keep their own gaps).
+  and with both fixes within ``still_radius_m``, is filled at the last position; a gap of up
+  to ``max_sparse_gap_s`` at walking speed (a straight stretch the receiver did not log) is
+  interpolated. Both are flagged ``qa_track_fill`` (sensors keep their own gaps).
 - A leg in a vehicle is a sustained speed above ``vehicle_speed_ms`` for at least
   ``vehicle_min_s``: its fixes are kept and flagged ``qa_vehicle`` as one segment, and jumps
   are looked for on each side of it separately, so the leg is not a cascade of jumps.
@@ -42,7 +43,14 @@ def vehicle_legs(t_ns: np.ndarray, lat, lon, limits: dict) -> np.ndarray:
     if not fast.any():
         return out
     edges = np.flatnonzero(np.diff(np.concatenate([[0], fast.astype(np.int8), [0]])))
-    for a, b in zip(edges[::2], edges[1::2], strict=True):   # intervals a..b-1 → fixes a..b
+    runs: list[list[int]] = []
+    for a, b in zip(edges[::2], edges[1::2], strict=True):   # fast intervals a..b-1 → fixes a..b
+        # a short slow stretch (a junction, a stop at lights) does not end the leg
+        if runs and (t[a] - t[runs[-1][1]]) / 1e9 <= limits["vehicle_min_s"] / 2:
+            runs[-1][1] = b
+        else:
+            runs.append([a, b])
+    for a, b in runs:
         if b - a >= 2 and (t[b] - t[a]) / 1e9 >= limits["vehicle_min_s"]:
             out[a:b + 1] = True
     return out
@@ -60,28 +68,38 @@ def find_jumps(times: pd.DatetimeIndex, lat, lon, max_speed_ms: float, vehicle: 
     return jumps
 
 
-def fill_still(steps_ns: np.ndarray, t_ns: np.ndarray, fixes: np.ndarray, values: np.ndarray, gap: np.ndarray,
-               limits: dict) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Fill gap steps between two fixes at the same place with the last fix.
+def fill_track_gaps(steps_ns: np.ndarray, t_ns: np.ndarray, fixes: np.ndarray, values: np.ndarray, gap: np.ndarray,
+                    limits: dict) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Fill gap steps of a track recorded sparsely.
 
+    Between two fixes at the same place (``still_radius_m``, at most ``max_still_fill_s``
+    apart) the walker stood: the steps take the last fix. Between two fixes at most
+    ``max_sparse_gap_s`` apart that imply walking speed (at most ``sparse_max_speed_ms``)
+    the receiver logged sparsely while moving on: the steps are interpolated linearly.
     ``fixes`` (n_fixes, k) holds the fix columns with lat, lon first, ``values`` (n_steps, k)
-    the same columns on the steps. Returns the values (a copy), the gap flag with filled steps
-    cleared, and the fill flag.
+    the same columns on the steps. Returns the values (a copy), the gap flag with filled
+    steps cleared, and the flags of still-filled and sparse-filled steps.
     """
     t = np.asarray(t_ns, dtype=np.int64)
-    fill = np.zeros(len(steps_ns), dtype=bool)
-    if len(t) < 2 or limits["max_still_fill_s"] <= 0 or not gap.any():
-        return values, gap, fill
+    none = np.zeros(len(steps_ns), dtype=bool)
+    if len(t) < 2 or not gap.any():
+        return values, gap, none, none
     lat, lon = fixes[:, 0], fixes[:, 1]
     d = _qa.haversine_m(lat[:-1], lon[:-1], lat[1:], lon[1:])
     dt = np.diff(t) / 1e9
     still = (d <= limits["still_radius_m"]) & (dt <= limits["max_still_fill_s"])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sparse = ~still & (dt <= limits["max_sparse_gap_s"]) & (d / dt <= limits["sparse_max_speed_ms"])
     j = np.searchsorted(t, steps_ns, side="right") - 1
-    inside = (j >= 0) & (j < len(t) - 1)
+    inside = gap & (j >= 0) & (j < len(t) - 1)
     jc = np.clip(j, 0, len(t) - 2)
-    fill = gap & inside & still[jc]
-    if not fill.any():
-        return values, gap, fill
+    fill_still = inside & still[jc]
+    fill_sparse = inside & sparse[jc]
+    if not (fill_still.any() or fill_sparse.any()):
+        return values, gap, fill_still, fill_sparse
     vals = np.array(values, dtype=float, copy=True)
-    vals[fill] = fixes[j[fill]]
-    return vals, gap & ~fill, fill
+    vals[fill_still] = fixes[j[fill_still]]
+    k = np.flatnonzero(fill_sparse)
+    w = ((steps_ns[k] - t[jc[k]]) / (t[jc[k] + 1] - t[jc[k]]))[:, None]
+    vals[k] = fixes[jc[k]] + w * (fixes[jc[k] + 1] - fixes[jc[k]])
+    return vals, gap & ~fill_still & ~fill_sparse, fill_still, fill_sparse
