@@ -36,6 +36,20 @@ MARGIN_M = 1.5
 TAU_STORE_MAX = 1.0 - 1e-9
 
 
+class SceneRef:
+    """The base scene carried in a walk table's ``attrs``, shared rather than copied.
+
+    pandas deep-copies ``attrs`` on every derived frame (each column access); a scene
+    holds thousands of geometries, so the reference copies as itself.
+    """
+
+    def __init__(self, scene: Scene):
+        self.scene = scene
+
+    def __deepcopy__(self, memo):
+        return self
+
+
 @dataclass
 class Option:
     """One site with one intervention, and the rows its shade reaches."""
@@ -151,7 +165,7 @@ def add_scene_xy(table: pd.DataFrame, scene: Scene) -> pd.DataFrame:
     x, y = scene.project(table[C.LON].to_numpy(float), table[C.LAT].to_numpy(float))
     out = table.copy()
     out["_x"], out["_y"] = np.asarray(x, float), np.asarray(y, float)
-    out.attrs = {**table.attrs, "scene": scene}
+    out.attrs = {**table.attrs, "scene": SceneRef(scene)}
     return out
 
 
