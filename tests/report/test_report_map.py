@@ -403,3 +403,25 @@ def test_any_note_or_label_stays_data():
         assert data["schemes"][0]["label"] == (label or "x")
 
     check()
+
+
+def test_title_block_context_from_the_routes_table(tmp_path):
+    from walkcomfort import _io
+    from walkcomfort.report.map.context import context_from_table
+
+    bundle = tmp_path / "model-planned"
+    _io.write_json(bundle / "manifest.json", {"schema": "walkcomfort-model/1", "model_digest": "sha256:" + "ab" * 32,
+                                              "n_train_rows": 440, "n_train_groups": 8})
+    attrs = {"route_id": "r1", "predictor": "model:sha256:abababababababab",
+             "session": {"site": "r1", "timezone": "Europe/Madrid", "clo": 0.5}}
+    prov = {"inputs": {str(bundle / "manifest.json"): "sha256:00"},
+            "parameters": {"walker": {"age_band": "25-34", "clo": 0.5, "acclimatised": True}, "design_day": None,
+                           "weather": {"label": "logger /x/design-day.csv"}}}
+    ctx = context_from_table(attrs, prov)
+    assert ctx["site"].startswith("route r1 (no site name given")  # a route id is not a site name
+    assert ctx["walker"] == "age 25-34, clothing 0.5 clo, acclimatised to heat"
+    assert ctx["weather"] == "logger file design-day.csv"
+    assert ctx["model"] == "model-planned (training date not recorded, 440 votes from 8 walkers, digest abababab)"
+    assert "no design-day rule" in ctx["design_day"]
+    attrs["session"]["site"] = "Invented square"
+    assert context_from_table(attrs, prov)["site"] == "Invented square"

@@ -77,6 +77,13 @@ def _training_dates(bundle: Path) -> str | None:
     return f"{first.strftime('%d %b')}–{last.strftime('%d %b %Y')}"
 
 
+def _site_text(site: str | None, route: str | None) -> str | None:
+    # a simulated walk names its site after the route when no site was stated
+    if site and site != route:
+        return site
+    return f"route {route} (no site name given; walkcomfort map --site names it)" if route else None
+
+
 def _weather_text(params: dict, attrs: dict) -> str | None:
     w = params.get("weather")
     label = w.get("label") if isinstance(w, dict) else as_text(w)
@@ -100,7 +107,7 @@ def context_from_table(attrs: dict, provenance: dict | None = None, bundle: str 
     design = params.get("design_day")
     walker = params.get("walker") or {k: session.get(k) for k in WALKER_WORDS if k in session}
     return {
-        "site": as_text(session.get("site")) or as_text(attrs.get("route_id")),
+        "site": _site_text(as_text(session.get("site")), as_text(attrs.get("route_id"))),
         "date": ", ".join(dates) if dates else None,
         "weather": _weather_text(params, attrs),
         "design_day": (f"design day: {design}" if design else
