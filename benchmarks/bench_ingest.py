@@ -6,9 +6,16 @@ times) and a vote every 5 min. Prints the time of ``build_timeline`` + writing t
 outputs at full size (goal: under 3 s on 2 cores), and the ratio against a naive
 row-by-row baseline (pure-Python parsing and a scan of every reading for every
 step) run in the same process on a 30-minute subsample, where the naive way is
-still bearable (its scan grows as steps × readings). Run:
+still bearable (its scan grows as steps × readings).
 
-    python benchmarks/bench_ingest.py [--hours 3] [--sub-minutes 30]
+Runaway inputs (``--runaway``, also run by default): ``walkcomfort check`` in a child process
+on (a) a GPX spanning two years (a fix every 10 min, 105,120 fixes), which must be refused with
+its candidate walks, and (b) a 10-minute 1 Hz walk with one extra fix dated 1970, which must pass
+with that fix quarantined. Each must finish in under 10 s and under 1 GB peak memory (the
+child's maximum resident set); the ratio printed is against ``check`` of the same 10-minute walk
+without the damage, run the same way. Run:
+
+    python benchmarks/bench_ingest.py [--hours 3] [--sub-minutes 30] [--runaway | --no-runaway]
 """
 
 from __future__ import annotations
@@ -169,14 +176,84 @@ def naive_ingest(folder: Path, step_s: float = 1.0, max_gap_s: float = 10.0) -> 
     return out
 
 
+GPS_ONLY = ('schema = "walkcomfort-session/1"\n[session]\nid = "runaway"\nparticipant = "B01"\n'
+            'timezone = "Europe/Madrid"\n[[source]]\nkind = "gps"\npath = "track.gpx"\n')
+
+
+def write_gpx(path: Path, times_s: np.ndarray) -> None:
+    """A GPX track at the given UTC times [s since T0] walking a circle (invented data)."""
+    ang = (times_s % 3600) / 600.0
+    lat = 40.0 + 400 * np.sin(ang) / 111_195.0
+    lon = -3.7 + 400 * (1 - np.cos(ang)) / (111_195.0 * math.cos(math.radians(40.0)))
+    with open(path, "w") as fh:
+        fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="bench" '
+                 'xmlns="http://www.topografix.com/GPX/1/1"><trk><trkseg>\n')
+        for ts, la, lo in zip(times_s, lat, lon, strict=True):
+            when = (T0 + timedelta(seconds=int(ts))).strftime("%Y-%m-%dT%H:%M:%SZ")
+            fh.write(f'<trkpt lat="{la:.7f}" lon="{lo:.7f}"><time>{when}</time></trkpt>\n')
+        fh.write("</trkseg></trk></gpx>\n")
+
+
+_CHILD = """
+import resource, sys, time
+t = time.perf_counter()
+from walkcomfort.cli import main
+rc = main(["check", sys.argv[1]])
+print("RESULT", rc, time.perf_counter() - t, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0, file=sys.stderr)
+"""
+
+
+def run_check(folder: Path) -> tuple[int, float, float, str]:
+    """``walkcomfort check`` in a fresh process: exit code, seconds, peak resident memory [MB], error line."""
+    import subprocess
+
+    p = subprocess.run([sys.executable, "-c", _CHILD, str(folder)], capture_output=True, text=True, timeout=600)
+    line = [ln for ln in p.stderr.splitlines() if ln.startswith("RESULT")][-1].split()
+    err = next((ln for ln in p.stderr.splitlines() if ln.startswith("error:")), "")
+    return int(line[1]), float(line[2]), float(line[3]), err
+
+
+def runaway(tmp: Path) -> None:
+    cases = {}
+    base = tmp / "walk10"
+    base.mkdir()
+    write_gpx(base / "track.gpx", np.arange(600.0))
+    (base / "session.toml").write_text(GPS_ONLY)
+    cases["baseline: 10-min walk"] = base
+    two = tmp / "two_years"
+    two.mkdir()
+    write_gpx(two / "track.gpx", np.arange(0.0, 2 * 365 * 86400, 600.0))
+    (two / "session.toml").write_text(GPS_ONLY)
+    cases["two-year GPX (105,120 fixes)"] = two
+    old = tmp / "one_in_1970"
+    old.mkdir()
+    write_gpx(old / "track.gpx", np.r_[-(T0 - datetime(1970, 1, 1, tzinfo=UTC)).total_seconds(), np.arange(600.0)])
+    (old / "session.toml").write_text(GPS_ONLY)
+    cases["10-min walk + one fix in 1970"] = old
+    base_s = None
+    for name, folder in cases.items():
+        rc, secs, mb, err = run_check(folder)
+        base_s = base_s or secs
+        ok = secs < 10 and mb < 1024
+        print(f"{name}: exit {rc}, {secs:.2f} s, peak {mb:.0f} MB, {secs / base_s:.1f}x the baseline; "
+              f"goal < 10 s and < 1 GB: {'met' if ok else 'NOT met'}" + (f"\n    {err[:240]}" if err else ""))
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--hours", type=float, default=3.0)
     ap.add_argument("--sub-minutes", type=float, default=30.0)
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--runaway", action=argparse.BooleanOptionalAction, default=True,
+                    help="Also check the runaway inputs (two-year GPX, one fix in 1970).")
+    ap.add_argument("--only-runaway", action="store_true", help="Only the runaway inputs.")
     args = ap.parse_args(argv)
     from walkcomfort.session.timeline import build_timeline
 
+    if args.only_runaway:
+        with tempfile.TemporaryDirectory() as tmp:
+            runaway(Path(tmp))
+        return 0
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         n = int(args.hours * 3600)
@@ -216,6 +293,8 @@ def main(argv=None) -> int:
               f"{t_naive / t_ours:.1f}x wall, {c_naive / c_ours:.1f}x CPU (same values: {ok})")
         # the naive scan is O(steps x rows): at full size it would take about (n/m)^2 as long
         print(f"naive at full size, extrapolated: ~{t_naive * (n / m) ** 2:.0f} s")
+        if args.runaway:
+            runaway(tmp)
     return 0
 
 
