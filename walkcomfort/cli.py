@@ -23,6 +23,8 @@ from walkcomfort.errors import WalkcomfortError
 
 # verb -> (module, attribute, one-line help). Order is the order of the data flow.
 VERBS: dict[str, tuple[str, str, str]] = {
+    "new-session": ("walkcomfort.session.commands", "new_session",
+                    "Start a session folder from the field templates, for the instruments carried."),
     "check": ("walkcomfort.session.commands", "check", "Validate a session folder; write nothing."),
     "ingest": ("walkcomfort.session.commands", "ingest", "Align one or many session folders on one timeline with QA."),
     "scene": ("walkcomfort.environment.commands", "scene", "Build a scene GeoJSON from a local OpenStreetMap extract."),

@@ -34,3 +34,24 @@ def test_session_from_templates_has_nothing_to_complain_about(tmp_path, make_tem
     assert tl.qa["clocks"]["logger1"]["offset_s"] == pytest.approx(5.0)
     assert tl.data["vote_comfort"].notna().sum() == 2
     assert tl.data["frame_path"].notna().sum() == 23   # a frame every 30 s over 12 minutes
+
+
+def test_new_session_for_the_instruments_carried_checks_once_filled(tmp_path, make_template_session, capsys):
+    from walkcomfort.session.timeline import build_timeline
+
+    folder = tmp_path / "p07-am"
+    assert main(["new-session", str(folder), "--no-sound", "--no-camera", "--participant", "P01"]) == 0
+    text = (folder / "session.toml").read_text(encoding="utf-8")
+    assert 'kind = "noise"' not in text and 'kind = "frames"' not in text and 'frame = "camera/' not in text
+    assert 'id = "p07-am"' in text and "optional: delete this [[source]] table" in text
+    # a fresh folder says what is missing, with the fix
+    assert main(["check", str(folder)]) == 2
+    assert "gps/track.gpx' not found" in capsys.readouterr().err
+    # the devices' exports copied over the empty files: the session checks cleanly
+    filled = make_template_session(tmp_path / "filled")
+    for rel in ("gps/track.gpx", "logger/weather.csv", "lux/light.csv", "votes/votes.csv"):
+        (folder / rel).write_bytes((filled / rel).read_bytes())
+    assert main(["check", str(folder)]) == 0
+    tl = build_timeline(folder)
+    assert len(tl.quarantine) == 0 and tl.qa["warnings"] == [] and tl.qa["losses"] == []
+    assert main(["new-session", str(folder)]) == 2   # never over an existing session

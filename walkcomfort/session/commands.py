@@ -160,3 +160,30 @@ def ingest(session_dirs, out_dir, step_s, max_gap_s, lag_correction, accept_loss
     if failed:
         raise WalkcomfortError(f"{len(failed)} of {len(sessions)} sessions failed (first: {failed[0]})",
                                fix="see the error lines above")
+
+
+@click.command("new-session")
+@click.argument("folder", type=click.Path(path_type=Path))
+@click.option("--weather/--no-weather", default=True, show_default=True, help="A weather logger with a globe was carried.")
+@click.option("--sound/--no-sound", default=True, show_default=True, help="A sound level meter was carried.")
+@click.option("--light/--no-light", default=True, show_default=True, help="A light meter was carried.")
+@click.option("--camera/--no-camera", default=True, show_default=True, help="A chest camera was carried.")
+@click.option("--votes/--no-votes", default=True, show_default=True, help="Comfort votes were taken.")
+@click.option("--id", "session_id", default=None, help="Session id (default: the folder name).")
+@click.option("--participant", default=None, help="The participant's code (never a name).")
+@click.option("--timezone", default=None, help="IANA zone of the site, e.g. Europe/Madrid.")
+@click.option("--templates", type=click.Path(path_type=Path), default=None,
+              help="The field_protocol/templates folder (default: the repository's).")
+def new_session(folder, weather, sound, light, camera, votes, session_id, participant, timezone, templates):
+    """Start a session folder from the field templates, for the instruments carried (the GPS always)."""
+    from walkcomfort.session.new import new_session as make
+
+    carried = {"weather": weather, "sound": sound, "light": light, "camera": camera, "votes": votes}
+    written = make(folder, carried, session_id=session_id, participant=participant, timezone=timezone,
+                   templates=templates)
+    for p in written:
+        click.echo(f"wrote {p}")
+    left = ", ".join(k for k, v in carried.items() if not v) or "none"
+    click.echo(f"instruments left out: {left}. Next: copy each device's export over the files named in "
+               f"{Path(folder) / MANIFEST_NAME}, correct every value marked CHANGE, then run "
+               f"`walkcomfort check {folder}`.")

@@ -370,7 +370,7 @@ def _source_file(s: dict, kind: str, folder: Path, m: str, w: str) -> tuple[str,
                          fix="give the folder of frames relative to the session folder" + optional)
     if fmt != "folder" and not abs_path.is_file():
         raise InputError(f"file '{rel}' not found", where=f"{m} {w} path",
-                         fix="give the file's path relative to the session folder" + optional)
+                         fix="give the file's path relative to the session folder (copy the device's export there)" + optional)
     return rel, abs_path, fmt
 
 
