@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import _io
+from walkcomfort._html import with_policy
 
 CAUTION = (
     "This model describes how the walkers in this campaign voted; it is not a heat-safety tool. "
@@ -339,4 +340,5 @@ def write_model_report(result, out_html: str | os.PathLike) -> Path:
         parts += ["<h3>Inputs</h3><ul>"] + [f"<li><code>{html.escape(str(p))}</code></li>" for p in result.inputs] \
             + ["</ul>"]
     parts.append("</body></html>\n")
-    return _io.atomic_write_text(out_html, "\n".join(parts))
+    # the shared Content-Security-Policy of every walkcomfort page (no script may run)
+    return _io.atomic_write_text(out_html, with_policy("\n".join(parts)))
