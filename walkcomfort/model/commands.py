@@ -62,7 +62,7 @@ def fit(timelines, out, preset, target, folds, rounds, seed, threads, bootstrap,
 
     for key, what in (("history-current", "history gain"), ("history-ordinal_utci", "difference to the UTCI-only "
                                                                                      "ordinal baseline"),
-                      ("history-history_free", "cost of coherence (monotone ordinal minus unconstrained)")):
+                      ("history-history_free", "difference monotone ordinal minus unconstrained multiclass (the price of coherence)")):
         if key in result.cv.gains:
             click.echo(gain_sentence(result.cv.gains[key], what))
     click.echo(f"bundle: {out}  report: {paths['report']}")
