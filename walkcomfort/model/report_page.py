@@ -139,8 +139,10 @@ def gain_sentence(gain: dict | None, what: str = "history gain") -> str:
     if not gain:
         return f"No interval could be computed for the {what}."
     d, lo, hi = gain["delta"], gain["lo"], gain["hi"]
-    interval = (f"{d:+.2f} macro-F1 ({100 * gain['level']:.0f} % interval over {gain['n_walkers']} walkers "
-                f"{lo:+.2f} … {hi:+.2f})")
+    # a bound that would print as ±0.00 gets a third decimal, so its side of 0 stays visible
+    digits = 3 if min(abs(lo), abs(hi)) < 0.005 else 2
+    interval = (f"{d:+.{digits}f} macro-F1 ({100 * gain['level']:.0f} % interval over {gain['n_walkers']} walkers "
+                f"{lo:+.{digits}f} … {hi:+.{digits}f})")
     if lo > 0:
         return f"The {what} is {interval}: larger than the model error."
     if hi < 0:
