@@ -89,6 +89,54 @@ def read_frame_labels(path: str | os.PathLike, frames: pd.DataFrame | None = Non
         raise InputError(f"scale={scale!r} is not allowed; use 'fraction' or 'percent'",
                          fix="say how the shares in the labels file are written")
     path = Path(path)
+    lines, reader, header = _open_labels(path)
+    mapping, present = _mapping(header, columns, path)
+    value_cols = [c for c in (C.SKY_FRAC, C.GREEN_FRAC, C.PEOPLE_N) if c in present]
+    if not value_cols:
+        raise InputError(f"the header {header} has no label column (looked for "
+                         f"{[mapping[c] for c in (C.SKY_FRAC, C.GREEN_FRAC, C.PEOPLE_N)]})",
+                         where=where(path, line=1), fix="add sky, vegetation or people columns, or map them")
+    if "time" not in present and frames is None:
+        raise InputError("the labels file has no time column and no frames table was given", where=path,
+                         fix="pass the session's frames table (frames=...) or add a time column with UTC offsets")
+    index = _FrameIndex(frames)
+    rows, quarantine, seen = [], [], set()
+    n_read = 0
+    for lineno, rec in enumerate(reader, start=2):
+        raw = lines[lineno - 1] if lineno - 1 < len(lines) else ""
+        if not raw.strip():
+            continue
+        n_read += 1
+        try:
+            if len(rec) != len(header):
+                raise _Bad(f"has {len(rec)} fields, the header has {len(header)}")
+            cell = {canon: rec[i].strip() for canon, i in present.items()}
+            row = _label_row(cell, index, tz, seen)
+            row.update(_label_values(cell, value_cols, mapping, scale, "frame_ok" in present))
+        except _Bad as exc:
+            quarantine.append({"source": "frame_labels", "file": path.name, "row": lineno, "reason": str(exc),
+                               "raw": raw})
+            continue
+        seen.add(row.pop("_ident"))
+        rows.append(row)
+
+    cols = [C.TIME, C.FRAME_PATH] + value_cols + [C.FRAME_OK]
+    out = pd.DataFrame(rows, columns=cols)
+    out.index = pd.DatetimeIndex(pd.to_datetime(out.pop(C.TIME), utc=True), name=C.TIME)
+    if C.PEOPLE_N in out.columns:
+        out[C.PEOPLE_N] = pd.array(out[C.PEOPLE_N].to_numpy(dtype="float64"), dtype="Float64").astype("Int64")
+    out[C.FRAME_OK] = out[C.FRAME_OK].astype(bool)
+    out = out.sort_index(kind="stable")
+    q = pd.DataFrame(quarantine, columns=["source", "file", "row", "reason", "raw"])
+    counts = {"read": n_read, "used": len(out), "quarantined": len(q)}
+    return out, {"quarantine": q, "counts": counts, "columns": {k: mapping[k] for k in present}}
+
+
+class _Bad(Exception):
+    """A labels row that cannot be used; the message is its quarantine reason."""
+
+
+def _open_labels(path: Path):
     try:
         text = path.read_text(encoding="utf-8-sig")
     except FileNotFoundError:
@@ -102,7 +150,11 @@ def read_frame_labels(path: str | os.PathLike, frames: pd.DataFrame | None = Non
         header = [h.strip() for h in next(reader)]
     except StopIteration:
         raise InputError("labels file is empty", where=path, fix="write a header line and one row per frame") from None
+    return lines, reader, header
 
+
+def _mapping(header: list[str], columns: dict | None, path: Path) -> tuple[dict, dict]:
+    """Canonical name -> file column, and canonical name -> position of the columns present."""
     mapping = dict(DEFAULT_COLUMNS)
     explicit = dict(columns or {})
     unknown = sorted(set(explicit) - set(DEFAULT_COLUMNS))
@@ -112,10 +164,7 @@ def read_frame_labels(path: str | os.PathLike, frames: pd.DataFrame | None = Non
     mapping.update(explicit)
     for canon, aliases in _ALIASES.items():
         if canon not in explicit and mapping[canon] not in header:
-            for a in aliases:
-                if a in header:
-                    mapping[canon] = a
-                    break
+            mapping[canon] = next((a for a in aliases if a in header), mapping[canon])
     for canon, col in explicit.items():
         if col not in header:
             raise InputError(f"column {col!r} (for {canon}) is not in the header {header}", where=where(path, line=1),
@@ -125,129 +174,97 @@ def read_frame_labels(path: str | os.PathLike, frames: pd.DataFrame | None = Non
         raise InputError(f"the header {header} has neither a frame column ({mapping['frame']!r}) "
                          f"nor a time column ({mapping['time']!r})", where=where(path, line=1),
                          fix="add a 'frame' column with the file names, or map it with columns={'frame': ...}")
-    value_cols = [c for c in (C.SKY_FRAC, C.GREEN_FRAC, C.PEOPLE_N) if c in present]
-    if not value_cols:
-        raise InputError(f"the header {header} has no label column (looked for "
-                         f"{[mapping[c] for c in (C.SKY_FRAC, C.GREEN_FRAC, C.PEOPLE_N)]})",
-                         where=where(path, line=1), fix="add sky, vegetation or people columns, or map them")
-    if "time" not in present and frames is None:
-        raise InputError("the labels file has no time column and no frames table was given", where=path,
-                         fix="pass the session's frames table (frames=...) or add a time column with UTC offsets")
+    return mapping, present
 
-    by_key, by_name = {}, {}
-    if frames is not None:
+
+class _FrameIndex:
+    """The session's frames by relative path and by file name."""
+
+    def __init__(self, frames: pd.DataFrame | None):
+        self.given = frames is not None
+        self.by_key, self.by_name = {}, {}
+        if frames is None:
+            return
         if C.FRAME_PATH not in frames.columns or not isinstance(frames.index, pd.DatetimeIndex):
             raise InputError("the frames table needs a UTC time index and a frame_path column",
                              fix="pass the table returned by walkcomfort.session.readers.read_frames")
         for t, fp in zip(frames.index, frames[C.FRAME_PATH], strict=False):
-            by_key.setdefault(_key(fp), (t, _key(fp)))
-            by_name.setdefault(PurePosixPath(_key(fp)).name, []).append((t, _key(fp)))
+            self.by_key.setdefault(_key(fp), (t, _key(fp)))
+            self.by_name.setdefault(PurePosixPath(_key(fp)).name, []).append((t, _key(fp)))
 
-    rows, quarantine, seen = [], [], set()
+    def match(self, frame: str):
+        key = _key(frame)
+        matched = self.by_key.get(key)
+        if matched is None:
+            cands = self.by_name.get(PurePosixPath(key).name, [])
+            if len(cands) > 1:
+                raise _Bad(f"frame {frame!r} matches {len(cands)} frames of the session; give its relative path")
+            matched = cands[0] if cands else None
+        if matched is None:
+            raise _Bad(f"frame {frame!r} is not in the session's frames table")
+        return matched
+
+
+def _label_time(text: str, tz: str | None) -> pd.Timestamp:
+    try:
+        t = pd.Timestamp(text)
+    except (ValueError, TypeError):
+        raise _Bad(f"time {text!r} is not an ISO-8601 time") from None
+    if t.tzinfo is None:
+        if tz is None:
+            raise _Bad(f"time {text!r} has no UTC offset and no zone was declared")
+        try:
+            t = t.tz_localize(tz, ambiguous="raise", nonexistent="raise")
+        except Exception as exc:  # pytz/zoneinfo raise several types
+            raise _Bad(f"time {text!r} cannot be placed in zone {tz} ({type(exc).__name__})") from None
+    return t.tz_convert("UTC")
+
+
+def _label_row(cell: dict, index: _FrameIndex, tz: str | None, seen: set) -> dict:
+    """Time and frame of one labels row (from the row, or from the session's frames table)."""
+    frame_key = _key(cell["frame"]) if cell.get("frame") else None
+    t = _label_time(cell["time"], tz) if cell.get("time") else None
+    matched = index.match(cell["frame"]) if frame_key is not None and index.given else None
+    if t is None:
+        if matched is None:
+            raise _Bad("row has neither a time nor a frame known to the session")
+        t = matched[0]
+    fp = matched[1] if matched is not None else frame_key
+    ident = fp if fp is not None else t.isoformat()
+    if ident in seen:
+        raise _Bad(f"frame {ident!r} is labelled twice (first row kept)")
+    return {C.TIME: t, C.FRAME_PATH: fp, "_ident": ident}
+
+
+def _label_values(cell: dict, value_cols, mapping: dict, scale: str, has_ok: bool) -> dict:
+    row = {}
     factor = 100.0 if scale == "percent" else 1.0
-    n_read = 0
-    for lineno, rec in enumerate(reader, start=2):
-        raw = lines[lineno - 1] if lineno - 1 < len(lines) else ""
-        if not raw.strip():
+    for c in value_cols:
+        s = cell.get(c, "")
+        if s == "":
+            row[c] = np.nan
             continue
-        n_read += 1
-
-        def bad(reason):
-            quarantine.append({"source": "frame_labels", "file": path.name, "row": lineno, "reason": reason, "raw": raw})
-
-        if len(rec) != len(header):
-            bad(f"has {len(rec)} fields, the header has {len(header)}")
-            continue
-        cell = {canon: rec[i].strip() for canon, i in present.items()}
-        frame_key = _key(cell["frame"]) if cell.get("frame") else None
-        t = None
-        if cell.get("time"):
-            try:
-                t = pd.Timestamp(cell["time"])
-            except (ValueError, TypeError):
-                bad(f"time {cell['time']!r} is not an ISO-8601 time")
-                continue
-            if t.tzinfo is None:
-                if tz is None:
-                    bad(f"time {cell['time']!r} has no UTC offset and no zone was declared")
-                    continue
-                try:
-                    t = t.tz_localize(tz, ambiguous="raise", nonexistent="raise")
-                except Exception as exc:  # pytz/zoneinfo raise several types
-                    bad(f"time {cell['time']!r} cannot be placed in zone {tz} ({type(exc).__name__})")
-                    continue
-            t = t.tz_convert("UTC")
-        matched = None
-        if frame_key is not None and frames is not None:
-            matched = by_key.get(frame_key)
-            if matched is None:
-                cands = by_name.get(PurePosixPath(frame_key).name, [])
-                if len(cands) > 1:
-                    bad(f"frame {cell['frame']!r} matches {len(cands)} frames of the session; give its relative path")
-                    continue
-                matched = cands[0] if cands else None
-            if matched is None:
-                bad(f"frame {cell['frame']!r} is not in the session's frames table")
-                continue
-        if t is None:
-            if matched is None:
-                bad("row has neither a time nor a frame known to the session")
-                continue
-            t = matched[0]
-        fp = matched[1] if matched is not None else frame_key
-        ident = fp if fp is not None else t.isoformat()
-        if ident in seen:
-            bad(f"frame {ident!r} is labelled twice (first row kept)")
-            continue
-        row = {C.TIME: t, C.FRAME_PATH: fp}
-        problem = None
-        for c in value_cols:
-            s = cell.get(c, "")
-            if s == "":
-                row[c] = np.nan
-                continue
-            try:
-                v = float(s)
-            except ValueError:
-                problem = f"{mapping[c]}={s!r} is not a number"
-                break
-            if not np.isfinite(v):
-                problem = f"{mapping[c]}={s!r} is not a finite number"
-                break
-            if c in _SHARES:
-                v = v / factor
-                if not (0.0 <= v <= 1.0):
-                    problem = f"{mapping[c]}={s} is outside 0…{100 if scale == 'percent' else 1} ({scale})"
-                    break
-            elif v < 0 or v != np.floor(v):
-                problem = f"{mapping[c]}={s} is not a count (a whole number >= 0)"
-                break
-            row[c] = v
-        if problem is None and "frame_ok" in present:
-            s = cell["frame_ok"].lower()
-            if s in _TRUE or s == "":
-                row[C.FRAME_OK] = True
-            elif s in _FALSE:
-                row[C.FRAME_OK] = False
-            else:
-                problem = f"{mapping['frame_ok']}={cell['frame_ok']!r} is not true/false"
-        if problem is not None:
-            bad(problem)
-            continue
-        row.setdefault(C.FRAME_OK, True)
-        seen.add(ident)
-        rows.append(row)
-
-    cols = [C.TIME, C.FRAME_PATH] + value_cols + [C.FRAME_OK]
-    out = pd.DataFrame(rows, columns=cols)
-    out.index = pd.DatetimeIndex(pd.to_datetime(out.pop(C.TIME), utc=True), name=C.TIME)
-    if C.PEOPLE_N in out.columns:
-        out[C.PEOPLE_N] = pd.array(out[C.PEOPLE_N].to_numpy(dtype="float64"), dtype="Float64").astype("Int64")
-    out[C.FRAME_OK] = out[C.FRAME_OK].astype(bool)
-    out = out.sort_index(kind="stable")
-    q = pd.DataFrame(quarantine, columns=["source", "file", "row", "reason", "raw"])
-    counts = {"read": n_read, "used": len(out), "quarantined": len(q)}
-    return out, {"quarantine": q, "counts": counts, "columns": {k: mapping[k] for k in present}}
+        try:
+            v = float(s)
+        except ValueError:
+            raise _Bad(f"{mapping[c]}={s!r} is not a number") from None
+        if not np.isfinite(v):
+            raise _Bad(f"{mapping[c]}={s!r} is not a finite number")
+        if c in _SHARES:
+            v = v / factor
+            if not (0.0 <= v <= 1.0):
+                raise _Bad(f"{mapping[c]}={s} is outside 0…{100 if scale == 'percent' else 1} ({scale})")
+        elif v < 0 or v != np.floor(v):
+            raise _Bad(f"{mapping[c]}={s} is not a count (a whole number >= 0)")
+        row[c] = v
+    row[C.FRAME_OK] = True
+    if has_ok:
+        s = cell["frame_ok"].lower()
+        if s in _FALSE:
+            row[C.FRAME_OK] = False
+        elif s not in _TRUE and s != "":
+            raise _Bad(f"{mapping['frame_ok']}={cell['frame_ok']!r} is not true/false")
+    return row
 
 
 def combine_cues(computed: pd.DataFrame, imported: pd.DataFrame, prefer: str = "imported") -> pd.DataFrame:
