@@ -75,3 +75,19 @@ def test_map_command_reads_a_network_folder(tmp_path, capsys):
     assert "palms" in err and len(err.strip().splitlines()) == 1
     assert main(["map", "--network", str(tmp_path), "-o", str(out)]) == 2
 
+
+
+def test_street_changes_inside_the_model_interval_are_within_model_error():
+    layers = S.network_layers()
+    for f in layers[1]["features"]:
+        d = f["properties"]["d_expected_comfortable_h"]
+        # an interval of ±1.5 h: the 2 h gain stands out, the 1 h loss does not
+        f["properties"]["d_expected_comfortable_h_lo"] = d - 1.5
+        f["properties"]["d_expected_comfortable_h_hi"] = d + 1.5
+    scale = ST.network_scale(layers)
+    trees = ST.network_payload(layers[1], scale, 5)
+    ids = {sid: i for i, sid in enumerate(trees["id"])}
+    assert trees["dk"]["comfort"][ids["st0#000"]] in (3, 4)
+    assert trees["dk"]["comfort"][ids["st1#001"]] == 2
+    fmap = R.route_map(network=layers)
+    assert fmap.data["cfg"]["street_diff"]["comfort"][2]["label"].startswith("within model error")

@@ -64,7 +64,10 @@ def legend_config(route_scales: dict | None, comfort_from_model: bool, street_sc
     for m, s in (route_scales or {}).items():
         none = "within model error" if (m == "comfort" and comfort_from_model) else "no change"
         diff_routes[m] = change_keys(m, s, MEASURES[m]["unit"], none)
-    diff_streets = {m: change_keys(m, s, MEASURES[m]["street_unit"], "no change")
+    street_interval = bool((street_scale or {}).get("interval"))
+    diff_streets = {m: change_keys(m, s, MEASURES[m]["street_unit"],
+                                   "within model error or no change" if (m == "comfort" and street_interval)
+                                   else "no change")
                     for m, s in ((street_scale or {}).get("change") or {}).items()}
     return {
         "measures": MEASURES,

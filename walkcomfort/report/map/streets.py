@@ -63,7 +63,7 @@ def network_scale(docs: Sequence[dict]) -> dict:
     """Shared scale: the longest time range of any segment, and each measure's largest change."""
     hours = [_prop(f.get("properties") or {}, "hours_h") for d in docs for f in d["features"]]
     top = max((h for h in hours if math.isfinite(h)), default=0.0) or 1.0
-    out = {"max_hours": float(top), "change": {}}
+    out = {"max_hours": float(top), "change": {}, "interval": has_interval(docs)}
     for m, (name, _) in CHANGE_OF.items():
         vals = [abs(_prop(f.get("properties") or {}, name)) for d in docs for f in d["features"]]
         big = max((v for v in vals if math.isfinite(v)), default=0.0)
@@ -90,6 +90,20 @@ def _band(v: float) -> int:
     return next(i for i, (lo, hi, _) in enumerate(C.UTCI_BANDS) if lo < v <= hi)
 
 
+def _within_interval(props: list[dict], name: str) -> np.ndarray | None:
+    """Segments whose ``<name>_lo … <name>_hi`` interval includes 0 (None when the layer has no interval)."""
+    if not props or f"{name}_lo" not in props[0] or f"{name}_hi" not in props[0]:
+        return None
+    lo = np.array([_prop(p, f"{name}_lo") for p in props], dtype=float)
+    hi = np.array([_prop(p, f"{name}_hi") for p in props], dtype=float)
+    return np.isfinite(lo) & np.isfinite(hi) & (lo <= 0) & (hi >= 0)
+
+
+def has_interval(docs: Sequence[dict], name: str = "d_expected_comfortable_h") -> bool:
+    """True when a change layer carries the model's interval of ``name``."""
+    return any(f"{name}_lo" in ((d["features"] or [{}])[0].get("properties") or {}) for d in docs)
+
+
 def network_payload(doc: dict, scale: dict, decimals: int) -> dict:
     """Columnar data of one scheme's street layer: lines, values, and a class per colouring."""
     feats = [f for f in doc["features"] if (f.get("geometry") or {}).get("type") == "LineString"]
@@ -113,6 +127,10 @@ def network_payload(doc: dict, scale: dict, decimals: int) -> dict:
     if change:
         for m, (name, sign) in CHANGE_OF.items():
             s = scale["change"][m]
-            out["dk"][m] = change_classes(sign * np.array(vals[name], dtype=float), s["none"], s["strong"]).tolist()
+            classes = change_classes(sign * np.array(vals[name], dtype=float), s["none"], s["strong"])
+            within = _within_interval(props, name)
+            if within is not None:  # an interval from the model: a change it cannot resolve is "within model error"
+                classes[within & (classes >= 0)] = 2
+            out["dk"][m] = classes.tolist()
     return out
 
