@@ -125,3 +125,17 @@ def test_warnings_below_the_limits_reach_qa_json(tmp_path):
     tl = build_timeline(d)
     assert any(w.startswith("light:") and "quarantined" in w for w in tl.qa["warnings"])
     assert tl.qa["losses"] == [] and tl.qa["summary"]["warnings"] == len(tl.qa["warnings"])
+
+
+@pytest.mark.parametrize("n", [2, 3, 7])
+def test_a_track_shorter_than_the_smoothing_windows_builds(tmp_path, n):
+    d = tmp_path / "s"
+    d.mkdir()
+    pts = "".join(f'<trkpt lat="{40 + i * 1e-5:.6f}" lon="-3.7"><ele>{650 + i}</ele>'
+                  f"<time>2026-07-14T08:00:{i:02d}Z</time></trkpt>" for i in range(n))
+    (d / "track.gpx").write_text('<?xml version="1.0"?><gpx version="1.1" creator="t" '
+                                 f'xmlns="http://www.topografix.com/GPX/1/1"><trk><trkseg>{pts}</trkseg></trk></gpx>')
+    (d / "session.toml").write_text('schema = "walkcomfort-session/1"\n[session]\nid = "short"\nparticipant = "P01"\n'
+                                    'timezone = "UTC"\n[[source]]\nkind = "gps"\npath = "track.gpx"\n')
+    tl = build_timeline(d)   # elevation window 15 s, track window 5 s: both longer than the track
+    assert len(tl.data) == n and np.isfinite(tl.data["elev_m"]).all()
