@@ -53,7 +53,8 @@ def test_one_payload_per_scheme_and_departure(full_map):
     assert all(len(v) == 2 and all(v) for v in r["combos"].values())
     assert set(full_map.data["scenes"]) == {"baseline", "trees"}
     # the extra layers start off over predicted routes; alone, they start on
-    assert full_map.data["overlays"] == {"scene": True, "streets": False, "votes": False, "errors": False}
+    assert full_map.data["overlays"] == {"scene": True, "streets": False, "votes": False, "errors": False,
+                                         "sites": False}  # no advisor sites given
     walk_only = R.route_map(walks=[S.timeline()])
     assert walk_only.data["routes"] is None and walk_only.data["overlays"]["votes"]
     assert walk_only.data["overlays"]["errors"]

@@ -155,9 +155,11 @@ def is_model_bundle(path: Path) -> bool:
 @click.option("--budget-mb", type=float, default=5.0, show_default=True, help="Warn when the file is larger [MB].")
 @click.option("--title", default=None, help="Title on the map (default: 'Predicted walking comfort').")
 @click.option("--site", default=None, help="Site name for the title block (default: the table's).")
+@click.option("--sites", "sites_path", type=click.Path(path_type=Path), default=None,
+              help="sites.geojson of 'walkcomfort advise': chosen sites numbered in order, runner-ups faded.")
 def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, network_dir, network_schemes,
          online, offline_flag, tiles, attribution, max_zoom, timezone, layers, decimals, simplify_m, error_cell_m,
-         budget_mb, title, site):
+         budget_mb, title, site, sites_path):
     """Write the HTML route map from prediction tables (POINTS) and/or recorded walks.
 
     POINTS are points.parquet files (or their folders) from 'walkcomfort route' / 'compare';
@@ -167,7 +169,7 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, net
     from walkcomfort.report.map import context_from_table, route_map
     from walkcomfort.session.timeline import find_timelines
 
-    if not points and not walk_paths and scene_path is None and network_dir is None:
+    if not points and not walk_paths and scene_path is None and network_dir is None and sites_path is None:
         raise InputError("nothing to map", where="walkcomfort map",
                          fix="give points.parquet, --walk folders, a --scene or --network")
     if online and offline_flag:
@@ -190,7 +192,7 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, net
                      summaries=t["summaries"], comparison=t["comparison"], context=context,
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,
-                     simplify_m=simplify_m, error_cell_m=error_cell_m, title=title)
+                     simplify_m=simplify_m, error_cell_m=error_cell_m, title=title, sites=sites_path)
     path = _write_reporting_warnings(fmap, out_html, online, budget_mb)
     click.echo(f"wrote {path} ({path.stat().st_size / 1e3:.0f} kB{', loads Leaflet online' if online else ''})")
 

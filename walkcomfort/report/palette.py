@@ -179,3 +179,8 @@ def contrast_ratio(a: str, b: str) -> float:
 def text_colour_on(background: str) -> str:
     """Black or white, whichever contrasts more with ``background``."""
     return "#000000" if contrast_ratio(background, "#000000") >= contrast_ratio(background, "#ffffff") else "#ffffff"
+
+
+#: Placement sites on the map (``walkcomfort advise``): chosen sites carry their rank in a
+#: dark marker, runner-ups are pale; both stay apart from the scene's building and crown fills.
+SITE_COLOURS = {"chosen": "#173f5f", "chosen_text": "#ffffff", "runner_up": "#b8c2cc"}

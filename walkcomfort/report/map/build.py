@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort.errors import InputError
+from walkcomfort.report import palette as P
 from walkcomfort.report.map import routelayer as RL
 from walkcomfort.report.map import streets as ST
 from walkcomfort.report.map.context import CONTEXT_FIELDS
@@ -23,6 +24,7 @@ from walkcomfort.report.map.inputs import (
 )
 from walkcomfort.report.map.legend import CAUTION, legend_config
 from walkcomfort.report.map.scene import scene_features
+from walkcomfort.report.map.sites import sites_payload
 from walkcomfort.report.map.tiles import TileSource, tile_source
 from walkcomfort.report.map.walks import errors_payload, walk_payload
 from walkcomfort.routes.schemes import BASE, Scheme
@@ -146,25 +148,20 @@ def _scene_data(scene, scheme_docs, shown, decimals, simplify_m) -> dict:
 
 def _points_of(data: dict) -> tuple[list, list]:
     """Every drawn coordinate (for the opening bounds)."""
-    lat, lon = [], []
+    pts: list = []
     for combos in (data.get("routes") or {}).get("combos", {}).values():
         for d in combos:
             if d:
-                lat += [v for v in d["lat"] if v is not None]
-                lon += [v for v in d["lon"] if v is not None]
+                pts += [(a, b) for a, b in zip(d["lat"], d["lon"], strict=True) if a is not None and b is not None]
     for feats in (data.get("scenes") or {}).values():
         for f in feats:
-            rings = [f["c"]] if f["g"] == "c" else [p for poly in f["c"] for p in poly[0]]
-            lat += [p[0] for p in rings]
-            lon += [p[1] for p in rings]
+            pts += [tuple(f["c"])] if f["g"] == "c" else [tuple(p) for poly in f["c"] for p in poly[0]]
     for s in (data.get("streets") or {}).values():
-        for line in s["c"]:
-            lat += [p[0] for p in line]
-            lon += [p[1] for p in line]
+        pts += [tuple(p) for line in s["c"] for p in line]
     for w in data.get("walks") or []:
-        lat += [p[0] for p in w["track"]]
-        lon += [p[1] for p in w["track"]]
-    return lat, lon
+        pts += [tuple(p) for p in w["track"]]
+    pts += [tuple(site["c"]) for site in data.get("sites") or []]
+    return [p[0] for p in pts], [p[1] for p in pts]
 
 
 def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: Iterable = (),
@@ -172,7 +169,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
               context: dict | None = None, timezone: str = "UTC", tiles=None, attribution: str | None = None,
               max_zoom: int | None = None, layers: Iterable[str] = DEFAULT_LAYERS, decimals: int = 5,
               simplify_m: float = 1.0, error_cell_m: float = 50.0, title: str | None = None,
-              error_source: str = "in-sample", network: Iterable = (), network_times: str | None = None) -> RouteMap:
+              error_source: str = "in-sample", network: Iterable = (), network_times: str | None = None,
+              sites=None) -> RouteMap:
     """Build the interactive route map.
 
     Parameters
@@ -213,6 +211,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         Street layers (``network_layer_<scheme>.geojson`` of ``walkcomfort network``).
     network_times : str, optional
         The hours and days the street layers cover, in words (legend and popups).
+    sites : path or dict, optional
+        ``sites.geojson`` of ``walkcomfort advise``: chosen sites numbered, runner-ups faded.
 
     Returns
     -------
@@ -222,12 +222,13 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     zone = zone_of(timezone)
     frames = walk_frames(walks)
     net_docs = ST.network_docs(network) if "network" in layers else []
-    if predictions is None and not frames and scene is None and not net_docs:
+    if predictions is None and not frames and scene is None and not net_docs and sites is None:
         raise InputError("nothing to map: no predictions, walks or scene given", where="route_map",
                          fix="pass a prediction table, recorded walks or a scene")
     scheme_docs = _scheme_docs(schemes)
     label_of = _labeller(scheme_docs)
-    data: dict = {"tz": str(timezone), "routes": None, "scenes": None, "streets": None, "walks": [], "errors": None}
+    data: dict = {"tz": str(timezone), "routes": None, "scenes": None, "streets": None, "walks": [], "errors": None,
+                  "sites": sites_payload(sites, int(decimals)) if sites is not None else None}
     if predictions is not None:
         data["routes"] = _route_data(predictions, summaries, comparison, zone, decimals, simplify_m, label_of)
     shown = [s["name"] for s in data["routes"]["schemes"]] if data["routes"] else []
@@ -242,15 +243,20 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     data["schemes"] = routes["schemes"] if routes else [{"name": s, "label": label_of(s)} for s in shown]
     data["cfg"] = legend_config(routes["scales"] if routes else None, bool(routes and routes["comfort_from_model"]),
                                 street_scale, ST.hours_keys(street_scale) if street_scale else None, error_source)
+    data["cfg"]["sites"] = dict(P.SITE_COLOURS)
     data["context"] = _context(context, routes, label_of)
     data["title"] = title or ("Predicted walking comfort" if predictions is not None else
                               "Predicted comfort on the street network" if net_docs else "Recorded walks")
     lat, lon = _points_of(data)
     data["bounds"] = [[min(lat), min(lon)], [max(lat), max(lon)]] if lat else None
-    alone = predictions is None  # over predicted routes the extra layers start switched off
-    data["overlays"] = {"scene": data["scenes"] is not None, "streets": bool(net_docs) and alone,
-                        "votes": bool(data["walks"]) and alone, "errors": data["errors"] is not None and alone}
+    data["overlays"] = _overlays(data, alone=predictions is None, streets=bool(net_docs))
     return RouteMap(data["title"], data, tile_source(tiles, attribution, max_zoom))
+
+
+def _overlays(data: dict, alone: bool, streets: bool) -> dict:
+    """Which extra layers start switched on: over predicted routes only the scene and the sites."""
+    return {"scene": data["scenes"] is not None, "streets": streets and alone, "votes": bool(data["walks"]) and alone,
+            "errors": data["errors"] is not None and alone, "sites": bool(data["sites"])}
 
 
 def _add_streets(data: dict, net_docs: list, times: str | None, shown: list, decimals: int) -> dict | None:

@@ -26,7 +26,10 @@ def scheme_geojson(advice: Advice, scene, name: str) -> dict:
         geom = _to_lonlat(geom, scene)
         feats.append({"type": "Feature", "properties": {"edit": "add", **props, "rank": rank},
                       "geometry": mapping(geom)})
-    label = (f"{len(feats)} item(s) placed for {advice.unit} by the placement advisor")
+    kinds = sorted({o.intervention.name for o in advice.selection.chosen})
+    goal = {"heat-dose": "heat dose", "hours-above": f"time above {advice.threshold_c:g} °C UTCI",
+            "comfort": "comfortable minutes"}[advice.objective]
+    label = f"Advised: {len(feats)} × {', '.join(kinds) or 'nothing'} for {goal}"
     return {"type": "FeatureCollection", "walkcomfort": {"scheme": name, "label": label}, "features": feats}
 
 

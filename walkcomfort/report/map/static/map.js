@@ -341,12 +341,47 @@
     return group;
   }
 
-  var DRAW = {routes: drawRoutes, scene: drawScene, streets: drawStreets, votes: drawVotes, errors: drawErrors};
+  function sitePopup(f) {
+    var box = el("div", "wc-popup"), t = el("table");
+    box.appendChild(el("div", "wc-title", f.r ? "Placement site no. " + f.r : "Runner-up site"));
+    row(t, "Site", f.id || "\u2013");
+    row(t, "Item", f.iv || "\u2013");
+    if (f.g !== null) { row(t, f.r ? "Gain when added" : "Last gain it offered", num(f.g, 2, "") + " " + f.u); }
+    box.appendChild(t);
+    box.appendChild(el("div", "wc-caution", "Planning aid: soil, utilities, sight lines and local codes decide."));
+    return box;
+  }
+
+  function drawSites() {
+    var group = L.featureGroup(), colours = cfg.sites || {};
+    (D.sites || []).filter(function (f) { return !f.r; }).forEach(function (f) {
+      L.circleMarker(f.c, {radius: 5, color: colours.runner_up, weight: 1, fillColor: colours.runner_up,
+                           fillOpacity: 0.5, className: "wc-site wc-site-runner"}).bindPopup(sitePopup(f)).addTo(group);
+    });
+    (D.sites || []).filter(function (f) { return f.r; }).forEach(function (f) {
+      var icon = L.divIcon({className: "wc-site-rank", html: "", iconSize: [22, 22]});
+      var m = L.marker(f.c, {icon: icon, keyboard: false, title: "site " + f.r});
+      m.on("add", function () {
+        var node = m.getElement();
+        if (node) {
+          node.textContent = String(f.r);
+          node.style.background = colours.chosen;
+          node.style.color = colours.chosen_text;
+        }
+      });
+      m.bindPopup(sitePopup(f)).addTo(group);
+    });
+    return group;
+  }
+
+  var DRAW = {routes: drawRoutes, scene: drawScene, streets: drawStreets, votes: drawVotes, errors: drawErrors,
+              sites: drawSites};
   function available(kind) {
     if (kind === "routes") { return !!routes(); }
     if (kind === "scene") { return !!D.scenes; }
     if (kind === "streets") { return !!D.streets; }
     if (kind === "votes") { return D.walks && D.walks.length > 0; }
+    if (kind === "sites") { return !!(D.sites && D.sites.length); }
     return !!D.errors;
   }
   function wanted(kind) { return kind === "routes" ? available(kind) : (available(kind) && !!S.overlays[kind]); }
@@ -433,6 +468,10 @@
       box.appendChild(section("errors", c.errors_title, c.errors.map(function (x) { return key(x.colour, x.label); })
         .concat([el("div", "wc-caution", c.errors_note)])));
     }
+    if (drawn.sites) {
+      box.appendChild(section("sites", "Placement sites", [key(cfg.sites.chosen, "chosen, numbered in the order picked"),
+        key(cfg.sites.runner_up, "runner-up"), el("div", "wc-caution", "A planning aid, not a design.")]));
+    }
     if (drawn.scene) {
       box.appendChild(section("scene", "Scene", [key(c.scene.building, "building"), key(c.scene.tree, "tree crown"),
         key(c.scene.canopy, "canopy"), el("div", null, c.edit_legend)]));
@@ -499,8 +538,8 @@
     g = el("fieldset", "wc-overlays");
     g.appendChild(el("legend", null, "Also show"));
     ui.overlays = {};
-    [["scene", "Buildings and trees"], ["streets", "Street network"], ["votes", "Recorded votes"],
-     ["errors", "Model errors"]].forEach(function (o) {
+    [["scene", "Buildings and trees"], ["sites", "Placement sites"], ["streets", "Street network"],
+     ["votes", "Recorded votes"], ["errors", "Model errors"]].forEach(function (o) {
       if (!available(o[0])) { return; }
       var lab = el("label", "wc-check"), inp = el("input");
       inp.type = "checkbox"; inp.value = o[0];
