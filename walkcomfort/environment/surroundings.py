@@ -41,6 +41,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
 from walkcomfort.environment import shade as _shade
 from walkcomfort.environment import skyview as _skyview
@@ -319,3 +320,88 @@ def fluxes_from_surroundings(sun_elev_deg, dni_wm2, dhi_wm2, beam_trans_frac, sv
     return {"k_down": k_upper, "k_up": g["k_down"], "k_side": 0.5 * k_upper + 0.5 * g["k_lat"],
             "l_down": l_upper, "l_up": g["l_down"], "l_side": 0.5 * l_upper + 0.5 * g["l_lat"],
             "beam_normal_wm2": beam, "wall_frac": f_w, "ground_sunlit_frac": lat_sun}
+
+
+#: Rows in one cell of this grid [m] and one time bucket [s] share one view of their surroundings.
+SURROUND_GRID_M = 2.0
+SURROUND_BUCKET_S = 300.0
+
+
+def walker_fluxes(scene, x, y, times, sun_elev_deg, sun_azim_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf,
+                  t_air_c, rh_pct, wind_ms, lat: float, lon: float, elev_m: float = 0.0, clear_index=None,
+                  month=None, z_m: float = 1.1, crown_diffuse_frac=0.0, n_sectors: int = 36,
+                  crown_model: str = "per_crossing") -> dict:
+    """Six-direction fluxes on walkers at points × times from their real surroundings.
+
+    The one entry point the environment chain calls: rows sharing a
+    :data:`SURROUND_GRID_M` cell and a :data:`SURROUND_BUCKET_S` time bucket share one
+    sampling of the ground and walls around (made at the first such row's own position
+    and time); surface temperatures come from
+    :func:`walkcomfort.environment.surfaces.surface_temperatures` for each row's time and
+    weather.
+
+    Parameters
+    ----------
+    scene : Scene or None
+        Obstacles and ground materials (None: open asphalt ground).
+    x, y : array (n,)
+        Positions in the scene's frame [m].
+    times : DatetimeIndex (n,)
+        tz-aware instants.
+    sun_elev_deg, sun_azim_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf, t_air_c, rh_pct, wind_ms : array (n,)
+        Per-row sun, irradiance in the open, beam at the walker, sky view and weather
+        (``wind_ms`` near the ground, for the surfaces' convection).
+    lat, lon, elev_m : float
+        Site.
+    clear_index : array (n,), optional
+        Global irradiance over its clear-sky value (default 1: clear sky).
+    month : array (n,), optional
+        Local month for crowns' monthly transmissivity.
+
+    Returns
+    -------
+    dict
+        As :func:`fluxes_from_surroundings`, plus ``t_ground_sun_c`` / ``t_ground_shade_c``
+        (of the material under the walker).
+    """
+    x, y = np.asarray(x, float).reshape(-1), np.asarray(y, float).reshape(-1)
+    n = x.size
+    idx = pd.DatetimeIndex(times)
+    arrs = [np.broadcast_to(np.asarray(v, float), (n,)) for v in
+            (sun_elev_deg, sun_azim_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf, t_air_c, rh_pct, wind_ms)]
+    elev, azim, dni, dhi, tau, psi, ta, rh, u = arrs
+    kc = np.ones(n) if clear_index is None else np.broadcast_to(np.asarray(clear_index, float), (n,))
+    mon = None if month is None else np.broadcast_to(np.asarray(month, float), (n,))
+    ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(elev) & ~idx.isna()
+    rows = np.flatnonzero(ok)
+    out_keys = ("k_down", "k_up", "k_side", "l_down", "l_up", "l_side", "beam_normal_wm2", "wall_frac",
+                "ground_sunlit_frac", "t_ground_sun_c", "t_ground_shade_c")
+    out = {k: np.full(n, np.nan) for k in out_keys}
+    if rows.size == 0:
+        return out
+    tb = idx[rows].as_unit("ns").asi8 // int(SURROUND_BUCKET_S * 1e9)
+    key = np.column_stack([np.floor(x[rows] / SURROUND_GRID_M), np.floor(y[rows] / SURROUND_GRID_M), tb])
+    _, first, inv = np.unique(key, axis=0, return_index=True, return_inverse=True)
+    rep = rows[first]
+    inv = inv.reshape(-1)
+    gv = ground_view(scene, x[rep], y[rep], elev[rep], azim[rep], z_m=z_m,
+                     month=None if mon is None else mon[rep], crown_model=crown_model)
+    wv = wall_view(scene, x[rep], y[rep], elev[rep], azim[rep], z_m=z_m,
+                   month=None if mon is None else mon[rep], n_sectors=n_sectors)
+    gv = GroundView(gv.materials, *(a[inv] for a in (gv.down_sun, gv.down_shade, gv.lat_sun, gv.lat_shade)))
+    wv = WallView(*(a[inv] for a in (wv.band, wv.sunlit, wv.cos_inc, wv.orient_deg, wv.material)))
+    here = (scene.ground_material_at(x[rows], y[rows]) if scene is not None
+            else np.full(rows.size, _surf.DEFAULT_GROUND, dtype=object))
+    ground_names = tuple(sorted(set(gv.materials) | {str(m) for m in here}))
+    wall_names = tuple(sorted({str(m) for m in wv.material.ravel()} | {_surf.DEFAULT_WALL}))
+    temps = _surf.surface_temperatures(idx[rows], lat, lon, ta[rows], rh[rows], u[rows], kc[rows], elev_m,
+                                       ground=ground_names, walls=wall_names)
+    f = fluxes_from_surroundings(elev[rows], dni[rows], dhi[rows], tau[rows], psi[rows], ta[rows], rh[rows],
+                                 gv, wv, temps, crown_diffuse_frac)
+    for k in out_keys[:9]:
+        out[k][rows] = f[k]
+    for name in set(here):
+        sel = here == name
+        out["t_ground_sun_c"][rows[sel]] = temps.ground[str(name)][0][sel]
+        out["t_ground_shade_c"][rows[sel]] = temps.ground[str(name)][1][sel]
+    return out
