@@ -141,11 +141,12 @@ def test_beer_lambert_path_length_option():
     # the crown and l_mean = 4V/S (Cauchy). Crown: cylinder r = 3 m, 3..8 m, 10 m south;
     # sun due south at 30°: in the disc for s in [7, 13], in the height band for
     # s in [3.29, 11.95] -> horizontal chord 4.95 m, 3-D 4.95/cos 30°; l_mean = 2rH/(r+H) = 3.75 m.
+    # (The crown is declared a cylinder: point-tree crowns are spheroids by default.)
     tan30 = np.tan(np.radians(30))
     s_top = (8.0 - 1.1) / tan30
     l3d = (s_top - 7.0) / np.cos(np.radians(30))
     expected = 0.2 ** (l3d / 3.75)
-    sc = _tree_scene()
+    sc = _tree_scene(crown_shape="cylinder")
     south = 180.0 - FRAME.grid_convergence_deg  # grid south (the trees sit on the local grid)
     got = shade.beam_transmittance(sc, [X0], [Y0], [30.0], [south], crown_model="path_length")[0]
     assert got == pytest.approx(expected, rel=1e-9)
@@ -185,3 +186,47 @@ def test_more_obstacles_never_let_more_sun_or_sky_through():
     s_small = sky_view_factor(small, x[:80], y[:80])
     s_big = sky_view_factor(big, x[:80], y[:80])
     assert np.all(s_big.to_numpy() <= s_small.to_numpy() + 1e-12)
+
+
+@pytest.mark.parametrize("elev", [30.0, 45.0, 60.0])
+def test_spheroid_shadow_area_equals_analytic_ellipse_projection(elev):
+    # A spheroid (horizontal semi-axis a, vertical c) projected on the ground along a sun at
+    # elevation b is an ellipse of semi-axes a and sqrt(a² sin²b + c² cos²b)/sin b (parallel
+    # projection of an ellipsoid; from the geometry). The cylinder of the same radius and
+    # depth casts a stadium pi a² + 2a·2c/tan b.
+    a, c, base = 3.0, 2.5, 3.0
+    opaque = {"kind": "tree", "height_m": base + 2 * c, "crown_base_m": base, "crown_radius_m": a,
+              "transmissivity": 0.0}
+    sph = scene_from_local([(Point(X0, Y0), {"id": "s", **opaque})], LAT, LON)
+    cyl = scene_from_local([(Point(X0, Y0), {"id": "c", "crown_shape": "cylinder", **opaque})], LAT, LON)
+    step = 0.1  # the shadow lies north of the trunk (sun due south)
+    gx, gy = np.meshgrid(X0 + np.arange(-6, 6, step) + step / 2, Y0 + np.arange(-4, 26, step) + step / 2)
+    gx, gy = gx.ravel(), gy.ravel()
+    south = 180.0 - FRAME.grid_convergence_deg
+    b = np.radians(elev)
+    for scene, expected in (
+        (sph, np.pi * a * np.sqrt(a * a * np.sin(b) ** 2 + c * c * np.cos(b) ** 2) / np.sin(b)),
+        (cyl, np.pi * a * a + 2 * a * 2 * c / np.tan(b)),
+    ):
+        tau = shade.beam_transmittance(scene, gx, gy, np.full(gx.size, elev), np.full(gx.size, south), z_m=0.0)
+        area = float((tau < 0.5).sum()) * step * step
+        assert area == pytest.approx(expected, rel=0.02)
+    # the cylinder's shadow is 1.2-1.6 times the spheroid's at these elevations
+    assert 1.1 < (np.pi * a * a + 4 * a * c / np.tan(b)) / (
+        np.pi * a * np.sqrt(a * a * np.sin(b) ** 2 + c * c * np.cos(b) ** 2) / np.sin(b)) < 1.7
+
+
+def test_leaf_area_model_matches_campbell_norman_through_a_layer():
+    # a wide flat crown (prism) seen from below: a ray through its full depth at elevation b
+    # crosses a layer of leaf area index LAI, so tau = exp(-G Omega LAI / sin b) exactly
+    from walkcomfort.environment import crowns
+
+    layer = scene_from_local([(_rect(-50, -50, 50, 50), {"id": "p", "kind": "tree", "height_m": 9.0,
+                                                          "crown_base_m": 5.0, "transmissivity": 0.3,
+                                                          "lai": 3.0})], LAT, LON)
+    for elev in (30.0, 60.0, 90.0):
+        got = shade.beam_transmittance(layer, [X0], [Y0], [elev], [180.0], crown_model="leaf_area")[0]
+        assert got == pytest.approx(float(crowns.beam_transmissivity(3.0, elev)), rel=1e-9)
+    # leaf-off month: only the woody area is left
+    jan = shade.beam_transmittance(layer, [X0], [Y0], [60.0], [180.0], month=1, crown_model="leaf_area")[0]
+    assert jan == pytest.approx(float(crowns.beam_transmissivity(crowns.WOODY_AREA_INDEX, 60.0)), rel=1e-9)

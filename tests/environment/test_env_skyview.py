@@ -9,7 +9,7 @@ from shapely.geometry import Point, Polygon
 from walkcomfort import columns as C
 from walkcomfort.environment.geo import LocalFrame
 from walkcomfort.environment.scene import scene_from_local
-from walkcomfort.environment.skyview import sky_view_factor
+from walkcomfort.environment.skyview import SKY_DIFFUSE_FRAC, sky_view_factor
 
 LAT, LON = 40.4168, -3.7038
 X0, Y0 = LocalFrame(LON, LAT).project(LON, LAT)
@@ -54,15 +54,29 @@ def test_single_long_wall():
 def test_under_a_crown():
     # From the geometry: a crown disc of radius 5 m from 3 to 10 m straight above the
     # viewpoint at 1.1 m hides, in every direction, elevations above atan(1.9/5);
-    # visible sky = sin²(atan(1.9/5)) = 0.1261 for both measures.
+    # visible sky = sin²(atan(1.9/5)) = 0.1261 for both measures. (Declared a cylinder:
+    # point-tree crowns are spheroids by default; the spheroid case is the next test.)
     sc = scene_from_local([(Point(X0, Y0), {"id": "t", "kind": "tree", "height_m": 10.0, "crown_base_m": 3.0,
-                                            "crown_radius_m": 5.0, "transmissivity": 0.2})], LAT, LON)
+                                            "crown_radius_m": 5.0, "transmissivity": 0.2,
+                                            "crown_shape": "cylinder"})], LAT, LON)
     out = sky_view_factor(sc, [X0, X0 + 500, np.nan], [Y0, Y0, Y0], z_m=1.1, n_sectors=36)
     expected = np.sin(np.arctan(1.9 / 5.0)) ** 2
     assert out[C.SVF].iloc[0] == pytest.approx(expected, abs=1e-9)
     assert out[C.SKY_VIEW_CROWN_FRAC].iloc[0] == pytest.approx(expected, abs=1e-9)
     assert out[C.SVF].iloc[1] == 1.0  # far away, beyond radius_m
     assert np.isnan(out[C.SVF].iloc[2])
+
+
+def test_under_a_spheroid_crown():
+    # From the geometry: a spheroid (a = 5 m, c = 3.5 m, centre 5.4 m above the eye) seen from
+    # its axis: the tangent from the eye to the ellipse rises at atan(sqrt(w² - c²)/a) in
+    # every direction, so the visible sky is sin² of it = 0.4036 (ellipse sampled: ±0.005).
+    sc = scene_from_local([(Point(X0, Y0), {"id": "t", "kind": "tree", "height_m": 10.0, "crown_base_m": 3.0,
+                                            "crown_radius_m": 5.0, "transmissivity": 0.2})], LAT, LON)
+    out = sky_view_factor(sc, [X0], [Y0], z_m=1.1, n_sectors=36)
+    w, c, a = 5.4, 3.5, 5.0
+    expected = np.sin(np.arctan(np.sqrt(w * w - c * c) / a)) ** 2
+    assert out[C.SVF].iloc[0] == pytest.approx(expected, abs=0.005)
 
 
 def test_crowns_only_measure_ignores_buildings():
@@ -85,3 +99,17 @@ def test_pruned_horizon_search_equals_testing_every_obstacle():
     b = sky_view_factor(sc, x, y, z_m=1.1, _prune=False)
     np.testing.assert_allclose(a.to_numpy(), b.to_numpy(), atol=1e-12)
     assert (a[C.SVF] < 1).mean() > 0.5
+
+
+def test_transmissive_canopy_passes_its_share_of_diffuse_sky():
+    # a wide sail (transmissivity 0.5) overhead hides almost all the sky: opaque svf ~ 0,
+    # the diffuse sky reaching the point is about half of it; an opaque one passes none
+    def sail(tau):
+        box = Polygon([(X0 - 200, Y0 - 200), (X0 + 200, Y0 - 200), (X0 + 200, Y0 + 200), (X0 - 200, Y0 + 200)])
+        return scene_from_local([(box, {"id": "s", "kind": "canopy", "height_m": 4.0,
+                                                                "transmissivity": tau})], LAT, LON)
+    half = sky_view_factor(sail(0.5), [X0], [Y0], z_m=1.1)
+    opaque = sky_view_factor(sail(0.0), [X0], [Y0], z_m=1.1)
+    assert half[C.SVF].iloc[0] < 0.01
+    assert half[SKY_DIFFUSE_FRAC].iloc[0] == pytest.approx(0.5, abs=0.01)
+    assert opaque[SKY_DIFFUSE_FRAC].iloc[0] == pytest.approx(opaque[C.SVF].iloc[0], abs=1e-12)

@@ -141,8 +141,8 @@ def test_canyon_floor_shade_open_square_and_tree_row_ordering():
     walls = [(shapely.box(4.5, -100, 14.5, 100), {"id": "e", "kind": "building", "height_m": 18.0}),
              (shapely.box(-14.5, -100, -4.5, 100), {"id": "w", "kind": "building", "height_m": 18.0})]
     canyon = scene_from_local(walls, LAT, LON)
-    row = [(shapely.Point(0, y), {"id": f"r{i}", "kind": "tree", "height_m": 9.0, "crown_base_m": 3.0,
-                                  "crown_radius_m": 3.5, "transmissivity": 0.1}) for i, y in enumerate(range(-60, 61, 6))]
+    row = [(shapely.Point(0, y), {"id": f"r{i}", "kind": "tree", "height_m": 10.0, "crown_base_m": 2.5,
+                                  "crown_radius_m": 4.0, "transmissivity": 0.1}) for i, y in enumerate(range(-60, 61, 6))]
     trees = scene_from_local(row, LAT, LON)
     when = "2026-07-15 11:00"
     tm_c, *_ = _walker(canyon, np.array([0.0]), np.array([0.0]), when)

@@ -57,8 +57,8 @@ def test_six_direction_identity():
     # From the definition of the six-direction method (VDI 3787-2; Thorsson et al. 2007):
     # six long-wave fluxes sigma*303.15^4 and no short wave -> Tmrt exactly 30.00 °C,
     # because the weighting factors sum to 1 (4 x 0.22 + 2 x 0.06).
-    l = SIGMA * 303.15 ** 4
-    assert tmrt.tmrt_from_fluxes(0.0, 0.0, 0.0, l, l, l) == pytest.approx(30.00, abs=1e-9)
+    lw = SIGMA * 303.15 ** 4
+    assert tmrt.tmrt_from_fluxes(0.0, 0.0, 0.0, lw, lw, lw) == pytest.approx(30.00, abs=1e-9)
     assert pytest.approx(1.0) == 4 * tmrt.F_LATERAL + 2 * tmrt.F_VERTICAL
 
 

@@ -8,12 +8,16 @@ string) and ``properties.kind``:
     Polygon/MultiPolygon footprint, ``height_m`` > 0 above ground; opaque; extruded
     from the ground to its height (flat roof).
 ``tree``
-    Point (trunk) with ``crown_radius_m`` > 0 — a vertical cylinder of that radius — or
-    a Polygon crown outline — a prism; ``height_m`` total height, ``crown_base_m``
+    Point (trunk) with ``crown_radius_m`` > 0 — a spheroid of that horizontal radius
+    spanning ``crown_base_m``…``height_m`` (``crown_shape: "cylinder"`` for a vertical
+    cylinder instead) — or a Polygon crown outline — a prism; ``height_m`` total height, ``crown_base_m``
     (0 ≤ base < height) the crown's lowest level, ``transmissivity`` the leaf-on
     fraction of the direct beam passing through the crown, optionally
     ``transmissivity_by_month`` (``{"1": 0.6, …, "12": 0.6}``; months not listed use
-    ``transmissivity``).
+    ``transmissivity``). Optional leaf area: ``lai`` (leaf area index of the crown) or
+    ``crown_type`` (one of :data:`walkcomfort.environment.crowns.LAI_DEFAULTS`, default
+    ``broadleaf_dense``) and ``deciduous`` (default true: leaf-off months keep only the
+    woody area) — used by ``crown_model="leaf_area"``.
 ``canopy``
     Polygon/MultiPolygon (pergola, awning, sail), ``height_m`` its underside,
     ``transmissivity`` 0 (opaque) … 1 (open). Modelled as a slab
@@ -56,6 +60,8 @@ KINDS = ("building", "tree", "canopy", "ground")
 #: Kinds that cast shade and hide the sky (``ground`` only declares a surface material).
 OBSTACLE_KINDS = ("building", "tree", "canopy")
 KIND_CODE = {k: i for i, k in enumerate(KINDS)}
+#: Shapes of point-tree crowns: a spheroid (default) or a vertical cylinder.
+CROWN_SHAPES = ("spheroid", "cylinder")
 #: Thickness given to canopies (pergolas, awnings) so that they are solids [m].
 CANOPY_THICKNESS_M = 0.2
 
@@ -91,6 +97,8 @@ class Obstacles:
     tree: shapely.STRtree
     grid_convergence_deg: float = 0.0  # add to a true azimuth to get the local-grid direction
     mean_chord_m: np.ndarray | None = None  # [m] mean chord 4V/S of each solid (Cauchy), for Beer–Lambert
+    is_spheroid: np.ndarray | None = None  # bool: point-tree crowns that are spheroids (else cylinders)
+    area_index: np.ndarray | None = None   # (n, 13) leaf (or woody) area index: leaf-on, then months 1..12
 
     @property
     def n(self) -> int:
@@ -389,6 +397,20 @@ def _validate_feature(f, i: int, source: str):
         elif gtype not in _POLY:
             raise InputError(f"a tree needs a Point trunk or a Polygon crown, got {gtype}", where=where,
                              fix="use a Point with crown_radius_m or a crown Polygon")
+        shape_ = props.get("crown_shape", "spheroid")
+        if shape_ not in CROWN_SHAPES:
+            raise InputError(f"crown_shape {shape_!r} is not known", where=where,
+                             fix=f"use one of {', '.join(CROWN_SHAPES)}")
+        _num(props, "lai", where, required=False, lo=0.0, hi=15.0)
+        ctype = props.get("crown_type")
+        if ctype is not None:
+            from walkcomfort.environment.crowns import LAI_DEFAULTS
+
+            if ctype not in LAI_DEFAULTS:
+                raise InputError(f"crown_type {ctype!r} is not known", where=where,
+                                 fix=f"use one of {', '.join(LAI_DEFAULTS)} or give lai")
+        if not isinstance(props.get("deciduous", True), bool):
+            raise InputError("deciduous must be true or false", where=where, fix="write deciduous: true")
         by_month = props.get("transmissivity_by_month")
         if by_month is not None:
             if not isinstance(by_month, dict):
@@ -446,7 +468,7 @@ def _prepare(scene) -> Obstacles:
     if nf == 0:
         return Obstacles(np.empty(0, np.int8), np.empty(0, np.int64), e, e, e, np.empty((0, 12)), np.empty(0, bool),
                          e, e, e, np.zeros(1, np.int64), e, e, e, e, np.empty(0, object), shapely.STRtree([]),
-                         _convergence(scene), e)
+                         _convergence(scene), e, np.empty(0, bool), np.zeros((0, 13)))
     geoms = np.empty(nf, dtype=object)
     geoms[:] = geoms_in
     # one pyproj call for every coordinate of the scene
@@ -507,6 +529,16 @@ def _prepare(scene) -> Obstacles:
     fps = np.empty(n, dtype=object)
     fps[:pt.size] = pfoot
     fps[pt.size:] = parts
+    sph_f = np.array([f["properties"]["kind"] == "tree" and f["properties"].get("crown_shape", "spheroid") == "spheroid"
+                      for f in feats], dtype=bool)
+    is_sph = np.concatenate([sph_f[pt], np.zeros(parts.size, bool)])
+    # a spheroid's mean chord: 4V/S with V = 4/3 pi a^2 c and S by Thomsen's approximation
+    a_, c_ = radius[pt], 0.5 * depth[:pt.size]
+    p_ = 1.6075
+    s_sph = 4 * np.pi * (((a_ * a_) ** p_ + 2 * (a_ * c_) ** p_) / 3.0) ** (1 / p_)
+    chord_s = 4 * (4.0 / 3.0 * np.pi * a_ * a_ * c_) / np.where(s_sph > 0, s_sph, 1.0)
+    chord_c = np.where(sph_f[pt], chord_s, chord_c)
+    area_idx = _area_index(feats, float(scene.site["lat"]) if hasattr(scene, "site") else 0.0)
     return Obstacles(
         kind=kind[feat_idx], feature=scene_idx[feat_idx] if scene_idx.size else feat_idx, z_bottom=zb[feat_idx], z_top=zt[feat_idx],
         tau_base=tau_base[feat_idx], tau_month=tau_m[feat_idx],
@@ -516,7 +548,23 @@ def _prepare(scene) -> Obstacles:
         ex1=e1[:, 0].copy(), ey1=e1[:, 1].copy(), ex2=e2[:, 0].copy(), ey2=e2[:, 1].copy(),
         footprints=fps, tree=shapely.STRtree(fps), grid_convergence_deg=_convergence(scene),
         mean_chord_m=np.concatenate([chord_c, chord_p]),
+        is_spheroid=is_sph, area_index=area_idx[feat_idx],
     )
+
+
+def _area_index(feats, lat: float) -> np.ndarray:
+    """(n, 13) leaf area index of tree crowns: leaf-on, then months 1..12 (leaf-off: woody area)."""
+    from walkcomfort.environment.crowns import crown_lai, seasonal_area_index
+
+    out = np.zeros((len(feats), 13))
+    for i, f in enumerate(feats):
+        p = f["properties"]
+        if p["kind"] != "tree":
+            continue
+        lai = crown_lai(p.get("crown_type"), p.get("lai"))
+        out[i, 0] = lai
+        out[i, 1:] = seasonal_area_index(lai, np.arange(1, 13), lat, bool(p.get("deciduous", True)))
+    return out
 
 
 _DEFAULT_GROUND = "asphalt"

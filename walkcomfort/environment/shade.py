@@ -35,7 +35,11 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
+from walkcomfort.environment.crowns import CLUMPING, G_SPHERICAL
 from walkcomfort.environment.scene import KIND_CODE, Obstacles, Scene
+
+#: How crowns attenuate the beam (see :func:`beam_transmittance`).
+CROWN_MODELS = ("per_crossing", "path_length", "leaf_area")
 
 _CHUNK_EDGES = 4_000_000
 
@@ -61,6 +65,28 @@ def _month_col(month, n: int) -> np.ndarray:
 def _tau_table(obs: Obstacles) -> np.ndarray:
     # (n, 13): column 0 = the leaf-on base transmissivity, columns 1..12 the months
     return np.column_stack([obs.tau_base, obs.tau_month]) if obs.n else np.zeros((0, 13))
+
+
+def spheroid_interval(obs: Obstacles, ob, px, py, pz, dx, dy, tan_g):
+    """Horizontal distances where a rising ray enters and leaves spheroid crowns (NaN if missed).
+
+    The crown of obstacle ``ob`` is the spheroid with horizontal semi-axis ``r`` centred
+    above the trunk at mid-crown height, vertical semi-axis half the crown depth. On the
+    ray :math:`(p_x + s d_x, p_y + s d_y, p_z + s\tan\\gamma)` the spheroid's equation is a
+    quadratic in the horizontal distance ``s``; its roots are returned unclipped.
+    """
+    a = obs.r[ob]
+    c = 0.5 * (obs.z_top[ob] - obs.z_bottom[ob])
+    k2 = (a / c) ** 2
+    u = px - obs.cx[ob]
+    v = py - obs.cy[ob]
+    w = pz - 0.5 * (obs.z_top[ob] + obs.z_bottom[ob])
+    qa = 1.0 + k2 * tan_g * tan_g
+    qb = 2.0 * (u * dx + v * dy + k2 * w * tan_g)
+    qc = u * u + v * v + k2 * w * w - a * a
+    disc = qb * qb - 4.0 * qa * qc
+    root = np.sqrt(np.where(disc > 0, disc, np.nan))
+    return (-qb - root) / (2.0 * qa), (-qb + root) / (2.0 * qa)
 
 
 def ray_pairs(obs: Obstacles, x, y, dx, dy, length):
@@ -296,9 +322,18 @@ def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol, crown_model: str = "
         a_s = np.maximum(s0, t - h)
         b_s = np.minimum(s1, t + h)
         keep = (d2 < r2) & (b_s > a_s)
+        if obs.is_spheroid is not None and obs.is_spheroid.any():
+            sph = obs.is_spheroid[ob]
+            if sph.any():
+                s_in, s_out = spheroid_interval(obs, ob[sph], px[ray[sph]], py[ray[sph]], pz[ray[sph]],
+                                                rdx[sph], rdy[sph], tg[sph])
+                a_s[sph] = np.maximum(s_in, 0.0)
+                b_s[sph] = s_out
+                keep[sph] = np.isfinite(s_in) & (s_out > a_s[sph])
         ray, ob, a_s, b_s, rdx, rdy = ray[keep], ob[keep], a_s[keep], b_s[keep], rdx[keep], rdy[keep]
         starts_in = a_s > (t - h)[keep]  # the segment starts inside the enclosing circle
         path = crown_model == "path_length"
+        want_len = path or crown_model == "leaf_area"
         hit = obs.is_circle[ob].copy()
         chord = b_s - a_s  # horizontal length inside the solid (exact for circles)
         poly = ~hit
@@ -306,10 +341,10 @@ def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol, crown_model: str = "
             rp = ray[poly]
             inside, n_cross, t_lo, t_hi = segment_polygon_crossings(
                 obs, ob[poly], px[rp] + a_s[poly] * rdx[poly], py[rp] + a_s[poly] * rdy[poly],
-                px[rp] + b_s[poly] * rdx[poly], py[rp] + b_s[poly] * rdy[poly], want_t=path,
-                may_start_inside=None if path else starts_in[poly])
+                px[rp] + b_s[poly] * rdx[poly], py[rp] + b_s[poly] * rdy[poly], want_t=want_len,
+                may_start_inside=None if want_len else starts_in[poly])
             hit[poly] = inside | (n_cross > 0)
-            if path:  # first entry to last exit (convex along the ray)
+            if want_len:  # first entry to last exit (convex along the ray)
                 t_in = np.where(inside, 0.0, t_lo)
                 t_out = np.where(inside ^ (n_cross % 2 == 1), 1.0, t_hi)
                 chord[poly] = np.nan_to_num(t_out - t_in) * chord[poly]
@@ -317,6 +352,12 @@ def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol, crown_model: str = "
         if ray.size == 0:
             continue
         tau = tau_tab[ob, mcol[r][ray]]
+        if crown_model == "leaf_area":
+            # Campbell & Norman (1998): exp(-G Omega LAD l), LAD = LAI / crown depth, l the 3-D path
+            crown = obs.kind[ob] == KIND_CODE["tree"]
+            l3d = chord * np.sqrt(1.0 + tan_g[ray] ** 2)
+            lad = obs.area_index[ob, mcol[r][ray]] / np.maximum(obs.z_top[ob] - obs.z_bottom[ob], 1e-6)
+            tau = np.where(crown, np.exp(-G_SPHERICAL * CLUMPING * lad * l3d), tau)
         if path:
             # Beer–Lambert: tau^(l / l_mean), l the 3-D path in the crown, l_mean its mean chord
             crown = obs.kind[ob] == KIND_CODE["tree"]
@@ -330,11 +371,11 @@ def _beam_kernel(obs: Obstacles, x, y, z, elev, azim, mcol, crown_model: str = "
 
 
 def _crown_model(name: str) -> str:
-    if name not in ("per_crossing", "path_length"):
+    if name not in CROWN_MODELS:
         from walkcomfort.errors import InputError
 
-        raise InputError(f"crown_model {name!r} is not one of 'per_crossing', 'path_length'",
-                         where="beam_transmittance", fix="use crown_model='per_crossing' (default) or 'path_length'")
+        raise InputError(f"crown_model {name!r} is not one of {', '.join(CROWN_MODELS)}",
+                         where="beam_transmittance", fix="use crown_model='per_crossing' (default), 'path_length' or 'leaf_area'")
     return name
 
 
@@ -372,7 +413,12 @@ def beam_transmittance(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1, mon
         and :math:`\\bar\\ell = 4V/S` its mean chord (Cauchy's formula), i.e. an extinction
         coefficient :math:`-\\ln\\tau/\\bar\\ell`, so that a typical chord passes
         :math:`\\tau`; a ray grazing the crown's edge passes more light, one along its
-        longest axis less. Canopies always pass their transmissivity once.
+        longest axis less. ``"leaf_area"``: Campbell & Norman (1998),
+        :math:`\\exp(-G\\,\\Omega\\,\\mathrm{LAD}\\,\\ell)` with G = 0.5 (spherical leaf angles),
+        Ω the clumping index, LAD = LAI / crown depth from the tree's ``lai`` (or its
+        ``crown_type`` default; woody area in leaf-off months) — for a ray through a
+        horizontal layer this is exp(−G·Ω·LAI/sin β). Canopies always pass their
+        transmissivity once.
 
     Returns
     -------
@@ -406,7 +452,7 @@ def beam_transmittance_grid(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.1
         Height of each point [m].
     month : int or array-like (T,), optional
         Month per time (see :func:`beam_transmittance`).
-    crown_model : {"per_crossing", "path_length"}
+    crown_model : {"per_crossing", "path_length", "leaf_area"}
         See :func:`beam_transmittance`.
 
     Returns
@@ -482,7 +528,11 @@ def beam_transmittance_naive(scene, x_m, y_m, sun_elev_deg, sun_azim_deg, z_m=1.
             s0 = max((obs.z_bottom[k] - z[i]) / tg, 0.0)
             s1 = (obs.z_top[k] - z[i]) / tg
             seg = shapely.LineString([(x[i] + s0 * dx, y[i] + s0 * dy), (x[i] + s1 * dx, y[i] + s1 * dy)])
-            if obs.is_circle[k]:
+            if obs.is_spheroid is not None and obs.is_spheroid[k]:
+                kk = np.array([k])
+                s_in, s_out = spheroid_interval(obs, kk, x[i], y[i], z[i], dx, dy, tg)
+                met = bool(np.isfinite(s_in[0]) and s_out[0] > max(s_in[0], 0.0))
+            elif obs.is_circle[k]:
                 met = shapely.distance(seg, shapely.Point(obs.cx[k], obs.cy[k])) < obs.r[k]
             else:
                 met = seg.intersects(obs.footprints[k])

@@ -18,7 +18,10 @@ which for plain horizon angles :math:`\\beta_k` reduces to the classical
 :math:`\\psi = 1 - \\frac{1}{n}\\sum_k \\sin^2\\beta_k = \\frac{1}{n}\\sum_k\\cos^2\\beta_k`
 (Johnson & Watson 1984). Buildings, crowns and canopies all count as opaque for
 ``svf``; ``sky_frac_crowns`` is the same measure with crowns only (buildings and
-canopies ignored). Non-convex outlines are treated as convex along each ray
+canopies ignored); ``sky_diffuse_frac`` lets crowns and canopies pass diffuse sky light
+by their transmissivity (a sail of transmissivity 0.5 passes half the sky it covers).
+Spheroid crowns hide the band between the lowest and highest elevation of their
+cross-section in each sector's vertical plane. Non-convex outlines are treated as convex along each ray
 (first entry to last exit), which matters only for crowns and canopies seen from below.
 
 References
@@ -40,6 +43,9 @@ from walkcomfort.environment.scene import KIND_CODE, Obstacles
 from walkcomfort.environment.shade import _EMPTY, _arr, _obstacles, ray_pairs, segment_polygon_crossings
 
 _CHUNK_RAYS = 100_000
+#: Column: share of the isotropic diffuse sky light reaching the point, crowns and
+#: canopies passing it by their transmissivity (buildings opaque) [-].
+SKY_DIFFUSE_FRAC = "sky_diffuse_frac"
 
 
 def _union_sin2(ray, lo, hi, n_rays):
@@ -73,6 +79,41 @@ def _band_angles(obs, ob, z, s_in, s_out):
     zb = obs.z_bottom[ob]
     lo = np.where(zb > z, np.arctan2(zb - z, np.maximum(s_out, 1e-9)), 0.0)
     return np.clip(lo, 0.0, np.pi / 2), np.clip(hi, 0.0, np.pi / 2)
+
+
+_ELLIPSE_SAMPLES = 48
+
+
+def _spheroid_band(obs, ob, px, py, pz, dx, dy):
+    """Elevation band [rad] a spheroid crown hides in the vertical half-plane of a ray.
+
+    The plane at horizontal distance d from the crown's axis cuts the spheroid in an
+    ellipse of semi-axes sqrt(a² − d²) and c·sqrt(1 − d²/a²); the band runs from the lowest
+    to the highest elevation of its points in front of the eye (sampled at 48 points), up
+    to the zenith when the ellipse reaches over the eye.
+    """
+    a = obs.r[ob]
+    c = 0.5 * (obs.z_top[ob] - obs.z_bottom[ob])
+    cx, cy = obs.cx[ob] - px, obs.cy[ob] - py
+    t = cx * dx + cy * dy
+    d2 = cx * cx + cy * cy - t * t
+    f = np.sqrt(np.clip(1.0 - d2 / (a * a), 0.0, 1.0))
+    ah, bh = a * f, c * f
+    w = 0.5 * (obs.z_top[ob] + obs.z_bottom[ob]) - pz
+    th = np.linspace(0.0, 2 * np.pi, _ELLIPSE_SAMPLES, endpoint=False)
+    ss = t[:, None] + ah[:, None] * np.cos(th)[None, :]
+    zz = w[:, None] + bh[:, None] * np.sin(th)[None, :]
+    ang = np.where(ss > 0, np.arctan2(zz, ss), np.nan)
+    with np.errstate(invalid="ignore"):
+        lo = np.nanmin(np.where(np.isfinite(ang), ang, np.inf), axis=1)
+        hi = np.nanmax(np.where(np.isfinite(ang), ang, -np.inf), axis=1)
+    over = (t - ah < 0) & (t + ah > 0) & (w + bh > 0)  # reaches over the eye: hides the zenith
+    inside = (t * t) / np.maximum(ah * ah, 1e-12) + (w * w) / np.maximum(bh * bh, 1e-12) < 1.0
+    hi = np.where(over, np.pi / 2, hi)
+    lo = np.where(inside, 0.0, lo)
+    lo = np.clip(np.where(np.isfinite(lo), lo, 0.0), 0.0, np.pi / 2)
+    hi = np.clip(np.where(np.isfinite(hi), hi, 0.0), 0.0, np.pi / 2)
+    return lo, np.where(f > 0, hi, lo)
 
 
 #: Rounds of the "tallest first" search for the building horizon before testing all the rest.
@@ -110,6 +151,13 @@ def _bands(obs: Obstacles, px, py, pz, dx, dy, radius, prune: bool = True):
         ok = np.isfinite(si) & np.isfinite(so)
         r, o, si, so = r[ok], o[ok], si[ok], so[ok]
         lo, hi = _band_angles(obs, o, pz[r], si, so)
+        if obs.is_spheroid is not None and obs.is_spheroid.any():
+            sph = obs.is_spheroid[o]
+            if sph.any():
+                lo[sph], hi[sph] = _spheroid_band(obs, o[sph], px[r[sph]], py[r[sph]], pz[r[sph]],
+                                                  dx[r[sph]], dy[r[sph]])
+            keep = hi > lo
+            r, o, lo, hi = r[keep], o[keep], lo[keep], hi[keep]
         out_ray.append(r), out_ob.append(o), out_lo.append(lo), out_hi.append(hi)
     # grounded polygons (buildings): the highest band per ray
     if grounded.any():
@@ -175,7 +223,12 @@ def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: flo
     Returns
     -------
     DataFrame
-        ``svf`` and ``sky_frac_crowns`` [-] in 0…1; index of ``x_m`` if a Series.
+        ``svf`` and ``sky_frac_crowns`` [-] in 0…1, and ``sky_diffuse_frac``: the share of
+        isotropic diffuse sky light reaching the point when crowns and canopies pass it by
+        their ``transmissivity`` (``svf`` ≤ it ≤ the buildings-only sky view). Circumsolar
+        diffuse light is treated as part of the isotropic sky (it is not sent along the
+        beam), which overstates diffuse light in the shade of a crown on clear days.
+        Index of ``x_m`` if a Series.
         NaN where the position is missing.
 
     References
@@ -202,6 +255,9 @@ def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: flo
     sdx, sdy = np.sin(theta), np.cos(theta)
     per_chunk = max(1, _CHUNK_RAYS // S)
     is_crown = obs.kind == KIND_CODE["tree"]
+    is_bld = obs.kind == KIND_CODE["building"]
+    diffuse = np.full(n, np.nan)
+    diffuse[ok] = 1.0
     for c0 in range(0, pts.size, per_chunk):
         p = pts[c0:c0 + per_chunk]
         px, py, pz = np.repeat(x[p], S), np.repeat(y[p], S), np.repeat(z[p], S)
@@ -212,7 +268,18 @@ def sky_view_factor(scene, x_m, y_m, z_m=1.1, n_sectors: int = 36, radius_m: flo
         blocked_c = _union_sin2(ray[cr], lo[cr], hi[cr], px.size).reshape(p.size, S)
         svf[p] = np.clip(1.0 - blocked.mean(axis=1), 0.0, 1.0)
         crowns[p] = np.clip(1.0 - blocked_c.mean(axis=1), 0.0, 1.0)
-    return pd.DataFrame({C.SVF: svf, C.SKY_VIEW_CROWN_FRAC: crowns},
+        # crowns and canopies pass diffuse light by their transmissivity: the part of the
+        # sky they hide (beyond the buildings) is weighted by the mean transmissivity of the
+        # crowns and canopies in that sector (each weighted by the sky it hides)
+        b = is_bld[ob]
+        blocked_b = _union_sin2(ray[b], lo[b], hi[b], px.size)
+        m = np.sin(hi[~b]) ** 2 - np.sin(lo[~b]) ** 2
+        wsum = np.bincount(ray[~b], weights=m, minlength=px.size)
+        tsum = np.bincount(ray[~b], weights=m * obs.tau_base[ob[~b]], minlength=px.size)
+        tbar = np.where(wsum > 0, tsum / np.where(wsum > 0, wsum, 1.0), 0.0)
+        hidden = blocked_b + (1.0 - tbar) * np.maximum(blocked.ravel() - blocked_b, 0.0)
+        diffuse[p] = np.clip(1.0 - hidden.reshape(p.size, S).mean(axis=1), 0.0, 1.0)
+    return pd.DataFrame({C.SVF: svf, C.SKY_VIEW_CROWN_FRAC: crowns, SKY_DIFFUSE_FRAC: diffuse},
                         index=index if index is not None else pd.RangeIndex(n))
 
 

@@ -267,7 +267,7 @@ def _ground_terms(gv: GroundView, temps, beam_h, diffuse, l_upper):
 
 
 def fluxes_from_surroundings(sun_elev_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf, t_air_c, rh_pct,
-                             ground: GroundView, walls: WallView, temps, crown_diffuse_frac=0.0) -> dict:
+                             ground: GroundView, walls: WallView, temps, sky_diffuse_frac=None) -> dict:
     """Six-direction fluxes on a walker from the sky, the walls and the ground in view.
 
     Parameters
@@ -284,9 +284,11 @@ def fluxes_from_surroundings(sun_elev_deg, dni_wm2, dhi_wm2, beam_trans_frac, sv
         From :func:`ground_view` and :func:`wall_view` for the same rows.
     temps : SurfaceTemperatures
         From :func:`walkcomfort.environment.surfaces.surface_temperatures` for the same rows.
-    crown_diffuse_frac : float or array (n,), default 0
-        Diffuse sky light passed by the crowns and canopies in view, as a share of the
-        upper hemisphere they take [-] (their diffuse transmissivity).
+    sky_diffuse_frac : array (n,), optional
+        Share of the diffuse sky reaching the walker with crowns and canopies passing it by
+        their transmissivity (``sky_diffuse_frac`` of
+        :func:`walkcomfort.environment.skyview.sky_view_factor`); default ``svf`` (opaque crowns).
+        The same gaps let the walker see the cold sky instead of leaves in the long wave.
 
     Returns
     -------
@@ -313,8 +315,11 @@ def fluxes_from_surroundings(sun_elev_deg, dni_wm2, dhi_wm2, beam_trans_frac, sv
     alb_g = _surf.material(ground.materials[0]).albedo if ground.materials else 0.2
     l_env = _surf.SIGMA * tak ** 4
     l_walls, k_walls = _wall_terms(walls, temps, dni, dhi, ghi, alb_g, l_env)
-    k_upper = psi * dhi + k_walls + f_c * np.asarray(crown_diffuse_frac, float) * dhi
-    l_upper = psi * l_sky + l_walls + f_c * l_leaf
+    extra = (np.zeros_like(psi) if sky_diffuse_frac is None
+             else np.clip(np.asarray(sky_diffuse_frac, float).reshape(-1) - psi, 0.0, f_c))
+    extra = np.nan_to_num(extra)
+    k_upper = (psi + extra) * dhi + k_walls
+    l_upper = (psi + extra) * l_sky + l_walls + (f_c - extra) * l_leaf
     g = _ground_terms(ground, temps, dni * sin_e, psi * dhi, l_upper)
     lat_sun = sum(np.nan_to_num(ground.lat_sun[:, j]) for j in range(len(ground.materials)))
     return {"k_down": k_upper, "k_up": g["k_down"], "k_side": 0.5 * k_upper + 0.5 * g["k_lat"],
@@ -329,7 +334,7 @@ SURROUND_BUCKET_S = 300.0
 
 def walker_fluxes(scene, x, y, times, sun_elev_deg, sun_azim_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf,
                   t_air_c, rh_pct, wind_ms, lat: float, lon: float, elev_m: float = 0.0, clear_index=None,
-                  month=None, z_m: float = 1.1, crown_diffuse_frac=0.0, n_sectors: int = 36,
+                  month=None, z_m: float = 1.1, sky_diffuse_frac=None, n_sectors: int = 36,
                   crown_model: str = "per_crossing") -> dict:
     """Six-direction fluxes on walkers at points × times from their real surroundings.
 
@@ -357,6 +362,8 @@ def walker_fluxes(scene, x, y, times, sun_elev_deg, sun_azim_deg, dni_wm2, dhi_w
         Global irradiance over its clear-sky value (default 1: clear sky).
     month : array (n,), optional
         Local month for crowns' monthly transmissivity.
+    sky_diffuse_frac : array (n,), optional
+        Diffuse sky share with transmissive crowns (see :func:`fluxes_from_surroundings`).
 
     Returns
     -------
@@ -397,7 +404,8 @@ def walker_fluxes(scene, x, y, times, sun_elev_deg, sun_azim_deg, dni_wm2, dhi_w
     temps = _surf.surface_temperatures(idx[rows], lat, lon, ta[rows], rh[rows], u[rows], kc[rows], elev_m,
                                        ground=ground_names, walls=wall_names)
     f = fluxes_from_surroundings(elev[rows], dni[rows], dhi[rows], tau[rows], psi[rows], ta[rows], rh[rows],
-                                 gv, wv, temps, crown_diffuse_frac)
+                                 gv, wv, temps, None if sky_diffuse_frac is None else
+                                 np.broadcast_to(np.asarray(sky_diffuse_frac, float), (n,))[rows])
     for k in out_keys[:9]:
         out[k][rows] = f[k]
     for name in set(here):
