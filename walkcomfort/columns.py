@@ -78,6 +78,7 @@ SHADE_FRAC = "shade_frac"         # [-] share of the direct beam blocked (0 sun 
 BEAM_TRANS_FRAC = "beam_trans_frac"  # [-] direct-beam transmittance = 1 - shade_frac
 SVF = "svf"                       # [-] sky view factor (buildings and crowns as opaque)
 SKY_VIEW_CROWN_FRAC = "sky_frac_crowns"  # [-] sky share not blocked by crowns (buildings ignored)
+SKY_DIFFUSE_FRAC = "sky_diffuse_frac"    # [-] diffuse sky share, crowns/canopies passing it by their transmissivity
 TMRT_C = "tmrt_c"                 # [°C] mean radiant temperature
 TMRT_SOURCE = "tmrt_source"       # "globe" | "fluxes"
 WIND10_MS = "wind10_ms"           # [m s⁻¹] wind at 10 m for UTCI (log law, z0 = 0.01 m)

@@ -31,12 +31,12 @@ def test_iso_and_thorsson_formulas_reproduced(v, iso, grey):
     assert t_grey == pytest.approx(grey, abs=0.15)
 
 
-def test_unknown_globe_type_refused_with_choices_and_default_by_diameter():
+def test_unknown_globe_type_refused_with_choices_and_undeclared_read_by_iso():
     with pytest.raises(InputError, match="black_150mm, grey_38mm"):
         globe.resolve_globe("ping-pong")
-    assert globe.resolve_globe(None, diameter_m=0.040)["type"] == "grey_38mm"
-    assert globe.resolve_globe(None, diameter_m=0.15)["type"] == "black_150mm"
-    assert not globe.resolve_globe(None, diameter_m=0.15)["declared"]
+    undeclared = globe.resolve_globe(None, diameter_m=0.040)
+    assert undeclared["type"] == "black_150mm" and undeclared["diameter_m"] == 0.040
+    assert not undeclared["declared"]
 
 
 def _step_readings(tau=240.0, n=1200, step_at=600, noise=0.0, seed=1):

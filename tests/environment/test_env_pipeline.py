@@ -133,8 +133,14 @@ def test_planned_walk_from_local_metres_and_own_irradiance():
     planned.attrs = {"session": {"timezone": "Europe/Madrid", "wind_height_m": 10.0}}
     out = add_planned_environment(planned, scene=sc)
     assert (out[C.DNI_WM2] == 820.0).all() and (out[C.TMRT_SOURCE] == "fluxes").all()
-    # a planned walk's weather is stated at 10 m, so no height correction applies (from the definition)
-    np.testing.assert_allclose(out[C.WIND10_MS], planned[C.WIND_MS])  # already at 10 m
+    # a planned walk's weather is a 10 m mast's: no height correction, but it is brought to street
+    # level by the urban profile of the scene's buildings (environment.wind, Grimmond & Oke 1999)
+    from walkcomfort.environment import wind
+
+    street = wind.street_equivalent_10m(planned[C.WIND_MS].to_numpy(), wind.mean_building_height(sc))
+    np.testing.assert_allclose(out[C.WIND10_MS], street)
+    assert (out[C.WIND10_MS] < planned[C.WIND_MS]).all()
+    assert "Grimmond" in out.attrs["environment"]["wind"]["profile"]
     rec = add_environment(df.assign(**{C.T_GLOBE_C: np.nan}), scene=sc,
                           irradiance=pd.DataFrame({C.GHI_WM2: 850.0, C.DNI_WM2: 820.0, C.DHI_WM2: 110.0},
                                                   index=df.index), wind_height_m=10.0)

@@ -264,7 +264,8 @@ def environment_truth(town: T.Town, kin: dict, times_utc: pd.DatetimeIndex, day:
         "rh_pct": background["rh_pct"].to_numpy(), "wind_ms": background["wind_ms"].to_numpy() * (0.75 + 0.25 * svf),
         "pressure_hpa": background["pressure_hpa"].to_numpy(),
         "ghi_wm2": dni * np.sin(np.radians(np.maximum(el, 0))) + dhi, "dni_wm2": dni, "dhi_wm2": dhi})
-    env = environment_at(context, times_utc, lon, lat, weather, sky_view=(svf, sky_crowns))
+    env = environment_at(context, times_utc, lon, lat, weather,
+                         sky_view=(svf, sky_crowns, first["sky_diffuse_frac"].to_numpy()))
     cols = ["sun_elev_deg", "sun_azim_deg", "ghi_wm2", "dni_wm2", "dhi_wm2", "beam_trans_frac", "svf",
             "sky_frac_crowns"]
     return pd.DataFrame({

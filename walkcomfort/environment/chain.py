@@ -15,9 +15,14 @@ The steps, each in one place below (the formulas stay in their modules):
    (:mod:`walkcomfort.environment.sun`);
 3. direct-beam transmittance through the scene (:mod:`~walkcomfort.environment.shade`);
 4. sky view factor (:mod:`~walkcomfort.environment.skyview`);
-5. mean radiant temperature: the globe thermometer where one was read (ISO 7726),
-   otherwise the six-direction fluxes (:mod:`~walkcomfort.environment.tmrt`);
-6. wind brought to 10 m by the log law (:func:`~walkcomfort.environment.utci.wind_at_10m`);
+5. mean radiant temperature: the globe thermometer where one was read (by its type's
+   published calibration, :mod:`~walkcomfort.environment.globe`), otherwise the
+   six-direction fluxes from the sunlit and shaded ground and walls in view
+   (:mod:`~walkcomfort.environment.surroundings`, :mod:`~walkcomfort.environment.surfaces`);
+6. wind brought to 10 m by the log law (:func:`~walkcomfort.environment.utci.wind_at_10m`),
+   the walker's own motion removed from a carried anemometer and a mast's wind brought to
+   street level (:mod:`~walkcomfort.environment.wind`) — computed before step 5, whose
+   surfaces need it;
 7. UTCI and its stress band (:mod:`~walkcomfort.environment.utci`).
 
 Decisions taken once for every caller
@@ -60,19 +65,23 @@ import numpy as np
 import pandas as pd
 
 from walkcomfort import columns as C
+from walkcomfort.environment import globe as _globe
 from walkcomfort.environment import indices as _indices
 from walkcomfort.environment import shade as _shade
 from walkcomfort.environment import skyview as _skyview
 from walkcomfort.environment import sun as _sun
+from walkcomfort.environment import surroundings as _surroundings
 from walkcomfort.environment import tmrt as _tmrt
 from walkcomfort.environment import utci as _utci
+from walkcomfort.environment import wind as _wind
 from walkcomfort.environment.geo import LocalFrame
 from walkcomfort.environment.scene import Scene
 from walkcomfort.errors import InputError
 
 #: Columns the chain returns (and the environment stage owns), in this order.
 ENV_COLUMNS = (C.SUN_ELEV_DEG, C.SUN_ZENITH_DEG, C.SUN_AZIM_DEG, C.GHI_WM2, C.DNI_WM2, C.DHI_WM2,
-               C.SHADE_FRAC, C.BEAM_TRANS_FRAC, C.SVF, C.SKY_VIEW_CROWN_FRAC, C.TMRT_C, C.TMRT_SOURCE,
+               C.SHADE_FRAC, C.BEAM_TRANS_FRAC, C.SVF, C.SKY_VIEW_CROWN_FRAC, C.SKY_DIFFUSE_FRAC, C.TMRT_C,
+               C.TMRT_SOURCE,
                C.WIND10_MS, C.UTCI_C, C.UTCI_BAND, C.QA_UTCI_RANGE, C.QA_WIND_CLAMPED, C.QA_INSIDE_BUILDING)
 
 #: Default height of the point that must see the sun and the sky [m] (centre of a standing body).
@@ -106,7 +115,8 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
                         n_sectors: int = 36, svf_radius_m: float = SVF_RADIUS_M, svf_cell_m: float = SVF_CELL_M,
                         z0_m: float = _utci.Z0_UTCI_M, crown_model: str = "per_crossing",
                         inside_buildings: str = "flag", flux_options: dict | None = None,
-                        warn: bool = True, indices=(), beam_trans=None) -> pd.DataFrame:
+                        warn: bool = True, indices=(), beam_trans=None, radiation: str = "surroundings",
+                        anemometer: str | None = None, wind_profile: str | None = None) -> pd.DataFrame:
     """Sun, irradiance, shade, sky view, Tmrt, wind at 10 m and UTCI for points at times.
 
     Parameters
@@ -145,7 +155,7 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         Sky view: azimuth sectors, search radius [m], sharing cell [m].
     z0_m : float, default 0.01
         Roughness length of the 10 m wind conversion [m] (the UTCI procedure's value).
-    crown_model : {"per_crossing", "path_length"}
+    crown_model : {"per_crossing", "path_length", "leaf_area"}
         How crowns attenuate the beam (:func:`walkcomfort.environment.shade.beam_transmittance`).
     inside_buildings : {"flag", "snap"}
         Positions inside a building footprint are flagged (``qa_inside_building``);
@@ -161,6 +171,24 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         Direct-beam transmittance per row [-], when the caller already knows it (the
         placement advisor's trials of new crowns on top of the scene's); step 3 then
         uses it instead of tracing the scene. Everything else is computed as usual.
+    radiation : {"surroundings", "point"}
+        ``"surroundings"`` (default): long and reflected short wave from the sunlit and
+        shaded ground and walls in view, surface temperatures from their energy balance
+        (:mod:`~walkcomfort.environment.surroundings`, :mod:`~walkcomfort.environment.surfaces`).
+        ``"point"``: the former model, ground at the walker's own point only
+        (:func:`~walkcomfort.environment.tmrt.outdoor_fluxes` with ``flux_options``), kept
+        for comparison.
+    anemometer : {"carried", "fixed"}, optional
+        How the wind was measured on a recorded walk. ``"carried"``: the readings are air
+        speed relative to the walker; UTCI gets the ambient speed with the walker's own
+        motion removed (``speed_ms`` of ``positions``;
+        :func:`~walkcomfort.environment.wind.ambient_from_carried`), the globe keeps the
+        relative speed. Not stated: the readings are taken as ambient (recorded).
+    wind_profile : {"street", "as_measured"}, optional
+        ``"street"``: the wind is a station's over open terrain, brought to street level
+        by :func:`~walkcomfort.environment.wind.street_equivalent_10m` from the scene's
+        mean building height. Default: ``"street"`` when ``wind_height_m`` ≥ 5 m (a mast)
+        and the scene has buildings, else ``"as_measured"`` (a walker's sensor is in the street).
 
     Returns
     -------
@@ -174,6 +202,9 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
     """
     idx, pos, wx, at = _rows(times, positions, weather, grid)
     _check_options(scene, inside_buildings, wx[C.WIND_MS], wind_height_m)
+    _check_choice(radiation, RADIATION_NOTES, "radiation")
+    _check_choice(anemometer, ("carried", "fixed", None), "anemometer")
+    _check_choice(wind_profile, ("street", "as_measured", None), "wind_profile")
     site = _site(site, scene, pos)
     x, y = _local_xy(pos, scene, site)
     n = len(idx)
@@ -191,18 +222,22 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         trans = np.broadcast_to(np.asarray(beam_trans, dtype=float), (n,)).copy()
     # 4. sky view factor (per position; it does not change with time) -------------------------
     if sky_view is None:
-        svf, crowns = _sky_view_rows(scene, x, y, np.full(x.size, float(z_m)), n_sectors, svf_radius_m,
-                                     svf_cell_m)
+        svf, crowns, diffuse = _sky_view_rows(scene, x, y, np.full(x.size, float(z_m)), n_sectors, svf_radius_m,
+                                              svf_cell_m)
     else:
-        svf, crowns = _given_sky_view(sky_view, x.size)
-    svf, crowns, inside = svf[at], crowns[at], inside[at]
+        svf, crowns, diffuse = _given_sky_view(sky_view, x.size)
+    svf, crowns, diffuse, inside = svf[at], crowns[at], diffuse[at], inside[at]
+    # 6. wind at 10 m, as UTCI expects it (ambient, street level) ---------------------------------
+    wind10, wind_meta = _wind10(wx, wind_height_m, z0_m, scene, anemometer, wind_profile,
+                                _num_pos(positions, C.SPEED_MS)[at] if len(positions) else None, idx)
     # 5. mean radiant temperature --------------------------------------------------------------
-    tmrt_flux = np.asarray(_tmrt.tmrt_outdoor(s_elev, dni, dhi, trans, svf, wx[C.T_AIR_C], wx[C.RH_PCT],
-                                              **dict(flux_options or {})), dtype=float)
+    if radiation == "point":
+        tmrt_flux = np.asarray(_tmrt.tmrt_outdoor(s_elev, dni, dhi, trans, svf, wx[C.T_AIR_C], wx[C.RH_PCT],
+                                                  **dict(flux_options or {})), dtype=float)
+    else:
+        tmrt_flux = _tmrt_surroundings(scene, x[at], y[at], idx, site, s_elev, s_az, ghi, dni, dhi, trans, svf,
+                                       diffuse, wx, wind10, month, z_m, crown_model, n_sectors)
     tmrt, source, globe_meta = _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m)
-    # 6. wind at 10 m --------------------------------------------------------------------------
-    wind10 = (np.asarray(_utci.wind_at_10m(wx[C.WIND_MS], float(wind_height_m), z0_m=z0_m), dtype=float)
-              if wind_height_m is not None else np.full(n, np.nan))
     # 7. UTCI and its stress band --------------------------------------------------------------
     u = _utci.utci_from_conditions(wx[C.T_AIR_C], tmrt, wind10, wx[C.RH_PCT], warn=warn)
     utci_c = u[C.UTCI_C].to_numpy()
@@ -211,6 +246,7 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
         C.SUN_ELEV_DEG: s_elev, C.SUN_ZENITH_DEG: s_zen, C.SUN_AZIM_DEG: s_az,
         C.GHI_WM2: ghi, C.DNI_WM2: dni, C.DHI_WM2: dhi,
         C.SHADE_FRAC: 1.0 - trans, C.BEAM_TRANS_FRAC: trans, C.SVF: svf, C.SKY_VIEW_CROWN_FRAC: crowns,
+        C.SKY_DIFFUSE_FRAC: diffuse,
         C.TMRT_C: tmrt, C.TMRT_SOURCE: pd.array(source, dtype="string"),
         C.WIND10_MS: wind10, C.UTCI_C: utci_c,
         C.UTCI_BAND: pd.array(np.asarray(_utci.utci_band(utci_c), dtype=object), dtype="string"),
@@ -223,7 +259,8 @@ def environment_columns(times, positions: pd.DataFrame, weather: pd.DataFrame, *
             pressure_hpa=wx[C.PRESSURE_HPA], sun_elev_deg=s_elev, dni_wm2=dni, dhi_wm2=dhi, beam_trans_frac=trans,
             svf=svf, t_globe_c=wx[C.T_GLOBE_C], globe=globe, z0_m=z0_m, flux_options=flux_options).items():
         out[name] = values
-    meta = {**irr_meta, **({"globe": globe_meta} if globe_meta else {}), "sun_site": site,
+    meta = {**irr_meta, **({"globe": globe_meta} if globe_meta else {}), "sun_site": site, "wind": wind_meta,
+            "radiation": RADIATION_NOTES.get(radiation, radiation),
             "scene": None if scene is None else {"features": len(scene), "source": scene.source,
                                                  "site": dict(scene.site), "crs": scene.crs.to_string()},
             "assumptions": "open ground (no shade, svf 1)" if scene is None else "flat ground, scene obstacles",
@@ -354,7 +391,8 @@ def _irradiance(idx, site, wx, s_elev, s_zen):
                                               "linke_turbidity": cs.attrs["linke_turbidity"]}}
     ghi, dni, dhi = wx[C.GHI_WM2], wx[C.DNI_WM2], wx[C.DHI_WM2]
     if np.isfinite(dni).any() and np.isfinite(dhi).any():
-        method = "given"
+        method = "given (direct normal bounded by the clear-sky limit)"
+        dni = np.minimum(dni, _sun.max_dni(s_zen, idx))
     else:
         dec = _sun.decompose_ghi(ghi, s_zen, idx)
         dni, dhi = dec[C.DNI_WM2].to_numpy(float), dec[C.DHI_WM2].to_numpy(float)
@@ -412,7 +450,7 @@ def sky_view(scene: Scene | None, x_m, y_m, z_m=BODY_HEIGHT_M, n_sectors: int = 
     Returns
     -------
     tuple of ndarray
-        ``(svf, sky_frac_crowns)`` [-], NaN where the position is missing.
+        ``(svf, sky_frac_crowns, sky_diffuse_frac)`` [-], NaN where the position is missing.
     """
     x = np.asarray(x_m, dtype=float).reshape(-1)
     y = np.asarray(y_m, dtype=float).reshape(-1)
@@ -424,12 +462,13 @@ def _sky_view_rows(scene, x, y, z, n_sectors, radius_m, cell_m):
     """:func:`sky_view` on flat arrays (the chain's own step)."""
     svf = np.full(x.size, np.nan)
     crowns = np.full(x.size, np.nan)
+    diffuse = np.full(x.size, np.nan)
     ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(z)
     if not ok.any():
-        return svf, crowns
+        return svf, crowns, diffuse
     if scene is None:
-        svf[ok], crowns[ok] = 1.0, 1.0
-        return svf, crowns
+        svf[ok], crowns[ok], diffuse[ok] = 1.0, 1.0, 1.0
+        return svf, crowns, diffuse
     # distinct positions, sorted (x, then y, then z): the cells' representatives do not depend on order
     upos, inv_pos = np.unique(np.column_stack([x[ok], y[ok], z[ok]]), axis=0, return_inverse=True)
     cell = np.column_stack([np.floor(upos[:, 0] / cell_m), np.floor(upos[:, 1] / cell_m), np.round(upos[:, 2], 2)])
@@ -439,21 +478,25 @@ def _sky_view_rows(scene, x, y, z, n_sectors, radius_m, cell_m):
     per_row = inv_cell.reshape(-1)[inv_pos.reshape(-1)]
     svf[ok] = res[C.SVF].to_numpy(float)[per_row]
     crowns[ok] = res[C.SKY_VIEW_CROWN_FRAC].to_numpy(float)[per_row]
-    return svf, crowns
+    diffuse[ok] = res[C.SKY_DIFFUSE_FRAC].to_numpy(float)[per_row]
+    return svf, crowns, diffuse
 
 
 def _given_sky_view(sky_view, n_pos: int):
-    svf, crowns = (np.asarray(v, dtype=float).reshape(-1) for v in sky_view)
-    if svf.size != n_pos or crowns.size != n_pos:
-        raise InputError(f"sky_view has {svf.size} values for {n_pos} positions", where=_WHERE,
-                         fix="give (svf, sky_frac_crowns) per position, as chain.sky_view returns them")
-    return svf, crowns
+    """A caller's cached sky view: ``(svf, sky_frac_crowns, sky_diffuse_frac)`` per position."""
+    parts = [np.asarray(v, dtype=float).reshape(-1) for v in sky_view]
+    if len(parts) != 3 or any(p.size != n_pos for p in parts):
+        raise InputError(f"sky_view has {len(parts)} arrays of {[p.size for p in parts]} values for {n_pos} "
+                         "positions", where=_WHERE,
+                         fix="give (svf, sky_frac_crowns, sky_diffuse_frac) per position, as chain.sky_view "
+                             "returns them")
+    return tuple(parts)
 
 
 # --- 5. mean radiant temperature ------------------------------------------------------------------
 
 def _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m):
-    """Tmrt from the globe (ISO 7726) where read, else from the fluxes; its source per row."""
+    """Tmrt from the globe (its type's published calibration) where read, else from the fluxes."""
     source = np.where(np.isfinite(tmrt_flux), "fluxes", None).astype(object)
     tg = wx[C.T_GLOBE_C]
     if globe is None or not np.isfinite(tg).any():
@@ -464,11 +507,13 @@ def _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m):
     # the wind at the globe: the sensor's, brought to the globe's height by the log law when they differ
     if gh is not None and wind_height_m is not None and abs(float(gh) - float(wind_height_m)) > 1e-9:
         v_globe = wind * np.log(float(gh) / z0_m) / np.log(float(wind_height_m) / z0_m)
-    d, eps = float(globe["diameter_m"]), float(globe["emissivity"])
-    tm_g = np.asarray(_tmrt.tmrt_from_globe(tg, wx[C.T_AIR_C], v_globe, d, eps), dtype=float)
+    cal = _globe.resolve_globe(globe.get("type"), globe["diameter_m"], globe["emissivity"])
+    d, eps = float(cal["diameter_m"]), float(cal["emissivity"])
+    tm_g = np.asarray(_globe.tmrt_from_globe_type(tg, wx[C.T_AIR_C], v_globe, cal), dtype=float)
     use = np.isfinite(tm_g)
     meta = {"diameter_m": d, "emissivity": eps, "height_m": None if gh is None else float(gh),
-            "rows": int(use.sum())}
+            "rows": int(use.sum()), "type": cal["type"], "type_declared": cal["declared"],
+            "calibration": cal["source"]}
     # a plausibility figure for the field team: the globe against the flux model on the same rows
     # (large systematic gaps point at a lagging globe, a wrong diameter, or a scene that does not
     # match the street)
@@ -478,3 +523,73 @@ def _tmrt_with_globe(tmrt_flux, wx, globe, wind_height_m, z0_m):
         meta["globe_minus_fluxes_k"] = {"q25": round(q1, 3), "median": round(q2, 3), "q75": round(q3, 3),
                                         "rows": int(both.sum())}
     return np.where(use, tm_g, tmrt_flux), np.where(use, "globe", source).astype(object), meta
+
+
+# --- options and the added physics ------------------------------------------------------------
+
+#: Radiation models of step 5, as recorded in each result.
+RADIATION_NOTES = {
+    "surroundings": "six-direction fluxes from the sunlit and shaded ground and walls in view, surface "
+                    "temperatures by a force-restore energy balance per material (environment.surroundings, "
+                    "environment.surfaces); crowns and canopies pass diffuse sky by their transmissivity, "
+                    "circumsolar diffuse treated as isotropic",
+    "point": "six-direction fluxes with the ground at the walker's own point (tmrt.outdoor_fluxes)",
+}
+#: A wind sensor at or above this height is a mast over open terrain, not a walker's [m].
+MAST_HEIGHT_M = 5.0
+
+
+def _check_choice(value, choices, name: str) -> None:
+    if value not in choices:
+        shown = ", ".join(repr(c) for c in choices if c is not None)
+        raise InputError(f"{name} = {value!r} is not known", where=_WHERE, fix=f"use one of {shown}")
+
+
+def _num_pos(positions: pd.DataFrame, name: str) -> np.ndarray:
+    return _num(positions, name, len(positions))
+
+
+def _wind10(wx, wind_height_m, z0_m, scene, anemometer, wind_profile, walk_speed, idx):
+    """Wind at 10 m for UTCI: ambient (a carried sensor's own motion removed), at street level."""
+    wind = wx[C.WIND_MS]
+    n = wind.size
+    if wind_height_m is None:
+        return np.full(n, np.nan), {"source": "no wind"}
+    meta: dict = {}
+    if anemometer == "carried" and walk_speed is not None and np.isfinite(walk_speed).any():
+        wind = _wind.ambient_from_carried(wind, walk_speed, idx)
+        meta["carried"] = (f"ambient = sqrt(mean(v_rel^2) - mean(v_walk^2)) over {_wind.CARRIED_WINDOW_S:.0f} s; "
+                           "the globe keeps the relative speed")
+    elif anemometer is None:
+        meta["carried"] = "anemometer mount not stated: readings taken as ambient wind"
+    wind10 = np.asarray(_utci.wind_at_10m(wind, float(wind_height_m), z0_m=z0_m), dtype=float)
+    zh = _wind.mean_building_height(scene)
+    profile = wind_profile or ("street" if float(wind_height_m) >= MAST_HEIGHT_M and zh > 1.0 else "as_measured")
+    if profile == "street":
+        wind10 = np.asarray(_wind.street_equivalent_10m(wind10, zh), dtype=float)
+        meta["profile"] = _wind.describe_street_profile(zh)
+    else:
+        meta["profile"] = "as measured (the sensor was in the street)"
+    return wind10, meta
+
+
+def _tmrt_surroundings(scene, x, y, idx, site, s_elev, s_az, ghi, dni, dhi, trans, svf, diffuse, wx, wind10,
+                       month, z_m, crown_model, n_sectors):
+    """Tmrt from the walker's surroundings (the default radiation model of step 5)."""
+    ta = wx[C.T_AIR_C]
+    clear = np.ones(idx.size)
+    if wx[C.GHI_WM2] is not None:
+        first, codes = _distinct(idx)
+        cs = _sun.clearsky_irradiance(idx[first], site["lat"], site["lon"], site["elev_m"])
+        g_cs = cs[C.GHI_WM2].to_numpy(float)[codes]
+        clear = np.where(g_cs > 20.0, ghi / np.where(g_cs > 20.0, g_cs, 1.0), 1.0)
+        clear = np.where(np.isfinite(clear), np.clip(clear, 0.0, _sun.MAX_CLEAR_INDEX), 1.0)
+    # the surfaces' own wind: the UTCI log law brought down to the walker's height
+    u_low = np.where(np.isfinite(wind10), wind10 * np.log(z_m / _utci.Z0_UTCI_M) / np.log(10.0 / _utci.Z0_UTCI_M),
+                     1.0)
+    f = _surroundings.walker_fluxes(scene, x, y, idx, s_elev, s_az, dni, dhi, trans, svf, ta, wx[C.RH_PCT],
+                                    u_low, site["lat"], site["lon"], site["elev_m"], clear_index=clear,
+                                    month=month, z_m=z_m, sky_diffuse_frac=diffuse, n_sectors=n_sectors,
+                                    crown_model=crown_model)
+    return np.asarray(_tmrt.tmrt_from_fluxes(f["k_down"], f["k_up"], f["k_side"], f["l_down"], f["l_up"],
+                                             f["l_side"], f["beam_normal_wm2"], s_elev), dtype=float)

@@ -15,8 +15,10 @@ read with the coefficient published for it (the manifest's ``[sensors] globe_typ
     paper; two independent public implementations use the same numbers, the paper itself
     was not at hand to check.
 
-A manifest without ``globe_type`` is read by its diameter: 30–45 mm as ``grey_38mm``,
-otherwise ISO 7726 with the declared diameter (and the choice is recorded).
+A manifest without ``globe_type`` is read by ISO 7726 with its declared diameter, as
+before the types existed, and the result records that the type was not declared (a
+38–40 mm grey globe read this way gives a Tmrt several kelvin lower than its published
+calibration at 1–2 m s⁻¹: declare the type).
 
 References
 ----------
@@ -50,9 +52,7 @@ def resolve_globe(globe_type: str | None, diameter_m: float | None = None, emiss
     Returns a dict with ``type, diameter_m, emissivity, coef, exponent, source, declared``.
     """
     if globe_type is None:
-        d = GLOBE_TYPES["black_150mm"]["diameter_m"] if diameter_m is None else float(diameter_m)
-        name = "grey_38mm" if 0.030 <= d <= 0.045 else "black_150mm"
-        declared = False
+        name, declared = "black_150mm", False
     elif globe_type in GLOBE_TYPES:
         name, declared = globe_type, True
     else:

@@ -168,7 +168,8 @@ def add_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irrad
     if use_globe and C.T_GLOBE_C in df.columns and df[C.T_GLOBE_C].notna().any():
         globe = _globe(df, globe_diameter_m, globe_emissivity, globe_height_m)
         weather[C.T_GLOBE_C] = df[C.T_GLOBE_C]
-    env = environment_columns(df.index, df.reindex(columns=[C.LON, C.LAT, C.X_M, C.Y_M, C.ELEV_M]), weather,
+    env = environment_columns(df.index, df.reindex(columns=[C.LON, C.LAT, C.X_M, C.Y_M, C.ELEV_M, C.SPEED_MS]), weather,
+                              anemometer=_session_value(df, None, "anemometer"),
                               scene=scene, wind_height_m=wind_h, z_m=z_m, globe=globe, n_sectors=n_sectors,
                               svf_radius_m=svf_radius_m, z0_m=z0_m, crown_model=crown_model,
                               inside_buildings=inside_buildings, flux_options=flux_options, warn=warn,
@@ -191,7 +192,8 @@ def _globe(df, diameter_m, emissivity, height_m) -> dict:
                          where="add_environment",
                          fix="set [sensors] globe_diameter_m and globe_emissivity in session.toml")
     return {"diameter_m": float(d), "emissivity": float(eps),
-            "height_m": _session_value(df, height_m, "globe_height_m")}
+            "height_m": _session_value(df, height_m, "globe_height_m"),
+            "type": _session_value(df, None, "globe_type")}
 
 
 def add_planned_environment(timeline_df: pd.DataFrame, scene: Scene | None = None, irradiance=None,

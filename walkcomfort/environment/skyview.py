@@ -45,7 +45,7 @@ from walkcomfort.environment.shade import _EMPTY, _arr, _obstacles, ray_pairs, s
 _CHUNK_RAYS = 100_000
 #: Column: share of the isotropic diffuse sky light reaching the point, crowns and
 #: canopies passing it by their transmissivity (buildings opaque) [-].
-SKY_DIFFUSE_FRAC = "sky_diffuse_frac"
+SKY_DIFFUSE_FRAC = C.SKY_DIFFUSE_FRAC
 
 
 def _union_sin2(ray, lo, hi, n_rays):

@@ -327,11 +327,14 @@ def surface_temperatures(times, lat: float, lon: float, t_air_c, rh_pct, wind_ms
                             np.round(u_now[rows], 1), np.round(kc[rows], 2)])
     _, first, inv = np.unique(keys, axis=0, return_index=True, return_inverse=True)
     inv = inv.reshape(-1)
-    good = rows[first]
+    # each history is computed at its key's rounded weather (0.1 K, 1 %, 0.1 m/s, 0.01), so a
+    # row's result depends on its own values only, never on which rows share its key
+    uk = keys[first]
+    ta_k, rh_k, u_k, kc_k = uk[:, 1], uk[:, 2], uk[:, 3], uk[:, 4]
     cols = {k: [] for k in (C.SUN_ELEV_DEG, C.SUN_AZIM_DEG, C.DNI_WM2, C.DHI_WM2)}
     hist = []
     cache: dict = {}
-    for i, key in zip(good, t_key[first], strict=True):
+    for j, key in enumerate(t_key[first]):
         f = cache.get(key)
         if f is None:
             f = diurnal_forcing(pd.Timestamp(key, tz="UTC"), lat, lon, elev_m, step_s)
@@ -339,17 +342,17 @@ def surface_temperatures(times, lat: float, lon: float, t_air_c, rh_pct, wind_ms
         for c in cols:
             cols[c].append(f[c].to_numpy())
         sh = f["solar_hour"].to_numpy()
-        hist.append(air_temperature_course(ta_now[i], sh, sh[-1], diurnal_range_k))
+        hist.append(air_temperature_course(ta_k[j], sh, sh[-1], diurnal_range_k))
     hist_t = np.column_stack(hist)
     cols = {c: np.column_stack(v) for c, v in cols.items()}
-    kcl = np.clip(kc[good], 0.0, 1.0)
+    kcl = np.clip(kc_k, 0.0, 1.0)
     dni, dhi = cols[C.DNI_WM2] * kcl, cols[C.DHI_WM2] * np.maximum(kcl, 0.3)  # cloud keeps diffuse light
     elev, azim = cols[C.SUN_ELEV_DEG], cols[C.SUN_AZIM_DEG]
     sin_e = np.where(elev > 0, np.sin(np.radians(np.clip(elev, 0, 90))), 0.0)
-    e_hpa = np.asarray(vapour_pressure_hpa(ta_now[good], rh_now[good]), float)
+    e_hpa = np.asarray(vapour_pressure_hpa(ta_k, rh_k), float)
     l_sky = _sky_longwave(hist_t, e_hpa[None, :])
     l_air = SIGMA * (hist_t + 273.15) ** 4
-    u = u_now[good][None, :]
+    u = u_k[None, :]
     ghi = dni * sin_e + dhi
     for m in gmats:
         l_in = ground_svf * l_sky + (1 - ground_svf) * l_air

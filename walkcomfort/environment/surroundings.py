@@ -187,37 +187,44 @@ def _facade_normals(px, py, dist, feat, sdx, sdy):
 
 def wall_view(scene, x, y, sun_elev_deg, sun_azim_deg, z_m: float = 1.1, month=None, n_sectors: int = 36,
               radius_m: float = 200.0) -> WallView:
-    """Walls in view of each row: band, sunlit share, incidence, orientation and material per sector."""
+    """Walls in view of each row: band, sunlit share, incidence, orientation and material per sector.
+
+    The walls' geometry (which building sets each sector's horizon, how far, facing where)
+    does not change with time and is found once per distinct position.
+    """
     x, y = np.asarray(x, float).reshape(-1), np.asarray(y, float).reshape(-1)
     n, S = x.size, int(n_sectors)
     if scene is None:
         z = np.zeros((n, S))
         return WallView(z, z.copy(), z.copy(), z.copy(), np.full((n, S), _surf.DEFAULT_WALL, dtype=object))
-    ws = _skyview.wall_sectors(scene, x, y, z_m=z_m, n_sectors=S, radius_m=radius_m)
+    upos, inv = np.unique(np.column_stack([x, y]), axis=0, return_inverse=True)
+    inv = inv.reshape(-1)
+    ws = _skyview.wall_sectors(scene, upos[:, 0], upos[:, 1], z_m=z_m, n_sectors=S, radius_m=radius_m)
     conv = scene.obstacles.grid_convergence_deg
     theta = np.radians(ws["azim_deg"] + conv)
     sdx, sdy = np.sin(theta), np.cos(theta)
-    has = ws["feature"] >= 0
-    grid_az = _facade_normals(x, y, ws["dist_m"], ws["feature"], sdx, sdy)
-    orient = np.mod(np.degrees(grid_az) - conv, 360.0)
+    orient_u = np.mod(np.degrees(_facade_normals(upos[:, 0], upos[:, 1], ws["dist_m"], ws["feature"], sdx, sdy))
+                      - conv, 360.0)
+    mats_u = np.full(ws["feature"].shape, _surf.DEFAULT_WALL, dtype=object)
+    for f in np.unique(ws["feature"][ws["feature"] >= 0]):
+        mats_u[ws["feature"] == f] = scene.wall_material(int(f))
+    has = ws["feature"][inv] >= 0
+    dist, top, orient = ws["dist_m"][inv], ws["top_m"][inv], orient_u[inv]
     elev = np.broadcast_to(np.asarray(sun_elev_deg, float), (n,))
     azim = np.broadcast_to(np.asarray(sun_azim_deg, float), (n,))
     cos_inc = _surf.wall_incidence(elev[:, None], azim[:, None], orient)
     sunlit = np.zeros((n, S))
     r, s = np.nonzero(has & (cos_inc > 0))
     if r.size:
-        back = np.maximum(ws["dist_m"][r, s] - FACADE_OFFSET_M, 0.0)
+        back = np.maximum(dist[r, s] - FACADE_OFFSET_M, 0.0)
         px, py = x[r] + back * sdx[s], y[r] + back * sdy[s]
         mon = None if month is None else np.broadcast_to(np.asarray(month, float), (n,))[r]
         parts = []
         for frac in (0.25, 0.75):
-            pz = z_m + frac * np.maximum(ws["top_m"][r, s] - z_m, 0.0)
+            pz = z_m + frac * np.maximum(top[r, s] - z_m, 0.0)
             parts.append(_shade.beam_transmittance(scene, px, py, elev[r], azim[r], z_m=pz, month=mon))
         sunlit[r, s] = np.nan_to_num(0.5 * (parts[0] + parts[1]))
-    mats = np.full((n, S), _surf.DEFAULT_WALL, dtype=object)
-    for f in np.unique(ws["feature"][has]):
-        mats[ws["feature"] == f] = scene.wall_material(int(f))
-    return WallView(np.where(has, ws["band"], 0.0), sunlit, cos_inc, orient, mats)
+    return WallView(np.where(has, ws["band"][inv], 0.0), sunlit, cos_inc, orient, mats_u[inv])
 
 
 def _orient_bin(orient_deg):
@@ -327,21 +334,15 @@ def fluxes_from_surroundings(sun_elev_deg, dni_wm2, dhi_wm2, beam_trans_frac, sv
             "beam_normal_wm2": beam, "wall_frac": f_w, "ground_sunlit_frac": lat_sun}
 
 
-#: Rows in one cell of this grid [m] and one time bucket [s] share one view of their surroundings.
-SURROUND_GRID_M = 2.0
-SURROUND_BUCKET_S = 300.0
-
-
 def walker_fluxes(scene, x, y, times, sun_elev_deg, sun_azim_deg, dni_wm2, dhi_wm2, beam_trans_frac, svf,
                   t_air_c, rh_pct, wind_ms, lat: float, lon: float, elev_m: float = 0.0, clear_index=None,
                   month=None, z_m: float = 1.1, sky_diffuse_frac=None, n_sectors: int = 36,
                   crown_model: str = "per_crossing") -> dict:
     """Six-direction fluxes on walkers at points × times from their real surroundings.
 
-    The one entry point the environment chain calls: rows sharing a
-    :data:`SURROUND_GRID_M` cell and a :data:`SURROUND_BUCKET_S` time bucket share one
-    sampling of the ground and walls around (made at the first such row's own position
-    and time); surface temperatures come from
+    The one entry point the environment chain calls. Every row is sampled at its own
+    position, time and sun (the walls' geometry once per distinct position), so a row's
+    result never depends on the other rows given with it; surface temperatures come from
     :func:`walkcomfort.environment.surfaces.surface_temperatures` for each row's time and
     weather.
 
@@ -386,8 +387,10 @@ def walker_fluxes(scene, x, y, times, sun_elev_deg, sun_azim_deg, dni_wm2, dhi_w
     out = {k: np.full(n, np.nan) for k in out_keys}
     if rows.size == 0:
         return out
-    tb = idx[rows].as_unit("ns").asi8 // int(SURROUND_BUCKET_S * 1e9)
-    key = np.column_stack([np.floor(x[rows] / SURROUND_GRID_M), np.floor(y[rows] / SURROUND_GRID_M), tb])
+    # rows at the same place, time and sun share one sampling (exact duplicates only: the result
+    # of a row depends on that row alone, whichever caller gives it and with whatever other rows)
+    key = np.column_stack([x[rows], y[rows], idx[rows].as_unit("ns").asi8.astype(float), elev[rows], azim[rows],
+                           np.zeros(rows.size) if mon is None else mon[rows]])
     _, first, inv = np.unique(key, axis=0, return_index=True, return_inverse=True)
     rep = rows[first]
     inv = inv.reshape(-1)

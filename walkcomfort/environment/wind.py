@@ -39,7 +39,9 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import shapely
 
+from walkcomfort.environment.scene import KIND_CODE
 from walkcomfort.environment.utci import Z0_UTCI_M
 
 #: Window over which the walker's own motion is removed from a carried anemometer [s].
@@ -135,3 +137,18 @@ def describe_street_profile(mean_building_height_m: float, attenuation: float = 
             f"urban log profile zd {p['z_d_m']:.1f} m, z0 {p['z0_m']:.1f} m (Grimmond & Oke 1999, mean building "
             f"height {p['z_h_m']:.1f} m) -> exponential canopy decay a={attenuation:g} (Cionco 1965) -> "
             f"1.1 m; UTCI 10 m-equivalent = {ratio:.2f} x station wind")
+
+
+def mean_building_height(scene) -> float:
+    """Plan-area-weighted mean height of a scene's buildings [m] (0 without buildings).
+
+    Grimmond & Oke (1999) use the plan-area-weighted mean height of the roughness elements.
+    """
+    if scene is None:
+        return 0.0
+    obs = scene.obstacles
+    bld = obs.kind == KIND_CODE["building"]
+    if not bld.any():
+        return 0.0
+    area = shapely.area(obs.footprints[bld])
+    return float(np.sum(area * obs.z_top[bld]) / np.sum(area)) if np.sum(area) > 0 else 0.0

@@ -40,6 +40,7 @@ from walkcomfort.columns import (
     VOTE_NOTE,
     VOTE_TSV,
     WALK_ID,
+    WIND_MS,
 )
 from walkcomfort.errors import InputError
 from walkcomfort.session import losses as _losses
@@ -233,13 +234,19 @@ class TimelineBuilder:
     def _weather(self, s, df: pd.DataFrame, mg: float) -> pd.DataFrame:
         """Lag correction (when asked), the settling flag and the lag statistics of a weather logger."""
         spec = self.spec
+        lag_noise: dict = {}
         if self.p["lag_correction"]:
             df = df.copy()
             for col, key in ((T_AIR_C, "tau_air_s"), (T_GLOBE_C, "tau_globe_s")):
                 tau = spec.sensors.get(key)
                 if col in df.columns and tau:
                     ok = df[col].notna()
-                    df.loc[ok, col] = correct_lag(df.loc[ok, col], tau, max_gap_s=mg).to_numpy()
+                    # a globe's time constant follows the air speed at it (session.lag)
+                    speed = df.loc[ok, WIND_MS].to_numpy(float) if col == T_GLOBE_C and WIND_MS in df.columns else None
+                    fixed = correct_lag(df.loc[ok, col], tau, max_gap_s=mg, air_speed_ms=speed,
+                                        diameter_m=spec.sensors.get("globe_diameter_m") if speed is not None else None)
+                    df.loc[ok, col] = fixed.to_numpy()
+                    lag_noise[col] = fixed.attrs.get("lag", {})
                     self.lag_done = True
                 elif col in df.columns:
                     self.warnings.append(f"{s.name}: no {key} in [sensors]; {col} not lag-corrected")
@@ -257,7 +264,8 @@ class TimelineBuilder:
             if err.size:
                 over = float(np.mean(err > 1.0))
                 lag_info[col] = {"tau_s": float(tau), "lag_error_p95_k": round(float(np.percentile(err, 95)), 4),
-                                 "lag_error_over_1k_frac": round(over, 4)}
+                                 "lag_error_over_1k_frac": round(over, 4),
+                                 **{f"correction_{k}": v for k, v in lag_noise.get(col, {}).items()}}
                 if over > UNSETTLED_WARN_FRAC:
                     self.warnings.append(f"{s.name}: {col} is still settling for {over:.0%} of readings (lag error "
                                          f"above 1 K with tau {tau:g} s): let the sensor settle before the walk, or "

@@ -88,7 +88,7 @@ SENSOR_KEYS: dict[str, tuple[float, float, float | None]] = {
 # sensor moved with the walker (reads air speed relative to them) or stood still.
 SENSOR_CHOICES: dict[str, tuple[tuple[str, ...], str | None]] = {
     "globe_type": (("black_150mm", "grey_38mm"), None),
-    "anemometer": (("carried", "fixed"), "carried"),
+    "anemometer": (("carried", "fixed"), None),
 }
 
 
