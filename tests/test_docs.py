@@ -76,7 +76,7 @@ def test_scene_page_example_loads_and_covers_every_kind():
     from walkcomfort.environment.scene import KINDS, Scene
 
     scene = Scene.from_geojson(example("scene.md", "scene-example"), source="docs/formats/scene.md")
-    assert sorted(scene.ids) == ["b1", "c1", "t1"]
+    assert sorted(scene.ids) == ["b1", "c1", "g1", "t1"]  # g1: a ground surface (kind "ground")
     assert set(documented_scene_properties()) == set(KINDS)
 
 
