@@ -138,10 +138,13 @@ def test_the_written_scheme_reproduces_the_gain_in_the_full_comparison(street):
     scheme = scheme_from_geojson(scheme_geojson(adv, street["scene"], "advised"))
     v = verify_with_comparison(adv, [street["route"]], scheme, DEPART, street["weather"], street["scene"],
                                timezone="Europe/Madrid")
-    # the advisor traces the direct beam only; the comparison adds the crowns' loss of sky view
-    # (stated in routes/placement/shadows.py): agreement within a quarter is what that omission allows here
+    # the advisor traces the walker's direct beam only; the comparison adds the crowns' loss of
+    # sky view and, since Tmrt comes from the surfaces in view (environment.surroundings), the
+    # new crowns' shade on the ground around the walker, which the advisor leaves out: its
+    # estimate is conservative (below the comparison's gain) and within about half of it here
     assert v["compare_gain"] > 0
-    assert abs(v["relative_difference"]) < 0.25, v["text"]
+    assert v["relative_difference"] < 0.1, v["text"]
+    assert abs(v["relative_difference"]) < 0.6, v["text"]
 
 
 def test_catalogue_errors_are_one_line(tmp_path):

@@ -58,7 +58,8 @@ def environment_with_beam(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarra
     env = environment_columns(pd.DatetimeIndex(t[C.TIME]), t[[C.LON, C.LAT]], t[weather_cols],
                               scene=table.attrs["scene"].scene if "scene" in table.attrs else None,
                               wind_height_m=table.attrs.get("wind_height_m"),
-                              sky_view=(t[C.SVF].to_numpy(float), t[C.SKY_VIEW_CROWN_FRAC].to_numpy(float)),
+                              sky_view=(t[C.SVF].to_numpy(float), t[C.SKY_VIEW_CROWN_FRAC].to_numpy(float),
+                                        t.get(C.SKY_DIFFUSE_FRAC, t[C.SVF]).to_numpy(float)),
                               beam_trans=np.asarray(beam, float), warn=False)
     return env[C.TMRT_C].to_numpy(float), env[C.UTCI_C].to_numpy(float)
 
