@@ -116,3 +116,14 @@ def test_stated_ghi_becomes_clear_index_per_step_and_impossible_value_refused():
     assert float(out[C.GHI_WM2].iloc[-1]) == 0.0  # 22 h: the sun has set
     with pytest.raises(InputError, match="more than any sky"):
         sun.stated_ghi_to_series(1400.0, times, 40.42, -3.70)
+
+
+def test_stated_conditions_ghi_never_gives_an_impossible_beam():
+    # the former behaviour: 800 W/m² at every departure, DNI 2211 W/m² at 20 h, 5643 at 21 h (Madrid, July)
+    from walkcomfort.routes.weather import StatedConditions
+
+    times = pd.date_range("2026-07-15 06:00", "2026-07-15 22:00", freq="30min", tz="Europe/Madrid")
+    out = StatedConditions(t_air_c=33.0, rh_pct=30.0, wind_ms=1.0, ghi_wm2=800.0).conditions(times, 40.42, -3.70)
+    zen = sun.solar_position(times, 40.42, -3.70)[C.SUN_ZENITH_DEG].to_numpy()
+    assert (out[C.DNI_WM2].to_numpy() <= sun.max_dni(zen, times) + 1e-9).all()
+    assert out[C.GHI_WM2].iloc[-1] == 0.0 and out[C.GHI_WM2].max() == pytest.approx(800.0, rel=0.01)

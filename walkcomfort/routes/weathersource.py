@@ -67,11 +67,21 @@ def split_ghi(ghi: np.ndarray, times: pd.DatetimeIndex, lat: float, lon: float, 
 
 
 def add_irradiance(out: pd.DataFrame, times, lat, lon, elev_m, ghi=None, cloud_frac=None) -> None:
-    """Add ``ghi/dni/dhi_wm2`` to ``out``: clear sky, clear sky under a cloud cover, or a given GHI split."""
+    """Add ``ghi/dni/dhi_wm2`` to ``out``: clear sky, clear sky under a cloud cover, or a given GHI split.
+
+    One stated GHI is read as the value at the day's highest sun and becomes a clear-sky
+    index applied at every time (:func:`walkcomfort.environment.sun.stated_ghi_to_series`).
+    """
     cs = clearsky(times, lat, lon, elev_m)
     if ghi is None and cloud_frac is None:
         for k in (C.GHI_WM2, C.DNI_WM2, C.DHI_WM2):
             out[k] = cs[k].to_numpy(float)
+        return
+    if cloud_frac is None and np.ndim(ghi) == 0:
+        # one stated GHI: a clear-sky index applied at each time (refused when no sky gives it)
+        st = sun.stated_ghi_to_series(float(ghi), times, lat, lon, elev_m, where="--conditions ghi_wm2")
+        for k in (C.GHI_WM2, C.DNI_WM2, C.DHI_WM2):
+            out[k] = st[k].to_numpy(float)
         return
     if cloud_frac is not None:
         g = cloud_scaled_ghi(cs[C.GHI_WM2].to_numpy(float), cloud_frac)
