@@ -230,6 +230,20 @@ def runaway(tmp: Path) -> None:
     write_gpx(old / "track.gpx", np.r_[-(T0 - datetime(1970, 1, 1, tzinfo=UTC)).total_seconds(), np.arange(600.0)])
     (old / "session.toml").write_text(GPS_ONLY)
     cases["10-min walk + one fix in 1970"] = old
+    big = tmp / "big_logger"
+    big.mkdir()
+    write_gpx(big / "track.gpx", np.arange(600.0))
+    n = 1_300_000   # a logger left running at 1 Hz for 15 days: ~50 MB of CSV
+    with open(big / "weather.csv", "w") as fh:
+        fh.write("time,t_air,rh,wind,t_globe\n")
+        start = T0 + timedelta(hours=2) - timedelta(seconds=n // 2)
+        for i in range(n):
+            fh.write(f"{(start + timedelta(seconds=i)):%Y-%m-%d %H:%M:%S},{25 + (i % 97) / 50:.2f},40.0,1.5,"
+                     f"{30 + (i % 89) / 40:.2f}\n")
+    (big / "session.toml").write_text(GPS_ONLY + '[[source]]\nkind = "weather"\npath = "weather.csv"\n'
+                                      '[source.units]\nt_air = "degC"\nwind = "m/s"\nt_globe = "degC"\n')
+    size_mb = (big / "weather.csv").stat().st_size / 1e6
+    cases[f"10-min walk + a {size_mb:.0f} MB logger file ({n:,} rows)"] = big
     base_s = None
     for name, folder in cases.items():
         rc, secs, mb, err = run_check(folder)
