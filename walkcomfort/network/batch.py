@@ -170,6 +170,7 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
         mt = pd.DatetimeIndex(month_times.index, name=C.TIME)
         chunks.extend(mt[i:i + time_chunk] for i in range(0, len(mt), time_chunk))
     parts: list[Partition] = []
+    tile_points: dict[tuple, pd.DataFrame] = {}
     scheme_digests = {}
     for scheme in sorted(scenes, key=lambda s: (s != BASE, s)):
         scene = scenes[scheme]
@@ -179,8 +180,11 @@ def plan_job(network, times: pd.DatetimeIndex, scenes: dict[str, dict | None],
         positions = feature_positions(scene)
         by_segment = all_points.groupby(C.SEGMENT_ID, sort=False).indices
         for tile in tiles:
-            rows = np.concatenate([by_segment[s] for s in tile.segment_ids])
-            pts = all_points.iloc[np.sort(rows)].reset_index(drop=True)
+            key = tuple(tile.segment_ids)  # one points table per tile, shared by the schemes
+            if key not in tile_points:
+                rows = np.concatenate([by_segment[s] for s in tile.segment_ids])
+                tile_points[key] = all_points.iloc[np.sort(rows)].reset_index(drop=True)
+            pts = tile_points[key]
             tscene = subset_scene(scene, tile.obstacle_ids, positions)
             for k, chunk in enumerate(chunks):
                 w = None if weather is None else weather.loc[chunk]
