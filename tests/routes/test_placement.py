@@ -102,12 +102,12 @@ def test_overlapping_shadows_are_not_credited_twice(street):
 def test_greedy_against_exhaustive_search_on_a_small_case(street):
     table, options = _options(street, spacing_m=4.0)
     obj = PhysicsObjective(table)
-    useful = sorted((o for o in options if o.rows.size), key=lambda o: -obj.gain(o))[:12]
+    useful = sorted((o for o in options if o.rows.size), key=lambda o: -obj.gain(o))[:8]
     best, best_gain = exhaustive(useful, obj, 3)
     obj.reset()
     sel = greedy(useful, obj, max_count=3)
     ratio = sel.total / best_gain
-    print(f"greedy / optimum = {ratio:.4f} on {len(useful)} candidates, budget 3")
+    print(f"greedy / optimum = {ratio:.4f} on {len(useful)} candidates, budget 3")  # 8 <= 12: the small case
     # lower bound: (1 - 1/e) for monotone submodular objectives (Nemhauser, Wolsey & Fisher 1978)
     assert ratio >= 1 - 1 / np.e
     assert ratio <= 1 + 1e-9
@@ -138,13 +138,11 @@ def test_the_written_scheme_reproduces_the_gain_in_the_full_comparison(street):
     scheme = scheme_from_geojson(scheme_geojson(adv, street["scene"], "advised"))
     v = verify_with_comparison(adv, [street["route"]], scheme, DEPART, street["weather"], street["scene"],
                                timezone="Europe/Madrid")
-    # the advisor traces the walker's direct beam only; the comparison adds the crowns' loss of
-    # sky view and, since Tmrt comes from the surfaces in view (environment.surroundings), the
-    # new crowns' shade on the ground around the walker, which the advisor leaves out: its
-    # estimate is conservative (below the comparison's gain) and within about half of it here
+    # the advisor evaluates every pick through the same chain with the items built (their shade on
+    # the walker and on the ground and walls around, the sky they hide), so the full comparison of
+    # the written scheme gives the same gain; 2 % leaves room for the walk simulated anew
     assert v["compare_gain"] > 0
-    assert v["relative_difference"] < 0.1, v["text"]
-    assert abs(v["relative_difference"]) < 0.6, v["text"]
+    assert abs(v["relative_difference"]) < 0.02, v["text"]
 
 
 def test_catalogue_errors_are_one_line(tmp_path):
@@ -167,14 +165,14 @@ def test_advise_command_writes_a_scheme_that_compare_reads(street, capsys):
     out = street["dir"] / "advice"
     code = main(["advise", str(street["path"]), "--scene", str(scene_path), "--conditions",
                  "t_air_c=33,rh_pct=30,wind_ms=1.5", "--depart", "2026-07-15T13:00", "--timezone", "Europe/Madrid",
-                 "--count", "3", "--check-optimum", "-o", str(out)])
+                 "--count", "2", "--check-optimum", "-o", str(out)])
     text = capsys.readouterr().out
     assert code == 0, text
     assert {p.name for p in out.iterdir()} == set(FILES)
     assert "licensed professional" in (out / "advice.md").read_text()
     assert "ratio" in (out / "advice.md").read_text()
     scheme = load_scheme(out / "scheme.geojson")
-    assert len(scheme.edits) == 3
+    assert len(scheme.edits) == 2
     cmp_out = street["dir"] / "cmp"
     assert main(["compare", str(street["path"]), "--scene", str(scene_path), "--scheme", str(out / "scheme.geojson"),
                  "--conditions", "t_air_c=33,rh_pct=30,wind_ms=1.5", "--depart", "2026-07-15T13:00",

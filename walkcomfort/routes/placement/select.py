@@ -10,7 +10,8 @@ weighted minutes, and stated as a *gain*, so larger is better):
 * ``comfort`` — expected comfortable minutes gained, from the comfort model applied to
   the whole walk, so that exposure history counts.
 
-Selection: greedy with lazy re-evaluation (Minoux 1978; the "lazy greedy" of Leskovec et
+Selection (it stops when the best marginal gain falls below :data:`MIN_GAIN_SHARE` of the
+walks' total): greedy with lazy re-evaluation (Minoux 1978; the "lazy greedy" of Leskovec et
 al. 2007, KDD, for budgeted coverage). Each step takes the option with the largest
 marginal gain (per unit cost under a cost budget) given everything chosen so far; a
 stored gain is only an upper bound and is re-evaluated before it is trusted. Shade
@@ -42,31 +43,47 @@ DOSE_BASE_C = 26.0   # heat dose above the upper edge of "no thermal stress" (UT
 DEFAULT_THRESHOLD_C = 32.0
 
 
-def environment_with_beam(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def environment_with_beam(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarray,
+                          items: list | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Tmrt and UTCI [°C] of walk rows when their direct-beam transmittance becomes ``beam``.
 
     The rows go through the one environment chain
-    (:func:`walkcomfort.environment.chain.environment_columns`) with the new beam given
-    and their sky view as traced for the base scene; everything else (sun, irradiance,
-    surfaces, wind) is the chain's own, so a trial differs from the base only by the beam.
+    (:func:`walkcomfort.environment.chain.environment_columns`) with the walker's beam
+    given. Without ``items`` the scene is the base scene and the sky view the base's: a
+    quick first ranking that sees the new shade on the walker only. With ``items`` (options
+    to build) the scene is the base plus those items, and the chain traces everything else
+    itself — the new crowns' shade on the ground and walls around, and the sky they hide.
     """
     from walkcomfort.environment.chain import environment_columns
 
     t = table.iloc[rows]
     weather_cols = [c for c in (C.T_AIR_C, C.RH_PCT, C.WIND_MS, C.PRESSURE_HPA, C.GHI_WM2, C.DNI_WM2, C.DHI_WM2)
                     if c in t.columns]
-    env = environment_columns(pd.DatetimeIndex(t[C.TIME]), t[[C.LON, C.LAT]], t[weather_cols],
-                              scene=table.attrs["scene"].scene if "scene" in table.attrs else None,
-                              wind_height_m=table.attrs.get("wind_height_m"),
-                              sky_view=(t[C.SVF].to_numpy(float), t[C.SKY_VIEW_CROWN_FRAC].to_numpy(float),
-                                        t.get(C.SKY_DIFFUSE_FRAC, t[C.SVF]).to_numpy(float)),
+    base = table.attrs["scene"].scene if "scene" in table.attrs else None
+    if items:
+        scene, sky_view = scene_with(base, items), None
+    else:
+        scene = base
+        sky_view = (t[C.SVF].to_numpy(float), t[C.SKY_VIEW_CROWN_FRAC].to_numpy(float),
+                    t.get(C.SKY_DIFFUSE_FRAC, t[C.SVF]).to_numpy(float))
+    env = environment_columns(pd.DatetimeIndex(t[C.TIME]), t[[C.LON, C.LAT]], t[weather_cols], scene=scene,
+                              wind_height_m=table.attrs.get("wind_height_m"), sky_view=sky_view,
                               beam_trans=np.asarray(beam, float), warn=False)
     return env[C.TMRT_C].to_numpy(float), env[C.UTCI_C].to_numpy(float)
 
 
-def default_response(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarray) -> np.ndarray:
+def scene_with(base, items: list):
+    """The base scene with the options' items added (ids ``advised-<option index>``)."""
+    from walkcomfort.environment.scene import Scene
+    from walkcomfort.routes.placement.shadows import option_geojson
+
+    feats = base.features + [option_geojson(o, base, f"advised-{o.index}") for o in items]
+    return Scene(feats, site=dict(base.site), source=base.source, ground_material=base.ground_material)
+
+
+def default_response(table: pd.DataFrame, rows: np.ndarray, beam: np.ndarray, items: list | None = None) -> np.ndarray:
     """UTCI [°C] of walk rows under a new direct-beam transmittance (see :func:`environment_with_beam`)."""
-    return environment_with_beam(table, rows, beam)[1]
+    return environment_with_beam(table, rows, beam, items)[1]
 
 
 class PhysicsObjective:
@@ -101,20 +118,33 @@ class PhysicsObjective:
         return per * self.weight[rows]
 
     def reset(self) -> None:
+        self.items: list[Option] = []
         self.beam = self.base_beam.copy()
         all_rows = np.arange(len(self.table))
         self.loss = self._loss(self.response(self.table, all_rows, self.beam), all_rows)
         self.base_total = float(self.loss.sum())
 
+    def _trial(self, opt: Option, items: list) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Rows ``opt`` can change, their new beam and their new loss with ``items`` built."""
+        rows = opt.wide_rows
+        beam = self.beam[rows].copy()
+        beam[np.searchsorted(rows, opt.rows)] *= opt.tau
+        return rows, beam, self._loss(self.response(self.table, rows, beam, items), rows)
+
     def gain(self, opt: Option) -> float:
-        if opt.rows.size == 0:
+        """Exact marginal gain of ``opt`` given the items chosen so far (the whole chain)."""
+        if opt.wide_rows.size == 0:
             return 0.0
-        new_beam = self.beam[opt.rows] * opt.tau
-        new_loss = self._loss(self.response(self.table, opt.rows, new_beam), opt.rows)
-        return float(self.loss[opt.rows].sum() - new_loss.sum())
+        rows, _, new_loss = self._trial(opt, self.items + [opt])
+        return float(self.loss[rows].sum() - new_loss.sum())
 
     def gains(self, options: list[Option]) -> np.ndarray:
-        """:meth:`gain` of many options at once: one pass through the chain for all their rows."""
+        """A quick first ranking of many options: the new beam on the walker only, one chain call.
+
+        It leaves out the new crown's shade on the surfaces around and the sky it hides,
+        so it under-states the gain; :func:`greedy` re-evaluates the leading options with
+        :meth:`gain` before it trusts any of them.
+        """
         useful = [o for o in options if o.rows.size]
         out = np.zeros(len(options))
         if not useful:
@@ -131,21 +161,23 @@ class PhysicsObjective:
         return out
 
     def commit(self, opt: Option) -> None:
-        if opt.rows.size == 0:
+        if opt.wide_rows.size == 0:
             return
-        self.beam[opt.rows] *= opt.tau
-        self.loss[opt.rows] = self._loss(self.response(self.table, opt.rows, self.beam[opt.rows]), opt.rows)
+        rows, beam, new_loss = self._trial(opt, self.items + [opt])
+        self.beam[rows] = beam
+        self.loss[rows] = new_loss
+        self.items.append(opt)
 
     def set_gain(self, chosen: list[Option]) -> float:
         """Exact gain of a whole set, from the base (for the exhaustive check)."""
-        beam = self.base_beam.copy()
-        touched = np.unique(np.concatenate([o.rows for o in chosen])) if chosen else np.zeros(0, int)
-        for o in chosen:
-            beam[o.rows] *= o.tau
+        touched = np.unique(np.concatenate([o.wide_rows for o in chosen])) if chosen else np.zeros(0, int)
         if touched.size == 0:
             return 0.0
+        beam = self.base_beam.copy()
+        for o in chosen:
+            beam[o.rows] *= o.tau
         base = self._loss(self.response(self.table, touched, self.base_beam[touched]), touched)
-        new = self._loss(self.response(self.table, touched, beam[touched]), touched)
+        new = self._loss(self.response(self.table, touched, beam[touched], list(chosen)), touched)
         return float(base.sum() - new.sum())
 
 
@@ -177,6 +209,17 @@ class Selection:
         return float(sum(o.cost for o in self.chosen))
 
 
+#: A marginal gain below this share of the walks' total (heat dose, minutes, comfortable
+#: minutes as they are) is too small to build for: the selection stops there. An item far
+#: from every walk still changes the sky view a little (the chain looks 200 m out).
+MIN_GAIN_SHARE = 0.001
+
+
+def refine_n(n_options: int, max_count: int | None) -> int:
+    """How many leaders of the quick first ranking are evaluated in full before selecting."""
+    return min(n_options, max(20, 3 * (max_count or 10)))
+
+
 def greedy(options: list[Option], objective, max_count: int | None = None,
            max_cost: float | None = None) -> Selection:
     """Lazy greedy selection within a count and/or cost budget (see the module docstring)."""
@@ -185,12 +228,22 @@ def greedy(options: list[Option], objective, max_count: int | None = None,
     by_cost = max_cost is not None
     sel = Selection()
     heap = []
-    first = objective.gains(options) if hasattr(objective, "gains") else [objective.gain(o) for o in options]
+    quick = hasattr(objective, "gains")
+    first = objective.gains(options) if quick else [objective.gain(o) for o in options]
+    # a quick first ranking is only an estimate: its leaders are evaluated in full before the
+    # selection starts, and every quick value is stale (stamp -1) until evaluated in full
+    stamp0 = -1 if quick else 0
+    if quick:
+        lead = np.argsort(-np.asarray(first, float), kind="stable")[:refine_n(len(options), max_count)]
+        first = np.asarray(first, float).copy()
+        for pos in lead:
+            first[pos] = objective.gain(options[pos])
+            sel.evaluations += 1
     for pos, (o, g) in enumerate(zip(options, first, strict=True)):
         g = float(g)
         sel.evaluations += 1
         sel.last_gain[o.index] = g
-        heap.append((-(g / o.cost if by_cost else g), pos, 0))
+        heap.append((-(g / o.cost if by_cost else g), pos, 0 if quick and pos in set(lead) else stamp0))
     heapq.heapify(heap)
     spent = 0.0
     while heap and (max_count is None or len(sel.chosen) < max_count):
@@ -205,7 +258,7 @@ def greedy(options: list[Option], objective, max_count: int | None = None,
             heapq.heappush(heap, (-(g / o.cost if by_cost else g), pos, len(sel.chosen)))
             continue
         g = sel.last_gain[o.index]
-        if g <= 0:
+        if g <= max(MIN_GAIN_SHARE * abs(getattr(objective, "base_total", 0.0)), 0.0):
             break
         objective.commit(o)
         sel.chosen.append(o)
@@ -222,7 +275,10 @@ def _compare_best_single(options, objective, sel: Selection, max_cost: float) ->
     if not affordable:
         return
     objective.reset()
-    single = objective.gains(affordable) if hasattr(objective, "gains") else [objective.gain(o) for o in affordable]
+    if hasattr(objective, "gains"):  # the quick ranking's leaders, evaluated in full
+        quick = np.asarray(objective.gains(affordable), float)
+        affordable = [affordable[i] for i in np.argsort(-quick, kind="stable")[:5]]
+    single = [objective.gain(o) for o in affordable]
     k = int(np.argmax(single))
     best, g = affordable[k], float(single[k])
     if g > sel.total:
@@ -276,12 +332,12 @@ class ComfortObjective:
         self.key_of_row = keys
         self.reset()
 
-    def walk_value(self, key, beam_rows: np.ndarray) -> float:
+    def walk_value(self, key, beam_rows: np.ndarray, items: list | None = None) -> float:
         from walkcomfort.environment.utci import utci_band
 
         rows = self.rows_of[key]
         w = self.walks[key].copy()
-        tmrt, utci = environment_with_beam(self.table, rows, beam_rows)
+        tmrt, utci = environment_with_beam(self.table, rows, beam_rows, items)
         w[C.BEAM_TRANS_FRAC] = beam_rows
         w[C.SHADE_FRAC] = 1.0 - beam_rows
         w[C.TMRT_C], w[C.UTCI_C] = tmrt, utci
@@ -294,6 +350,7 @@ class ComfortObjective:
         return value
 
     def reset(self) -> None:
+        self.items: list[Option] = []
         self.beam = self.base_beam.copy()
         self.trial_folds: dict = {}
         self.value = {k: self.walk_value(k, self.beam[r]) for k, r in self.rows_of.items()}
@@ -303,16 +360,17 @@ class ComfortObjective:
 
     def _trial(self, opt: Option) -> dict:
         out = {}
-        for k in np.unique(self.key_of_row[opt.rows]):
+        items = self.items + [opt]
+        for k in np.unique(self.key_of_row[opt.wide_rows]):
             rows = self.rows_of[k]
             beam = self.beam[rows].copy()
-            pos = np.searchsorted(rows, opt.rows[self.key_of_row[opt.rows] == k])
-            beam[pos] *= opt.tau[self.key_of_row[opt.rows] == k]
-            out[k] = (beam, self.walk_value(k, beam))
+            mine = self.key_of_row[opt.rows] == k
+            beam[np.searchsorted(rows, opt.rows[mine])] *= opt.tau[mine]
+            out[k] = (beam, self.walk_value(k, beam, items))
         return out
 
     def gain(self, opt: Option) -> float:
-        if opt.rows.size == 0:
+        if opt.wide_rows.size == 0:
             return 0.0
         return float(sum(v - self.value[k] for k, (_, v) in self._trial(opt).items()))
 
@@ -326,13 +384,14 @@ class ComfortObjective:
                 d = self.trial_folds[k] - self.fold_value[k]
                 fold_gain = d if fold_gain is None else fold_gain + d
                 self.fold_value[k] = self.trial_folds[k]
+        self.items.append(opt)
         self.last_commit_folds = fold_gain
 
     def set_gain(self, chosen: list[Option]) -> float:
-        saved = (self.beam.copy(), dict(self.value), dict(self.fold_value))
+        saved = (self.beam.copy(), dict(self.value), dict(self.fold_value), list(self.items))
         self.reset()
         for o in chosen:
             self.commit(o)
         g = float(sum(self.value.values()) - self.base_total)
-        self.beam, self.value, self.fold_value = saved
+        self.beam, self.value, self.fold_value, self.items = saved
         return g

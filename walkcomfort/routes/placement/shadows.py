@@ -9,11 +9,13 @@ rows its shadow can reach; the result is stored sparse (rows, transmittance).
 
 Combining options is exact for the direct beam: the beam crossing several obstacles is
 multiplied by each one's transmittance (Beer–Lambert / per-crossing attenuation
-composes multiplicatively), so the beam under a set of new items is
-``base × Π τ_item`` row by row. Overlapping shadows are therefore never double-counted.
-Not traced per option: the small loss of sky view and the cooler ground under a new
-crown. The chosen scheme is re-run through the full comparison (``compare``), which
-includes both; the advisor reports that run beside its own estimate.
+composes multiplicatively), so the walker's beam under a set of new items is
+``base × Π τ_item`` row by row, and overlapping shadows are never double-counted. The
+rest of what a new crown changes — its shade on the ground and walls the walker sees,
+the sky it hides — is left to the environment chain: each option also keeps the rows
+within :data:`SURROUNDINGS_M` of its shadow (``wide_rows``), and the selection
+(:mod:`.select`) evaluates a pick by running those rows through the chain with the items
+built. The quick first ranking of all candidates uses the walker's beam alone.
 """
 
 from __future__ import annotations
@@ -32,6 +34,9 @@ from walkcomfort.routes.placement.catalogue import Intervention
 
 #: Screening margin around the analytic shadow footprint [m] (grid convergence, crown shape).
 MARGIN_M = 1.5
+#: Radius around a walker within which the chain samples the ground and walls (its outer ground
+#: ring at 1.1 m lies at about 22 m) [m]; an item farther than this plus its shadow changes nothing.
+SURROUNDINGS_M = 25.0
 #: Transmittances above this are treated as "no shade" and not stored [-].
 TAU_STORE_MAX = 1.0 - 1e-9
 
@@ -63,6 +68,7 @@ class Option:
     lat: float
     rows: np.ndarray        # indices into the walk table
     tau: np.ndarray         # beam transmittance of this item alone on those rows (< 1)
+    wide_rows: np.ndarray = None  # rows whose surroundings (ground, walls, sky) the item can change; ⊇ rows
 
     @property
     def cost(self) -> float:
@@ -101,8 +107,13 @@ def walk_table(walks: list[pd.DataFrame], weights: list[float] | None = None) ->
     return out
 
 
-def reachable_rows(table: pd.DataFrame, x: float, y: float, it: Intervention, z_m: float) -> np.ndarray:
-    """Rows whose point could lie in the item's shadow (a generous analytic screen)."""
+def reachable_rows(table: pd.DataFrame, x: float, y: float, it: Intervention, z_m: float,
+                   around_m: float = 0.0) -> np.ndarray:
+    """Rows whose point could lie in the item's shadow (a generous analytic screen).
+
+    With ``around_m`` > 0: rows with any point within ``around_m`` of the walker in the
+    shadow (what the walker sees of the ground around can change).
+    """
     px, py = table["_x"].to_numpy(), table["_y"].to_numpy()
     elev = table[C.SUN_ELEV_DEG].to_numpy(float)
     az = np.radians(table[C.SUN_AZIM_DEG].to_numpy(float))
@@ -113,7 +124,7 @@ def reachable_rows(table: pd.DataFrame, x: float, y: float, it: Intervention, z_
     top = it.height_m if it.kind == "tree" else it.height_m + 0.2
     with np.errstate(divide="ignore", invalid="ignore"):
         reach = np.where(elev > 0, np.clip(top - z_m, 0.0, None) / np.tan(np.radians(np.clip(elev, 0.01, 90))), 0.0)
-    r = it.reach_m + MARGIN_M
+    r = it.reach_m + MARGIN_M + around_m
     ok = (elev > 0) & (lateral <= r) & (along >= -r) & (along <= reach + r)
     return np.flatnonzero(ok)
 
@@ -141,8 +152,9 @@ def trace_options(table: pd.DataFrame, scene: Scene, sites: pd.DataFrame, catalo
                                          month=months[rows])
                 keep = tau < TAU_STORE_MAX
                 rows, tau = rows[keep], np.asarray(tau, float)[keep]
+            wide = np.union1d(rows, reachable_rows(table, s.x_m, s.y_m, it, z_m, around_m=SURROUNDINGS_M))
             options.append(Option(len(options), s.site_id, it, float(s.x_m), float(s.y_m), float(s.lon),
-                                  float(s.lat), rows, tau))
+                                  float(s.lat), rows, tau, wide))
     return options
 
 
@@ -167,6 +179,16 @@ def add_scene_xy(table: pd.DataFrame, scene: Scene) -> pd.DataFrame:
     out["_x"], out["_y"] = np.asarray(x, float), np.asarray(y, float)
     out.attrs = {**table.attrs, "scene": SceneRef(scene)}
     return out
+
+
+def option_geojson(opt: Option, scene: Scene, feature_id: str) -> dict:
+    """The option's item as a scene GeoJSON Feature (lon/lat)."""
+    import shapely
+    from shapely.geometry import mapping
+
+    geom, props = option_feature(opt, scene, feature_id)
+    geom = shapely.transform(geom, lambda xy: np.column_stack(scene.unproject(xy[:, 0], xy[:, 1])))
+    return {"type": "Feature", "properties": props, "geometry": mapping(geom)}
 
 
 def option_feature(opt: Option, scene: Scene, feature_id: str) -> tuple[object, dict]:
