@@ -248,9 +248,11 @@ def runaway(tmp: Path) -> None:
     for name, folder in cases.items():
         rc, secs, mb, err = run_check(folder)
         base_s = base_s or secs
-        ok = secs < 10 and mb < 1024
+        timed = "logger file" not in name   # the large logger file has a memory goal only
+        ok = (secs < 10 or not timed) and mb < 1024
+        goal = "< 10 s and < 1 GB" if timed else "< 1 GB"
         print(f"{name}: exit {rc}, {secs:.2f} s, peak {mb:.0f} MB, {secs / base_s:.1f}x the baseline; "
-              f"goal < 10 s and < 1 GB: {'met' if ok else 'NOT met'}" + (f"\n    {err[:240]}" if err else ""))
+              f"goal {goal}: {'met' if ok else 'NOT met'}" + (f"\n    {err[:240]}" if err else ""))
 
 
 def main(argv=None) -> int:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from walkcomfort.session.readers import quarantine_frame
+from walkcomfort.session.readers import QUARANTINE_COLUMNS, quarantine_frame
 
 
 class QuarantineBook:
@@ -20,7 +20,7 @@ class QuarantineBook:
     def __init__(self, frames: dict, metas: dict):
         self.frames = frames
         self.metas = metas
-        self.extra: dict[str, list[tuple]] = {k: [] for k in frames}
+        self.extra: dict[str, list[pd.DataFrame]] = {k: [] for k in frames}   # column-wise chunks
         self.pending: dict[str, np.ndarray] = {}
 
     def drop(self, name: str, mask: np.ndarray, reason: str) -> None:
@@ -35,8 +35,12 @@ class QuarantineBook:
             return
         m = self.metas[name]
         rows, raws = m["row_numbers"], m["raw_lines"]
-        for i in np.flatnonzero(mask):
-            self.extra[name].append((name, m["file"], int(rows[i]), str(reasons[i]), raws[i]))
+        idx = np.flatnonzero(mask)
+        # column-wise, not a tuple per row: a logger left running for weeks sets aside a million rows
+        self.extra[name].append(pd.DataFrame({"source": name, "file": m["file"],
+                                              "row": np.asarray(rows, dtype=np.int64)[idx],
+                                              "reason": np.asarray(reasons, dtype=object)[idx].astype(str),
+                                              "raw": [raws[i] for i in idx]}))
         keep = ~mask
         self.frames[name] = self.frames[name][keep]
         m["row_numbers"] = np.asarray(rows)[keep]
@@ -64,12 +68,21 @@ class QuarantineBook:
             self.drop_reasons(name, cur)
 
     def quarantine(self, order: list[str]) -> pd.DataFrame:
+        """Every row set aside, source by source in ``order``, each source sorted by row then reason."""
         parts = []
         for name in order:
-            q = self.metas[name]["quarantine"]
-            rows = list(q.itertuples(index=False, name=None)) + self.extra[name]
-            rows.sort(key=lambda r: (r[2], r[3]))
-            parts.extend(rows)
-        return quarantine_frame(parts)
+            chunks = [self.metas[name]["quarantine"], *self.extra[name]]
+            chunks = [c for c in chunks if len(c)]
+            if not chunks:
+                continue
+            q = pd.concat(chunks, ignore_index=True) if len(chunks) > 1 else chunks[0].reset_index(drop=True)
+            parts.append(q.sort_values(["row", "reason"], kind="stable").reset_index(drop=True))
+        if not parts:
+            return quarantine_frame([])
+        out = pd.concat(parts, ignore_index=True)[list(QUARANTINE_COLUMNS)]
+        out["row"] = out["row"].astype("int64")
+        for c in ("source", "file", "reason", "raw"):
+            out[c] = out[c].astype(object).astype(str)
+        return out
 
 

@@ -66,10 +66,31 @@ class RawTable:
     """Rows of a delimited text file, as text, with their 1-based line numbers."""
 
     header: list[str]
-    rows: list[list[str]]
+    rows: list[list[str]]      # (a list, or a :class:`FieldTable` read column-wise)
     lines: np.ndarray          # int line number of each row
     raws: list[str]            # the raw text of each row
     encoding: str
+
+
+class FieldTable:
+    """The fields of many rows kept column-wise as Arrow strings (compact), read like a list of rows."""
+
+    def __init__(self, columns: list):
+        self.columns = columns          # one pyarrow string array per header column
+
+    def __len__(self) -> int:
+        return len(self.columns[0]) if self.columns else 0
+
+    def __getitem__(self, i: int) -> list[str]:
+        return [c[i].as_py() for c in self.columns]
+
+    def __iter__(self):
+        yield from (list(r) for r in zip(*(c.to_pylist() for c in self.columns), strict=True))
+
+    def column(self, j: int) -> pd.Series:
+        import pyarrow.compute as pc
+
+        return pd.Series(pc.utf8_trim_whitespace(self.columns[j]).to_numpy(zero_copy_only=False), dtype=object)
 
 
 #: Longest field of a delimited file [characters]: a free-text vote note of a few MB is fine; a
@@ -117,7 +138,7 @@ def _has_utf8_sequences(data: bytes) -> bool:
     return _UTF8_MULTI.search(data) is not None
 
 
-def logical_lines(text: str) -> tuple[list[str], list[int]]:
+def logical_lines(text: str) -> tuple[list[str], list[int] | np.ndarray]:
     """Records of a delimited text and their first line numbers (1-based).
 
     A record ends at a line break outside a quoted field, so a quoted field may hold any
@@ -129,6 +150,8 @@ def logical_lines(text: str) -> tuple[list[str], list[int]]:
     physical = _LINE_BREAK.split(text)
     if physical and physical[-1] == "":
         physical.pop()
+    if '"' not in text:   # no quoted field: every line is a record
+        return physical, np.arange(1, len(physical) + 1, dtype=np.int64)
     records: list[str] = []
     starts: list[int] = []
     i = 0
@@ -180,10 +203,14 @@ def read_delimited(path: Path, spec, required: list[str], optional: list[str], q
     control bytes outside quotes, is quarantined with reason ``bad_line``.
     """
     text, encoding = read_text(path, getattr(spec, "encoding", None), where=spec.display)
+    quoted = '"' in text
     lines, starts = logical_lines(text)
+    del text   # a large file: the lines are all that is needed from here
     header_at, delim, header = _find_header(lines, spec, required)
     _refuse_duplicate_columns(header, required + optional, _where(spec.display, line=starts[header_at]))
     n = len(header)
+    if not quoted and len(lines) - header_at > _COLUMNWISE_ROWS:
+        return _read_columnwise(lines, starts, header_at, header, delim, q, encoding)
     rows: list[list[str]] = []
     nums: list[int] = []
     raws: list[str] = []
@@ -200,6 +227,36 @@ def read_delimited(path: Path, spec, required: list[str], optional: list[str], q
         nums.append(starts[i])
         raws.append(line)
     return RawTable(header, rows, np.asarray(nums, dtype=np.int64), raws, encoding)
+
+
+#: Files with more rows than this and no quotes are split column-wise (Arrow strings: a logger
+#: left running for weeks stays far below 1 GB of memory)
+_COLUMNWISE_ROWS = 50_000
+
+
+def _read_columnwise(lines, starts, header_at, header, delim, q, encoding) -> RawTable:
+    """Split a large quote-free file with Arrow string kernels; the same rules as the row loop."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    n = len(header)
+    arr = pa.array(lines[header_at + 1:], type=pa.large_string())
+    stripped = pc.utf8_trim_whitespace(arr)
+    skip = pc.or_(pc.equal(stripped, ""), pc.starts_with(stripped, "#")).to_numpy(zero_copy_only=False)
+    control = pc.match_substring_regex(arr, _CONTROL.pattern).to_numpy(zero_copy_only=False)
+    count = pc.count_substring(arr, delim).to_numpy(zero_copy_only=False) + 1
+    ok = ~skip & ~control & (count == n)
+    for i in np.flatnonzero(~skip & ~control & (count > n)):
+        # more fields than the header, the extra ones empty (a trailing delimiter): kept as in the row loop
+        ok[i] = _fields(lines[header_at + 1 + i], delim, n) is not None
+    first = np.asarray(starts[header_at + 1:], dtype=np.int64)
+    for i in np.flatnonzero(~skip & ~ok):
+        q.add(int(first[i]), "bad_line", lines[header_at + 1 + i])
+    kept = pc.split_pattern(arr.filter(pa.array(ok)), delim, max_splits=n)
+    columns = [pc.list_element(kept, j) if len(kept) else pa.array([], type=pa.large_string()) for j in range(n)]
+    idx = np.flatnonzero(ok)
+    raws = [lines[header_at + 1 + i] for i in idx]
+    return RawTable(header, FieldTable(columns), first[idx], raws, encoding)
 
 
 def _find_header(lines: list[str], spec, required: list[str]) -> tuple[int, str, list[str]]:
@@ -261,6 +318,8 @@ split_fields = _split
 def column(table: RawTable, name: str) -> pd.Series:
     """The text of one raw column (stripped), as an object Series aligned with the rows."""
     j = table.header.index(name)
+    if isinstance(table.rows, FieldTable):
+        return table.rows.column(j)
     return pd.Series([r[j].strip() for r in table.rows], dtype=object)
 
 
