@@ -315,3 +315,30 @@ def test_epoch_times(tmp_path, fmt, values):
     # 1784016000 s after 1970-01-01T00:00Z is 2026-07-14T08:00:00Z (from the definition of Unix time)
     assert list(df.index) == [pd.Timestamp("2026-07-14T08:00:00Z"), pd.Timestamp("2026-07-14T08:00:01.5Z")]
     assert list(meta["quarantine"]["reason"]) == ["bad_time", "bad_time"]
+
+
+def test_large_files_are_read_column_wise_with_the_same_result(monkeypatch, tmp_path):
+    """The Arrow column-wise path of big quote-free files gives the rows, values and quarantine of the row loop."""
+    import walkcomfort.session.readers._common as common
+    from walkcomfort.session.readers import read_source
+
+    d = tmp_path / "s"
+    shutil.copytree(Path(__file__).resolve().parents[1] / "fixtures" / "sessions" / "walk_ok", d)
+    w = d / "logger" / "weather.csv"
+    lines = w.read_text().splitlines()
+    lines[4] += ","                      # a trailing delimiter: kept
+    lines[6] += ",9"                     # one field too many: bad_line
+    lines[8] = lines[8].replace(",", ",\x01", 1)   # a control byte: bad_line
+    lines.insert(10, "# a comment")
+    w.write_text("\n".join(lines) + "\n")
+    spec = load_manifest(d)
+    src = [s for s in spec.sources if s.kind in ("weather", "noise", "light")]
+    rows_loop = {s.name: read_source(s, spec) for s in src}
+    monkeypatch.setattr(common, "_COLUMNWISE_ROWS", 0)
+    for s in src:
+        a, ma = rows_loop[s.name]
+        b, mb = read_source(s, spec)
+        pd.testing.assert_frame_equal(a, b)
+        pd.testing.assert_frame_equal(ma["quarantine"], mb["quarantine"])
+        assert list(ma["row_numbers"]) == list(mb["row_numbers"]) and ma["raw_lines"] == mb["raw_lines"]
+    assert (rows_loop["weather"][1]["quarantine"]["reason"] == "bad_line").sum() == 2
