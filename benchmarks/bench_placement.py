@@ -14,6 +14,11 @@ number on a shared machine.
 
 Goal: the advisor under 60 s on 2 cores.
 
+Last measured (2026-12-03, shared machine, load 6–11): advisor 29.3 s wall / 22.1 s CPU
+(575 objective evaluations; each pick evaluated through the whole chain with the items
+built), the per-candidate comparison 838 s wall / 748 s CPU scaled from 4 candidates:
+28.6× wall, 33.9× CPU.
+
     python benchmarks/bench_placement.py             # full size
     python benchmarks/bench_placement.py --quick     # 100 candidates, 4 departures
 """
