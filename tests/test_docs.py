@@ -254,3 +254,51 @@ def test_advice_outputs_page_lists_exactly_the_files_and_ranked_columns():
     empty = Advice("heat-dose", "", Selection(), [], pd.DataFrame(), pd.DataFrame(), 0.0, pd.DatetimeIndex([]), [],
                    1, None, 32.0)
     assert cols == set(empty.ranked().columns)
+
+
+# --- session manifest ----------------------------------------------------------------
+
+def _manifest_sections() -> dict[str, str]:
+    text = (DOCS / "session-manifest.md").read_text(encoding="utf-8")
+    parts = re.split(r"^### ", text, flags=re.M)[1:]
+    out = {}
+    for part in parts:
+        head, _, body = part.partition("\n")
+        m = re.match(r"`?(\[\[?[^\]`]+\]\]?)`?", head.strip())
+        out[m.group(1) if m else head.strip()] = body.split("\n## ")[0]
+    return out
+
+
+def test_session_manifest_page_documents_every_key_the_parser_accepts():
+    from walkcomfort.session.manifest import table_keys
+
+    sections = _manifest_sections()
+    for table, keys in table_keys().items():
+        assert table in sections, f"session-manifest.md has no section for {table}"
+        if table == "top level":  # the top level's keys are the tables: each has its own section
+            missing = [k for k in keys if f"`{k}`" not in sections[table]
+                       and not any(h.strip("[]").split(".")[0] == k for h in sections)]
+        else:  # in a table row (`key`, or a sub-table `[source.key]`) or in a TOML example (key = ...)
+            missing = [k for k in keys if f"`{k}`" not in sections[table] and f".{k}]`" not in sections[table]
+                       and not re.search(rf"^{re.escape(k)}\s*=", sections[table], re.M)]
+        assert not missing, f"session-manifest.md {table} does not document {missing}"
+
+
+def test_every_manifest_we_ship_uses_documented_keys_only():
+    import tomllib
+
+    from walkcomfort.session.manifest import table_keys
+
+    keys = table_keys()
+    files = [ROOT / "field_protocol" / "templates" / "session.toml",
+             *sorted((ROOT / "tests" / "fixtures" / "sessions").glob("*/session.toml")),
+             *sorted((DEMO / "sessions").glob("*/session.toml"))]
+    assert len(files) > 3
+    for path in files:
+        m = tomllib.loads(path.read_text(encoding="utf-8"))
+        assert set(m) <= set(keys["top level"]), path
+        for table, name in (("session", "[session]"), ("participant", "[participant]"), ("sensors", "[sensors]"),
+                            ("checks", "[checks]")):
+            assert set(m.get(table, {})) <= set(keys[name]), f"{path} [{table}]"
+        for src in m.get("source", []):
+            assert set(src) <= set(keys["[[source]]"]), path

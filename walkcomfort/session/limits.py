@@ -1,7 +1,7 @@
 """The limits a session is checked against: how much a source may lose, how long a walk may last.
 
 Every limit has a default here and may be changed per session in the manifest's
-``[checks]`` table (documented in ``field_protocol/manifest.md``):
+``[checks]`` table (documented in ``docs/formats/session-manifest.md``):
 
 =========================  =======  ===================================================================
 key                        default  meaning

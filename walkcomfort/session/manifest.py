@@ -4,8 +4,8 @@ A session folder holds the raw files of one walk of one participant and a
 ``session.toml`` that says what each file is, which device clock wrote it, which
 columns hold which quantity and in which unit. This module turns that manifest
 into a :class:`SessionSpec` or raises one :class:`~walkcomfort.errors.InputError`
-naming the manifest and the key that is wrong. The schema is documented in
-``field_protocol/manifest.md`` and summarised in DEVELOPERS.md.
+naming the manifest and the key that is wrong. Every key is documented in
+``docs/formats/session-manifest.md``.
 
 Nothing here reads the data files; it only checks that they exist and that every
 path stays inside the session folder.
@@ -90,6 +90,15 @@ SENSOR_CHOICES: dict[str, tuple[tuple[str, ...], str | None]] = {
     "globe_type": (("black_150mm", "grey_38mm"), None),
     "anemometer": (("carried", "fixed"), None),
 }
+
+
+def table_keys() -> dict[str, tuple[str, ...]]:
+    """Every key each manifest table accepts (docs/formats/session-manifest.md is checked against it)."""
+    from walkcomfort.session.limits import CHECK_KEYS
+
+    return {"top level": _TOP_KEYS, "[session]": _SESSION_KEYS, "[participant]": _PARTICIPANT_KEYS,
+            "[sensors]": (*SENSOR_KEYS, *SENSOR_CHOICES), "[devices.<name>]": _DEVICE_KEYS,
+            "[[sync]]": _SYNC_KEYS, "[checks]": tuple(CHECK_KEYS), "[[source]]": _SOURCE_KEYS}
 
 
 @dataclass(frozen=True)
@@ -227,7 +236,7 @@ def load_manifest(session_dir: str | os.PathLike) -> SessionSpec:
         raise InputError(f"session folder '{folder}' does not exist", fix="give the folder that holds session.toml")
     if not manifest.is_file():
         raise InputError(f"no {MANIFEST_NAME} in '{folder}'", where=folder,
-                         fix=f"write a {MANIFEST_NAME} (see field_protocol/manifest.md)")
+                         fix=f"write a {MANIFEST_NAME} (see docs/formats/session-manifest.md)")
     raw = manifest.read_bytes()
     try:
         data = tomllib.loads(raw.decode("utf-8-sig"))

@@ -5,7 +5,7 @@ quarantined rows, duplicates, out-of-order rows, values outside
 :data:`walkcomfort.columns.PHYSICAL_RANGES`, gaps longer than the maximum gap,
 coverage over the walk, GPS jumps, votes/frames outside the track's span, and the
 clock-fit residuals. ``summary`` gathers the counts a reader looks at first;
-the keys are documented in ``field_protocol/manifest.md``.
+the keys are documented in ``docs/formats/session-manifest.md``.
 """
 
 from __future__ import annotations

@@ -59,7 +59,7 @@ def suggest(word: str, options) -> str | None:
 def table(data: dict, key: str, m: str, required: bool = False) -> dict:
     if key not in data:
         if required:
-            raise InputError(f"missing [{key}] table", where=m, fix=f"add a [{key}] table (see field_protocol/manifest.md)")
+            raise InputError(f"missing [{key}] table", where=m, fix=f"add a [{key}] table (see docs/formats/session-manifest.md)")
         return {}
     v = data[key]
     if not isinstance(v, dict):
