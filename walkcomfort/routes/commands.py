@@ -71,7 +71,7 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
                    spacing_m=5.0, flat_speed_ms=1.3, route_id=None, dem=None, max_station_km=50.0,
                    logger_wind_height=None, no_reasons=False, include_base=True, echo=None, walker=None,
                    actual_year=False, weather_format=None, weather_map=None, wbgt_limit=None, index="utci",
-                   strict=False):
+                   strict=False, sensitivity=False):
     """Read the inputs named on the command line, run the comparison, write outputs if ``out_dir``.
 
     Returns
@@ -136,7 +136,28 @@ def run_from_files(route_path, scheme_paths, departures, out_dir=None, scene_pat
                   "wbgt_limit_c": wbgt_limit, "index": index}
         prov = _io.provenance(inputs, params)
         written = _write(result, out_dir, prov, timezone)
+    if sensitivity:
+        written.update(_sensitivity(route, schemes, deps, weather, scene, predictor, out_dir, echo, result,
+                                    flat_speed_ms=flat_speed_ms, timezone=timezone, walker=walker_attrs))
     return result, written
+
+
+def _sensitivity(route, schemes, deps, weather, scene, predictor, out_dir, echo, result, **kw) -> dict:
+    """``--sensitivity``: the comparison re-run with crown density and ground at the ends of their ranges."""
+    from walkcomfort import _io
+    from walkcomfort.routes.sensitivity import scheme_sensitivity, sensitivity_line
+
+    if scene is None or not schemes:
+        raise InputError("a sensitivity run varies the scene and the schemes; none was given", where="--sensitivity",
+                         fix="give --scene and at least one --scheme")
+    table = scheme_sensitivity(route, schemes, deps, weather, scene,
+                               predictor=predictor if predictor.is_model else None, **kw)
+    line = sensitivity_line(table)
+    echo(f"note: {line}")
+    result.notices.append(line)
+    if out_dir is None:
+        return {}
+    return {"sensitivity.csv": _io.write_csv(Path(out_dir) / "sensitivity.csv", table, index=False)}
 
 
 def route_coverage(route, scene, strict: bool, scene_path, echo) -> str | None:
@@ -254,6 +275,9 @@ def route(route_path, scheme_path, **kw):
 @route_options
 @INDEX_OPTION
 @WBGT_LIMIT_OPTION
+@click.option("--sensitivity", is_flag=True,
+              help="Also re-run the comparison with crown density and ground material at the ends of their "
+                   "ranges; writes sensitivity.csv and says whether the schemes' ranking holds.")
 def compare(route_path, scheme_paths, **kw):
     """Compare shade schemes side by side along a planned route (with the base scene).
 
