@@ -302,3 +302,55 @@ def test_every_manifest_we_ship_uses_documented_keys_only():
             assert set(m.get(table, {})) <= set(keys[name]), f"{path} [{table}]"
         for src in m.get("source", []):
             assert set(src) <= set(keys["[[source]]"]), path
+
+
+# --- model bundle --------------------------------------------------------------------
+
+def test_model_bundle_page_names_the_files_and_manifest_keys_a_fit_writes(tmp_path):
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.evaluate import training_table
+    from walkcomfort.model.workflow import fit_table, write_fit_outputs
+
+    table = training_table(synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=600, seed=3))
+    write_fit_outputs(fit_table(table, n_estimators=10, n_boot=0, feature_set="planned"), tmp_path)
+    documented = {n for row in table_rows("model-bundle.md", "## Files") for n in names_in(row[0])}
+    written = {p.relative_to(tmp_path).as_posix() for p in tmp_path.rglob("*") if p.is_file()}
+    written = {re.sub(r"fold_\d+", "fold_<k>", w) for w in written}
+    assert written == documented
+    keys = {n for row in table_rows("model-bundle.md", "## `manifest.json` keys") for n in names_in(row[0])}
+    manifest = json.loads((tmp_path / "manifest.json").read_text())
+    assert set(manifest) - {"walkcomfort"} == keys - {"walkcomfort-model/1"}
+
+
+# --- network outputs -----------------------------------------------------------------
+
+def test_network_outputs_page_lists_every_file_a_job_owns():
+    from walkcomfort.network.jobdir import OWN_FILES, OWN_PATTERNS, RESULTS_DIR
+
+    rows = table_rows("network-outputs.md")
+    documented = {n for row in rows for n in names_in(row[0])}
+    expected = set(OWN_FILES) | {p.replace("*", "<scheme>") for p in OWN_PATTERNS}
+    assert expected <= documented, f"network-outputs.md lacks {sorted(expected - documented)}"
+    assert any(n.startswith(RESULTS_DIR + "/") for n in documented)
+    extra = {n for n in documented if not n.startswith(RESULTS_DIR + "/")} - expected
+    assert not extra, f"network-outputs.md names files a job does not own: {sorted(extra)}"
+
+
+# --- weather column map --------------------------------------------------------------
+
+def test_weather_map_page_example_reads_a_logger_file(tmp_path):
+    from walkcomfort.routes.loggerweather import MAP_EXTRA_KEYS, read_mapped_logger
+
+    text = (DOCS / "weather-map.md").read_text(encoding="utf-8")
+    toml = re.search(r"```toml weather-map-example\n(.*?)```", text, re.S).group(1)
+    (tmp_path / "station.toml").write_text(toml, encoding="utf-8")
+    # two invented readings in the layout the map describes: 86 °F = 30 °C, 18 km/h = 5 m/s
+    (tmp_path / "station.csv").write_text("DateTime;Temp_F;RH;Wind_kmh\n15/07/2026 14:00;86,0;40;18,0\n"
+                                          "15/07/2026 14:10;87,8;38;14,4\n", encoding="utf-8")
+    df, height = read_mapped_logger(tmp_path / "station.csv", tmp_path / "station.toml")
+    assert height == 2.0
+    assert df.index[0] == pd.Timestamp("2026-07-15T12:00Z")  # 14:00 CEST
+    assert df["t_air_c"].iloc[0] == pytest.approx(30.0)
+    assert df["wind_ms"].iloc[0] == pytest.approx(5.0)
+    documented = {n for row in table_rows("weather-map.md") for n in names_in(row[0])}
+    assert set(MAP_EXTRA_KEYS) == documented
