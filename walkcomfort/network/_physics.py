@@ -145,7 +145,7 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
     no exposure before the segment is known at network scale.
     Rows are point-major: row ``i * T + j`` is point ``i`` at time ``j``.
     """
-    from walkcomfort.routes.timing import walking_speed_ms
+    from walkcomfort.routes.timing import DEFAULT_FLAT_SPEED_MS, walking_speed_ms
 
     pts = part.points
     n, t = len(pts), len(part.times)
@@ -164,8 +164,9 @@ def segment_walks(part: Partition, env: dict[str, np.ndarray]) -> pd.DataFrame:
         slope = np.where(span > 0, 100.0 * (last - first) / span, 0.0)
     slope = np.where(np.isfinite(slope), slope, 0.0)
     elev = np.where(np.isfinite(z), z, site_elev)
-    # Tobler's function on the segment's slope, scaled to the routes' flat speed (routes.timing)
-    speed = np.asarray(walking_speed_ms(slope / 100.0), dtype=float)
+    # Tobler's function on the segment's slope, scaled to the flat speed (network --speed, as route)
+    flat = float(part.context.get("flat_speed_ms", DEFAULT_FLAT_SPEED_MS))
+    speed = np.asarray(walking_speed_ms(slope / 100.0, flat_speed_ms=flat), dtype=float)
     offset_s = pts["point_n"].to_numpy() * step_m / speed
     times = (np.asarray(part.times.as_unit("ns").asi8)[None, :]
              + np.round(offset_s * 1e9).astype(np.int64)[:, None]).ravel()

@@ -20,11 +20,18 @@ QUARANTINE_CSV = "network_quarantine.csv"
 EXIT_PARTITIONS_FAILED = 3
 
 
+def _check_speed(speed: float) -> float:
+    if not (0.3 <= float(speed) <= 2.5):
+        raise InputError(f"walking speed {speed:g} m/s is outside 0.3–2.5 m/s", where="--speed",
+                         fix="give the flat-ground walking speed in m/s, e.g. 1.1 for an older walker")
+    return float(speed)
+
+
 def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezone, weather_path=None,
                     conditions=None, segment_length_m=50.0, spacing_m=10.0, tile_size_m=250.0, time_chunk=24,
                     min_sun_elev_deg=5.0, model=None, logger_wind_height=None, max_station_km=50.0,
                     daytime=False, index="utci", wbgt_limit=None, strict=False, weather_format=None,
-                    weather_map=None):
+                    weather_map=None, flat_speed_ms=None):
     """Read the inputs named on the command line and plan the batch (returns ``(network, job)``)."""
     from walkcomfort.network.batch import BASE, plan_job, sunlit_times, time_range
     from walkcomfort.network.segments import load_network
@@ -91,6 +98,8 @@ def plan_from_files(streets, scene_path, scheme_paths, start, end, step, timezon
     if wbgt_limit is not None:
         context["indices"] = [*context.get("indices", []), "wbgt"]
         context["wbgt_limit_c"] = float(wbgt_limit)
+    if flat_speed_ms is not None:  # only when stated: a run at the routes' default keeps its digest
+        context["flat_speed_ms"] = _check_speed(flat_speed_ms)
     weather = weather.copy()
     weather.attrs = {}
     job = plan_job(network, times, scenes, weather, tile_size_m=tile_size_m, time_chunk=time_chunk,
@@ -183,10 +192,13 @@ def write_outputs(out_dir, network, job, report) -> dict:
               help="Also estimated WBGT per segment x time and the hours above this limit [°C] per segment. "
                    "A planning estimate, not a heat-safety assessment.")
 @click.option("--strict", is_flag=True, help="Refuse a network that lies mostly outside the scene's extent.")
+@click.option("--speed", "flat_speed_ms", type=float, default=None,
+              help="Walking speed on flat ground [m/s] (slopes by Tobler's function), as for 'route'; default 1.3.")
 def network(streets, scene_path, scheme_paths, weather_path, weather_format, weather_map, conditions,
             logger_wind_height, max_station_km, model, start, end, step, timezone, daytime, segment_length_m,
             spacing_m, tile_size_m, time_chunk, min_sun_elev_deg, engine, scheduler, workers, threads_per_worker,
-            write_on, retries, resume, overwrite, out_dir, index="utci", wbgt_limit=None, strict=False):
+            write_on, retries, resume, overwrite, out_dir, index="utci", wbgt_limit=None, strict=False,
+            flat_speed_ms=None):
     """Batch every street segment x time x scheme of a network; write rows, summaries and GeoJSON.
 
     Predictions are estimates for comparing design options, not a safety assessment:
@@ -204,7 +216,7 @@ def network(streets, scene_path, scheme_paths, weather_path, weather_format, wea
                                weather_path, conditions, segment_length_m, spacing_m, tile_size_m, time_chunk,
                                min_sun_elev_deg, model, logger_wind_height, max_station_km, daytime, index=index,
                                wbgt_limit=wbgt_limit, strict=strict, weather_format=weather_format,
-                               weather_map=weather_map)
+                               weather_map=weather_map, flat_speed_ms=flat_speed_ms)
     click.echo(f"network {net.name}: {net.n_segments} segments, {job.parameters['times']['n']} times, "
                f"{len(job.schemes)} schemes -> {job.expected_rows} rows in {len(job.partitions)} partitions",
                err=True)
