@@ -24,7 +24,13 @@ Measured (2 shared cores, load 3–7, December 2026): with the model 0.26 ms (2,
 (the row-count check); Dask 2 workers x1.2–1.4 of
 in-process CPU; driver peak 36 MB (2,000) and 145 MB (8,000), unchanged by the run
 (inputs and plan); 3.5 kB per task instead of 66–75 kB; tile data 58–65 kB once per tile;
-1.0 CPU-hour projected for 12 M rows.
+1.0 CPU-hour projected for 12 M rows. Since the environment chain computes Tmrt from the
+sunlit and shaded surfaces in view (radiation="surroundings", the default from 3 December
+2026) the same run measures 2.45 ms per row with the model and 2.38 ms with the rule alone
+(2,000 segments, OMP_NUM_THREADS=1; 8.2 CPU-hours for 12 M rows): the goal is then not met,
+and the time is in ``environment.surroundings.walker_fluxes`` (surface temperatures: the
+diurnal forcing recomputes sun position and clear-sky irradiance, with pvlib's turbidity
+table lookup, for every partition), not in the batch machinery (engine / path before x0.97).
 
 ``--engines``: the engine comparison at 2,000 segments (in-process, LocalCluster with 1
 and 2 workers) against naive one-segment-hour-at-a-time baselines, with a projection
