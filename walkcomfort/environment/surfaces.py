@@ -62,6 +62,7 @@ References
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -246,6 +247,14 @@ def diurnal_forcing(time_now, lat: float, lon: float, elev_m: float = 0.0, step_
     return out
 
 
+@functools.lru_cache(maxsize=1024)
+def _forcing(key_ns: int, lat: float, lon: float, elev_m: float, step_s: float) -> pd.DataFrame:
+    """:func:`diurnal_forcing` kept per process: the same site and step recur in every row set and
+    every partition of a batch, and the sun and clear sky of the days before do not change.
+    Callers only read the frame."""
+    return diurnal_forcing(pd.Timestamp(key_ns, tz="UTC"), lat, lon, elev_m, step_s)
+
+
 def _sky_longwave(t_air_c, e_hpa):
     tak = np.asarray(t_air_c, float) + 273.15
     eps = np.minimum(1.24 * np.power(np.maximum(e_hpa, 0.0) / tak, 1.0 / 7.0), 1.0)  # Brutsaert (1975)
@@ -333,12 +342,8 @@ def surface_temperatures(times, lat: float, lon: float, t_air_c, rh_pct, wind_ms
     ta_k, rh_k, u_k, kc_k = uk[:, 1], uk[:, 2], uk[:, 3], uk[:, 4]
     cols = {k: [] for k in (C.SUN_ELEV_DEG, C.SUN_AZIM_DEG, C.DNI_WM2, C.DHI_WM2)}
     hist = []
-    cache: dict = {}
     for j, key in enumerate(t_key[first]):
-        f = cache.get(key)
-        if f is None:
-            f = diurnal_forcing(pd.Timestamp(key, tz="UTC"), lat, lon, elev_m, step_s)
-            cache[key] = f
+        f = _forcing(int(key), float(lat), float(lon), float(elev_m), float(step_s))
         for c in cols:
             cols[c].append(f[c].to_numpy())
         sh = f["solar_hour"].to_numpy()
