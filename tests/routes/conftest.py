@@ -48,3 +48,17 @@ def gso_file():
     from walkcomfort.routes.weather import WeatherFile
 
     return WeatherFile(pvlib_data() / "723170TYA.CSV")
+
+
+@pytest.fixture(scope="session")
+def folded_bundle(tmp_path_factory):
+    """A small fitted bundle with its 4 fold models (grouped validation by walker), for the
+    intervals of route comparisons and of the placement advisor's gains."""
+    from walkcomfort.model._synthetic import synthetic_campaign
+    from walkcomfort.model.evaluate import training_table
+    from walkcomfort.model.workflow import fit_table, write_fit_outputs
+
+    table = training_table(synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900, seed=2))
+    folder = tmp_path_factory.mktemp("bundle")
+    write_fit_outputs(fit_table(table, n_estimators=30, n_boot=0, feature_set="planned"), folder)
+    return folder

@@ -205,23 +205,10 @@ def test_the_advisor_response_reproduces_the_chain_on_the_base_scene(street):
     np.testing.assert_allclose(utci, table["utci_c"].to_numpy(float), atol=1e-9)
 
 
-@pytest.fixture(scope="module")
-def small_bundle(tmp_path_factory):
-    """A small fitted bundle with its fold models (as in the route prediction tests)."""
-    from walkcomfort.model._synthetic import synthetic_campaign
-    from walkcomfort.model.evaluate import training_table
-    from walkcomfort.model.workflow import fit_table, write_fit_outputs
-
-    table = training_table(synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900, seed=2))
-    folder = tmp_path_factory.mktemp("bundle")
-    write_fit_outputs(fit_table(table, n_estimators=30, n_boot=0, feature_set="planned"), folder)
-    return folder
-
-
-def test_comfort_objective_gains_carry_the_fold_interval(street, small_bundle):
+def test_comfort_objective_gains_carry_the_fold_interval(street, folded_bundle):
     from walkcomfort.routes.predict import Predictor
 
-    pred = Predictor.from_bundle(small_bundle)
+    pred = Predictor.from_bundle(folded_bundle)
     sites = sites_along_routes([street["route"]], street["scene"], offset_m=3, spacing_m=10)
     adv = advise([street["walk"]], street["scene"], sites, TREE, objective="comfort", max_count=2,
                  predictor=pred)

@@ -236,19 +236,6 @@ def _scheme_named_half(edits):
     return scheme_from_geojson({"type": "FeatureCollection", "walkcomfort": {"scheme": "half"}, "features": edits})
 
 
-@pytest.fixture(scope="module")
-def folded_bundle(tmp_path_factory):
-    """A small fitted bundle with its 4 fold models (grouped validation by walker)."""
-    from walkcomfort.model._synthetic import synthetic_campaign
-    from walkcomfort.model.evaluate import training_table
-    from walkcomfort.model.workflow import fit_table, write_fit_outputs
-
-    table = training_table(synthetic_campaign(n_participants=4, walks_per_participant=1, duration_s=900, seed=2))
-    folder = tmp_path_factory.mktemp("bundle")
-    write_fit_outputs(fit_table(table, n_estimators=30, n_boot=0, feature_set="planned"), folder)
-    return folder
-
-
 def test_scheme_differences_carry_intervals_and_the_flag(street, scene, folded_bundle):
     from walkcomfort.routes.compare import DELTA_COLUMNS
 
