@@ -157,9 +157,11 @@ def is_model_bundle(path: Path) -> bool:
 @click.option("--site", default=None, help="Site name for the title block (default: the table's).")
 @click.option("--sites", "sites_path", type=click.Path(path_type=Path), default=None,
               help="sites.geojson of 'walkcomfort advise': chosen sites numbered in order, runner-ups faded.")
+@click.option("--index", type=click.Choice(["utci", "pet"]), default="utci", show_default=True,
+              help="Thermal index of the band colouring and the popups (pet needs tables from --index pet).")
 def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, network_dir, network_schemes,
          online, offline_flag, tiles, attribution, max_zoom, timezone, layers, decimals, simplify_m, error_cell_m,
-         budget_mb, title, site, sites_path):
+         budget_mb, title, site, sites_path, index):
     """Write the HTML route map from prediction tables (POINTS) and/or recorded walks.
 
     POINTS are points.parquet files (or their folders) from 'walkcomfort route' / 'compare';
@@ -192,7 +194,8 @@ def map_(points, out_html, scene_path, scheme_paths, walk_paths, model_path, net
                      summaries=t["summaries"], comparison=t["comparison"], context=context,
                      timezone=zone, tiles=tiles, attribution=attribution, max_zoom=max_zoom,
                      layers=tuple(k.strip() for k in layers.split(",") if k.strip()), decimals=decimals,
-                     simplify_m=simplify_m, error_cell_m=error_cell_m, title=title, sites=sites_path)
+                     simplify_m=simplify_m, error_cell_m=error_cell_m, title=title, sites=sites_path,
+                     index=index)
     path = _write_reporting_warnings(fmap, out_html, online, budget_mb)
     click.echo(f"wrote {path} ({path.stat().st_size / 1e3:.0f} kB{', loads Leaflet online' if online else ''})")
 

@@ -22,7 +22,7 @@ from walkcomfort.report.map.inputs import (
     walk_frames,
     zone_of,
 )
-from walkcomfort.report.map.legend import CAUTION, legend_config
+from walkcomfort.report.map.legend import CAUTION, index_config, legend_config
 from walkcomfort.report.map.scene import scene_features
 from walkcomfort.report.map.sites import sites_payload
 from walkcomfort.report.map.tiles import TileSource, tile_source
@@ -93,7 +93,7 @@ def _walks(df: pd.DataFrame) -> tuple[list[RL.Walk], list[int]]:
     return out, sorted({int(d) for d in deps})
 
 
-def _route_data(predictions, summaries, comparison, zone, decimals, simplify_m, label_of) -> dict:
+def _route_data(predictions, summaries, comparison, zone, decimals, simplify_m, label_of, index="utci") -> dict:
     df = check_predictions(predictions)
     walks, dep_list = _walks(df)
     base = {w.dep_ns: w for w in walks if w.scheme == BASE}
@@ -107,7 +107,7 @@ def _route_data(predictions, summaries, comparison, zone, decimals, simplify_m, 
     combos: dict[str, list] = {s: [None] * len(dep_list) for s in schemes}
     predictors: set = set()
     for w in walks:
-        data = RL.route_payload(w, zone, int(decimals), float(simplify_m))
+        data = RL.route_payload(w, zone, int(decimals), float(simplify_m), index)
         data["summ"] = [summary_of(r, w.scheme, w.dep_ns) for r in data["routes"]]
         predictors.update(data["predictors"])
         combos[w.scheme][dep_list.index(w.dep_ns)] = data
@@ -170,7 +170,7 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
               max_zoom: int | None = None, layers: Iterable[str] = DEFAULT_LAYERS, decimals: int = 5,
               simplify_m: float = 1.0, error_cell_m: float = 50.0, title: str | None = None,
               error_source: str = "in-sample", network: Iterable = (), network_times: str | None = None,
-              sites=None) -> RouteMap:
+              sites=None, index: str = "utci") -> RouteMap:
     """Build the interactive route map.
 
     Parameters
@@ -213,6 +213,9 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
         The hours and days the street layers cover, in words (legend and popups).
     sites : path or dict, optional
         ``sites.geojson`` of ``walkcomfort advise``: chosen sites numbered, runner-ups faded.
+    index : {"utci", "pet"}
+        The thermal index of the band colouring and the popups' index value; ``"pet"``
+        needs ``pet_c`` in the table (``compare --index pet``). Streets stay on UTCI.
 
     Returns
     -------
@@ -230,7 +233,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     data: dict = {"tz": str(timezone), "routes": None, "scenes": None, "streets": None, "walks": [], "errors": None,
                   "sites": sites_payload(sites, int(decimals)) if sites is not None else None}
     if predictions is not None:
-        data["routes"] = _route_data(predictions, summaries, comparison, zone, decimals, simplify_m, label_of)
+        _check_index(index, predictions)
+        data["routes"] = _route_data(predictions, summaries, comparison, zone, decimals, simplify_m, label_of, index)
     shown = [s["name"] for s in data["routes"]["schemes"]] if data["routes"] else []
     if scene is not None and "scene" in layers:
         data["scenes"] = _scene_data(scene, scheme_docs, shown, decimals, simplify_m)
@@ -244,6 +248,8 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     data["cfg"] = legend_config(routes["scales"] if routes else None, bool(routes and routes["comfort_from_model"]),
                                 street_scale, ST.hours_keys(street_scale) if street_scale else None, error_source)
     data["cfg"]["sites"] = dict(P.SITE_COLOURS)
+    if index == "pet":
+        data["cfg"].update(index_config("pet"))
     data["context"] = _context(context, routes, label_of)
     data["title"] = title or ("Predicted walking comfort" if predictions is not None else
                               "Predicted comfort on the street network" if net_docs else "Recorded walks")
@@ -251,6 +257,15 @@ def route_map(predictions: pd.DataFrame | None = None, *, scene=None, schemes: I
     data["bounds"] = [[min(lat), min(lon)], [max(lat), max(lon)]] if lat else None
     data["overlays"] = _overlays(data, alone=predictions is None, streets=bool(net_docs))
     return RouteMap(data["title"], data, tile_source(tiles, attribution, max_zoom))
+
+
+def _check_index(index: str, predictions: pd.DataFrame) -> None:
+    if index not in ("utci", "pet"):
+        raise InputError(f"index {index!r} is not known; allowed: utci, pet", where="--index",
+                         fix="choose utci or pet")
+    if index == "pet" and "pet_c" not in predictions.columns:
+        raise InputError("the prediction table has no pet_c column to colour by PET", where="--index pet",
+                         fix="run 'walkcomfort compare' (or 'route') with --index pet first")
 
 
 def _overlays(data: dict, alone: bool, streets: bool) -> dict:

@@ -120,6 +120,18 @@ def bands(df: pd.DataFrame) -> np.ndarray:
     return out
 
 
+def pet_classes(df: pd.DataFrame) -> np.ndarray:
+    """Index into the PET classes (environment.pet.PET_CLASSES) per row of ``pet_c`` (-1 = none)."""
+    from walkcomfort.environment.pet import PET_C, PET_CLASSES
+
+    out = np.full(len(df), -1, dtype=int)
+    if PET_C in df.columns:
+        pet = df[PET_C].to_numpy(float)
+        for i, (low, high, _, _) in enumerate(PET_CLASSES):
+            out[(out < 0) & (pet > low) & (pet <= high)] = i
+    return out
+
+
 def shade_bins(shade: np.ndarray) -> np.ndarray:
     out = np.full(len(shade), -1, dtype=int)
     ok = np.isfinite(shade)

@@ -90,3 +90,23 @@ def legend_config(route_scales: dict | None, comfort_from_model: bool, street_sc
         "errors_title": ("Where the model errs on held-out walkers" if error_source == "held-out"
                          else "Where the model errs (in-sample)"),
     }
+
+
+def index_config(index: str) -> dict:
+    """What changes in the page's configuration when the band colouring follows PET.
+
+    The route bands become the PET classes (Matzarakis & Mayer 1996, boundaries from
+    memory; our own ramp, :data:`walkcomfort.environment.pet.PET_CLASS_COLOURS`); the
+    streets keep the UTCI bands (``street_utci``), which their layers carry.
+    """
+    from walkcomfort.environment.pet import PET_CLASS_COLOURS, PET_CLASSES
+
+    if index != "pet":
+        return {}
+    utci = [{"name": b[2], "label": b[2][0].upper() + b[2][1:], "range": band_range(b[0], b[1]),
+             "colour": P.UTCI_BAND_COLOURS[b[2]]} for b in C.UTCI_BANDS]
+    pet = [{"name": c[2], "label": f"{c[2][0].upper() + c[2][1:]} ({c[3]})", "range": band_range(c[0], c[1]),
+            "colour": PET_CLASS_COLOURS[c[2]]} for c in PET_CLASSES]
+    return {"utci": pet, "street_utci": utci,
+            "index": {"key": "pet", "name": "PET", "band_label": "PET class",
+                      "scale_title": "PET classes of thermal perception (Matzarakis & Mayer 1996)"}}

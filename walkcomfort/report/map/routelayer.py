@@ -170,10 +170,15 @@ def _simplified(frame: pd.DataFrame, keys: list[np.ndarray], simplify_m: float) 
     return keep
 
 
-def route_payload(walk: Walk, zone, decimals: int, simplify_m: float) -> dict:
-    """Columnar data of one scheme × departure (JSON-able; NaN as null)."""
+def route_payload(walk: Walk, zone, decimals: int, simplify_m: float, index: str = "utci") -> dict:
+    """Columnar data of one scheme × departure (JSON-able; NaN as null).
+
+    ``index="pet"``: the band colouring and the index value are PET's (``pet_c``).
+    """
+    from walkcomfort.report.map.inputs import pet_classes
+
     g0 = walk.frame
-    cls, band = class_index(g0), bands(g0)
+    cls, band = class_index(g0), (pet_classes(g0) if index == "pet" else bands(g0))
     shade = col(g0, C.SHADE_FRAC)
     sbin = shade_bins(shade)
     keep = _simplified(g0, [cls, band, sbin, *walk.diff_cls.values()], simplify_m)
@@ -196,6 +201,7 @@ def route_payload(walk: Walk, zone, decimals: int, simplify_m: float) -> dict:
         "cls": cls[keep].tolist(), "band": band[keep].tolist(), "sbin": sbin[keep].tolist(),
         "p": [num(col(g, p), 2) for p in PROBA],
         "utci": num(col(g, C.UTCI_C), 1), "tmrt": num(col(g, C.TMRT_C), 1), "tair": num(col(g, C.T_AIR_C), 1),
+        **({"pet": num(col(g, "pet_c"), 1)} if index == "pet" else {}),
         "shade": num(shade[keep], 2),
         "reasons": reason_list, "r": reason_codes,
         "d": {m: num(v[keep], 2) for m, v in walk.diff.items()},

@@ -128,7 +128,12 @@
     for (k = 0; k < cfg.comfort.length; k++) {
       if (d.p[k][i] !== null) { row(t, "\u2003chance " + cfg.comfort[k].label.toLowerCase(), pct(d.p[k][i])); }
     }
-    row(t, "UTCI", num(d.utci[i], 1, "\u00b0C") + (d.band[i] >= 0 ? " (" + cfg.utci[d.band[i]].name + ")" : ""));
+    if (d.pet) {
+      row(t, "PET", num(d.pet[i], 1, "\u00b0C") + (d.band[i] >= 0 ? " (" + cfg.utci[d.band[i]].name + ")" : ""));
+      row(t, "UTCI", num(d.utci[i], 1, "\u00b0C"));
+    } else {
+      row(t, "UTCI", num(d.utci[i], 1, "\u00b0C") + (d.band[i] >= 0 ? " (" + cfg.utci[d.band[i]].name + ")" : ""));
+    }
     row(t, "Mean radiant temperature", num(d.tmrt[i], 1, "\u00b0C"));
     if (d.tair[i] !== null) { row(t, "Air temperature", num(d.tair[i], 1, "\u00b0C")); }
     row(t, "Sun blocked", pct(d.shade[i]));
@@ -221,7 +226,7 @@
   }
 
   function streetKeys(s) {
-    if (S.colouring === "utci") { return cfg.utci; }
+    if (S.colouring === "utci") { return cfg.street_utci || cfg.utci; }
     if (S.colouring === "shade") { return cfg.shade; }
     if (diffOn() && s.change) { return cfg.street_diff[S.metric] || []; }
     return cfg.street_hours;
@@ -415,7 +420,7 @@
   function usedBands() {
     var d = current(), seen = {};
     if (d) { d.band.forEach(function (b) { seen[b] = true; }); }
-    if (D.streets && drawn.streets) {
+    if (D.streets && drawn.streets && !cfg.index) {  // with PET on the routes the streets keep their own UTCI scale
       Object.keys(D.streets).forEach(function (s) { D.streets[s].k.utci.forEach(function (b) { seen[b] = true; }); });
     }
     return seen;
@@ -425,7 +430,7 @@
     var keys = routeKeys(), m = cfg.measures[S.metric], title, items, bands;
     if (diffOn()) {
       title = "Routes: " + schemeLabel(S.scheme) + " minus the base \u2014 " + m.point;
-    } else if (S.colouring === "utci") { title = "Routes: UTCI assessment scale"; }
+    } else if (S.colouring === "utci") { title = "Routes: " + (cfg.index ? cfg.index.scale_title : "UTCI assessment scale"); }
     else if (S.colouring === "shade") { title = "Routes: share of direct sun blocked"; }
     else { title = "Routes: most likely comfort"; }
     if (S.colouring === "utci") {
@@ -520,7 +525,8 @@
       g = el("fieldset", "wc-colourings");
       g.appendChild(el("legend", null, "Colour by"));
       ui.colourings = {};
-      [["comfort", "Predicted comfort"], ["utci", "UTCI band"], ["shade", "Shade"], ["difference", "Difference from base"]]
+      [["comfort", "Predicted comfort"], ["utci", cfg.index ? cfg.index.band_label : "UTCI band"], ["shade", "Shade"],
+       ["difference", "Difference from base"]]
         .forEach(function (c) {
           var lab = el("label", "wc-radio"), inp = el("input");
           inp.type = "radio"; inp.name = "wc-colouring"; inp.value = c[0];
@@ -569,7 +575,8 @@
   }
 
   function refreshStatus() {
-    var r = routes(), names = {comfort: "predicted comfort", utci: "UTCI band", shade: "shade"}, text;
+    var r = routes(), names = {comfort: "predicted comfort", utci: cfg.index ? cfg.index.band_label : "UTCI band",
+                               shade: "shade"}, text;
     if (!ui.status) { return; }
     if (!r) {
       ui.status.textContent = "Showing: " + schemeLabel(S.scheme) + (D.streets ? " \u00b7 " + (diffOn() ?
